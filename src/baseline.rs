@@ -1,0 +1,300 @@
+//! `acquest baseline`: the data's groups and label bias, and the current model's accuracy and
+//! fairness over repeated trials, gathered into a [`BaselineReport`].
+
+use crate::data::{Dataset, Table, Values};
+use crate::error::{Error, Result};
+use crate::metrics::{self, estimate, Estimate, GroupCounts, FOUR_FIFTHS};
+use crate::model;
+use crate::report::*;
+use crate::settings::Settings;
+use crate::trial::{self, ProgressSink, TrialOutcome};
+
+/// Reads the data, runs the trials and builds the report.
+pub fn run(settings: &Settings, progress: ProgressSink) -> Result<BaselineReport> {
+    let (table, data) = Dataset::load(settings)?;
+    let family = model::family(settings.trials.model);
+    let outcomes = trial::repeated_trials(
+        &data,
+        family.as_ref(),
+        settings.trials.repeats,
+        settings.trials.test_fraction,
+        settings.trials.seed,
+        progress,
+    )?;
+    build_report(settings, &table, &data, &outcomes)
+}
+
+/// Assembles the report from the trials' outcomes.
+pub fn build_report(
+    settings: &Settings,
+    table: &Table,
+    data: &Dataset,
+    outcomes: &[TrialOutcome],
+) -> Result<BaselineReport> {
+    let sizes = data.group_sizes();
+    let names: Vec<String> = data.group_list.iter().map(|g| g.name.clone()).collect();
+    let groups: Vec<GroupSummary> = data
+        .group_list
+        .iter()
+        .zip(&sizes)
+        .map(|(g, &(rows, favourable))| GroupSummary {
+            name: g.name.clone(),
+            definition: g.definition.clone(),
+            rows,
+            favourable_labels: favourable,
+            label_rate: favourable as f64 / rows as f64,
+        })
+        .collect();
+
+    let label_counts: Vec<GroupCounts> = sizes
+        .iter()
+        .map(|&(rows, favourable)| GroupCounts {
+            rows: rows as u64,
+            favourable_labels: favourable as u64,
+            selected: favourable as u64,
+            ..GroupCounts::default()
+        })
+        .collect();
+    let reference = data.reference;
+    let label_bias = LabelBias {
+        comparisons: compared_groups(reference, names.len())
+            .map(|g| {
+                let (spd, di) =
+                    metrics::label_disparity(&label_counts[g], &label_counts[reference]);
+                LabelComparison {
+                    group: names[g].clone(),
+                    statistical_parity_difference: spd,
+                    disparate_impact: di,
+                }
+            })
+            .collect(),
+        four_fifths: metrics::four_fifths(
+            &label_counts
+                .iter()
+                .map(|c| c.favourable_labels)
+                .collect::<Vec<_>>(),
+            &label_counts.iter().map(|c| c.rows).collect::<Vec<_>>(),
+        )
+        .into_iter()
+        .map(|f| FourFifthsRecord {
+            group: names[f.group].clone(),
+            rate: f.rate,
+            impact_ratio: f.impact_ratio,
+            adverse_impact: f.adverse_impact,
+            one_person_flips: f.one_person_flips,
+            z: f.z,
+            z_p_value: f.z_p_value,
+            fisher_p_value: f.fisher_p_value,
+        })
+        .collect(),
+    };
+
+    let mut warnings = data.warnings.clone();
+    let model = summarise_model(settings, data, outcomes, &names, &mut warnings)?;
+
+    let favourable_labels = data.labels.iter().filter(|&&l| l).count();
+    let summarise = |c: &crate::data::Column| FeatureSummary {
+        name: c.name.clone(),
+        kind: c.kind().to_string(),
+        missing: c.missing_count(),
+        levels: match &c.values {
+            Values::Categorical { levels, .. } => Some(levels.len()),
+            Values::Numeric(_) => None,
+        },
+    };
+    Ok(BaselineReport {
+        format: FORMAT.into(),
+        format_version: FORMAT_VERSION,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
+        command: "baseline".into(),
+        inputs: Inputs {
+            data: table.source.clone(),
+            target: settings.schema.target.clone(),
+            favourable: data.favourable.clone(),
+            unfavourable: data.unfavourable.clone(),
+            protected: settings.schema.protected.clone(),
+            use_protected: settings.schema.use_protected,
+            model: settings.trials.model.name().into(),
+            repeats: settings.trials.repeats,
+            test_fraction: settings.trials.test_fraction,
+            seed: settings.trials.seed,
+            confidence: settings.trials.confidence,
+        },
+        data: DataSummary {
+            rows_read: data.rows_read,
+            rows_used: data.rows(),
+            dropped_missing_label: data.dropped_missing_label,
+            dropped_missing_group: data.dropped_missing_group,
+            favourable_labels,
+            features: data.features.iter().map(summarise).collect(),
+            candidates: data.candidates.iter().map(summarise).collect(),
+        },
+        groups,
+        reference: ReferenceGroup {
+            name: names[reference].clone(),
+            rule: data.reference_rule.clone(),
+        },
+        label_bias,
+        model,
+        warnings,
+        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+fn compared_groups(reference: usize, count: usize) -> impl Iterator<Item = usize> {
+    (0..count).filter(move |&g| g != reference)
+}
+
+fn summarise_model(
+    settings: &Settings,
+    data: &Dataset,
+    outcomes: &[TrialOutcome],
+    names: &[String],
+    warnings: &mut Vec<String>,
+) -> Result<ModelSummary> {
+    let first = outcomes
+        .first()
+        .ok_or_else(|| Error::Internal("no trial was run".into()))?;
+    let confidence = settings.trials.confidence;
+    let test_to_train = first.test_rows as f64 / first.train_rows as f64;
+    let summary = |values: Vec<f64>, ideal: Option<f64>| -> Option<Estimate> {
+        estimate(&values, confidence, test_to_train, ideal)
+    };
+    let collect = |f: &dyn Fn(&TrialOutcome) -> Option<f64>| -> Vec<f64> {
+        outcomes.iter().filter_map(f).collect()
+    };
+    let accuracy = summary(collect(&|o| Some(o.accuracy)), None)
+        .ok_or_else(|| Error::Internal("no accuracy was measured".into()))?;
+    let reference = data.reference;
+
+    let groups: Vec<GroupRates> = names
+        .iter()
+        .enumerate()
+        .map(|(g, name)| GroupRates {
+            group: name.clone(),
+            test_rows: outcomes
+                .iter()
+                .map(|o| o.counts[g].rows as f64)
+                .sum::<f64>()
+                / outcomes.len() as f64,
+            selection_rate: summary(collect(&|o| o.counts[g].selection_rate()), None),
+            true_positive_rate: summary(collect(&|o| o.counts[g].true_positive_rate()), None),
+            false_positive_rate: summary(collect(&|o| o.counts[g].false_positive_rate()), None),
+        })
+        .collect();
+
+    let mut comparisons = Vec::new();
+    for g in compared_groups(reference, names.len()) {
+        let per_trial: Vec<metrics::Disparity> = outcomes
+            .iter()
+            .map(|o| metrics::disparity(&o.counts[g], &o.counts[reference]))
+            .collect();
+        let pick = |f: &dyn Fn(&metrics::Disparity) -> Option<f64>| -> Vec<f64> {
+            per_trial.iter().filter_map(f).collect()
+        };
+        let spd = pick(&|d| d.statistical_parity_difference);
+        let di = pick(&|d| d.disparate_impact);
+        let eod = pick(&|d| d.equal_opportunity_difference);
+        let aod = pick(&|d| d.average_odds_difference);
+        for (values, measure) in [
+            (&di, "disparate impact"),
+            (&eod, "equal opportunity difference"),
+        ] {
+            if values.len() < outcomes.len() {
+                warnings.push(format!(
+                    "{measure} of group '{}' was undefined in {} of {} trials (a rate with \
+                     nothing to divide by) and is averaged over the rest",
+                    names[g],
+                    outcomes.len() - values.len(),
+                    outcomes.len()
+                ));
+            }
+        }
+        comparisons.push(Comparison {
+            group: names[g].clone(),
+            statistical_parity_difference: summary(spd, Some(0.0)),
+            disparate_impact: summary(di, Some(1.0)),
+            equal_opportunity_difference: summary(eod, Some(0.0)),
+            average_odds_difference: summary(aod, Some(0.0)),
+        });
+    }
+    let worst_of = |value: &dyn Fn(&Comparison) -> Option<f64>| -> Option<Worst> {
+        comparisons
+            .iter()
+            .filter_map(|c| value(c).map(|u| (c.group.clone(), u)))
+            .max_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(group, unfairness)| Worst { group, unfairness })
+    };
+    let worst = WorstGroups {
+        statistical_parity_difference: worst_of(&|c| {
+            c.statistical_parity_difference
+                .as_ref()
+                .map(|e| e.mean.abs())
+        }),
+        disparate_impact: worst_of(&|c| {
+            c.disparate_impact
+                .as_ref()
+                .map(|e| metrics::impact_unfairness(e.mean))
+        }),
+        equal_opportunity_difference: worst_of(&|c| {
+            c.equal_opportunity_difference
+                .as_ref()
+                .map(|e| e.mean.abs())
+        }),
+        average_odds_difference: worst_of(&|c| {
+            c.average_odds_difference.as_ref().map(|e| e.mean.abs())
+        }),
+    };
+
+    let per_trial_findings: Vec<Vec<metrics::FourFifthsFinding>> = outcomes
+        .iter()
+        .map(|o| {
+            metrics::four_fifths(
+                &o.counts.iter().map(|c| c.selected).collect::<Vec<_>>(),
+                &o.counts.iter().map(|c| c.rows).collect::<Vec<_>>(),
+            )
+        })
+        .collect();
+    let four_fifths = (0..names.len())
+        .filter_map(|g| {
+            let ratios: Vec<f64> = per_trial_findings
+                .iter()
+                .filter_map(|f| f.iter().find(|x| x.group == g).map(|x| x.impact_ratio))
+                .collect();
+            let e = estimate(&ratios, confidence, test_to_train, Some(1.0))?;
+            Some(ModelFourFifths {
+                group: names[g].clone(),
+                adverse_impact: e.mean < FOUR_FIFTHS,
+                trials_flagged: ratios.iter().filter(|&&r| r < FOUR_FIFTHS).count(),
+                impact_ratio: e,
+            })
+        })
+        .collect();
+
+    if outcomes.len() < 2 {
+        warnings
+            .push("with a single trial no interval can be given; use --repeats 10 or more".into());
+    }
+    let family = model::family(settings.trials.model);
+    Ok(ModelSummary {
+        family: settings.trials.model.name().into(),
+        trials: outcomes.len(),
+        train_rows: first.train_rows,
+        test_rows: first.test_rows,
+        interval_method: format!(
+            "t-interval at {confidence} over repeated stratified splits, variance inflated by \
+             1/J + n_test/n_train (corrected resampled t, Nadeau and Bengio 2003)"
+        ),
+        accuracy,
+        balanced_accuracy: summary(collect(&|o| o.balanced_accuracy), None),
+        area_under_curve: if family.gives_scores() {
+            summary(collect(&|o| o.area_under_curve), None)
+        } else {
+            None
+        },
+        groups,
+        comparisons,
+        worst,
+        four_fifths,
+    })
+}

@@ -1,0 +1,274 @@
+//! Command-line front end: clap types with no logic, progress bars, output files, exit codes
+//! (0 done, 1 failure, 2 bad input or usage).
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::Context;
+use clap::{Args, Parser, Subcommand};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+
+use acquest::settings::{Choices, Settings, PROJECT_FILE};
+use acquest::trial::Progress;
+use acquest::{baseline, demo, render};
+
+#[derive(Parser)]
+#[command(
+    name = "acquest",
+    version,
+    args_override_self = true,
+    about = "Should the data budget buy a new attribute or more records? Estimates accuracy and \
+             group-fairness gains per unit of cost, with intervals."
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Data summary, groups, bias in the labels, and the current model's accuracy and fairness
+    /// with intervals.
+    Baseline(Box<BaselineArgs>),
+    /// Write the invented demo scenario to a folder and run it.
+    Demo(DemoArgs),
+}
+
+#[derive(Args)]
+struct BaselineArgs {
+    #[command(flatten)]
+    data: DataArgs,
+    #[command(flatten)]
+    trials: TrialArgs,
+    #[command(flatten)]
+    output: OutputArgs,
+}
+
+#[derive(Args)]
+struct DemoArgs {
+    /// Folder to write the scenario into [default: acquest-demo in the system's temporary folder].
+    #[arg(long)]
+    out: Option<PathBuf>,
+    /// Only write the files; run nothing.
+    #[arg(long)]
+    no_run: bool,
+    #[command(flatten)]
+    output: OutputArgs,
+}
+
+#[derive(Args)]
+struct DataArgs {
+    /// Data file: CSV (any common separator) or Parquet.
+    #[arg(long, value_name = "FILE")]
+    data: Option<PathBuf>,
+    /// Field separator: one character, or tab / space / comma / semicolon [default: sniffed].
+    #[arg(long, value_name = "CHAR")]
+    delimiter: Option<String>,
+    /// The file has no header line; name the columns with --columns.
+    #[arg(long)]
+    no_header: bool,
+    /// Column names for a file without a header, comma-separated.
+    #[arg(long, value_delimiter = ',', value_name = "A,B,C")]
+    columns: Option<Vec<String>>,
+    /// More cell texts that mean "missing" (besides empty, ?, NA, N/A), comma-separated.
+    #[arg(long, value_delimiter = ',', value_name = "TOKENS")]
+    na: Option<Vec<String>>,
+    /// Lines to skip at the top of the file.
+    #[arg(long, value_name = "N")]
+    skip_lines: Option<usize>,
+    /// Skip lines that start with this text.
+    #[arg(long, value_name = "PREFIX")]
+    comment: Option<String>,
+    /// The label column (binary).
+    #[arg(long, value_name = "COLUMN")]
+    target: Option<String>,
+    /// The favourable label value (a trailing full stop on labels is ignored), or a threshold
+    /// such as '>=10' for a numeric target.
+    #[arg(long, value_name = "VALUE")]
+    favourable: Option<String>,
+    /// The protected attribute column.
+    #[arg(long, value_name = "COLUMN")]
+    protected: Option<String>,
+    /// Reference group [default: the group with the highest favourable rate in the labels].
+    #[arg(long, value_name = "GROUP")]
+    reference: Option<String>,
+    /// Form groups from the protected column: 'female=A92,A95;male=*' (codes, * for the rest)
+    /// or 'young=<=25;older=>25' (a numeric threshold).
+    #[arg(long, value_name = "RULES")]
+    groups: Option<String>,
+    /// Train on these columns only, comma-separated [default: every other column].
+    #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
+    features: Option<Vec<String>>,
+    /// Leave these columns out, comma-separated.
+    #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
+    exclude: Option<Vec<String>>,
+    /// Read these columns as categories even if their values look like numbers.
+    #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
+    categorical: Option<Vec<String>>,
+    /// Let the model see the protected attribute.
+    #[arg(long)]
+    use_protected: bool,
+    /// Project file with default settings [default: ./acquest.toml when present].
+    #[arg(long, value_name = "FILE")]
+    project: Option<PathBuf>,
+    /// Do not read ./acquest.toml.
+    #[arg(long, conflicts_with = "project")]
+    no_project: bool,
+}
+
+#[derive(Args)]
+struct TrialArgs {
+    /// Model family: logistic or tree [default: logistic].
+    #[arg(long, value_name = "FAMILY")]
+    model: Option<String>,
+    /// Repeated train/test trials [default: 10].
+    #[arg(long, value_name = "R")]
+    repeats: Option<usize>,
+    /// Share of rows held out for testing in each trial [default: 0.3].
+    #[arg(long, value_name = "SHARE")]
+    test_fraction: Option<f64>,
+    /// Master seed; the same inputs and seed give the same report.
+    #[arg(long, value_name = "N")]
+    seed: Option<u64>,
+    /// Confidence level of the intervals [default: 0.9].
+    #[arg(long, value_name = "LEVEL")]
+    confidence: Option<f64>,
+}
+
+#[derive(Args)]
+struct OutputArgs {
+    /// Write the JSON report to FILE ('-' for standard output, in place of the table).
+    #[arg(long, value_name = "FILE")]
+    json: Option<PathBuf>,
+    /// No progress bars.
+    #[arg(long)]
+    quiet: bool,
+}
+
+impl DataArgs {
+    fn choices(self, trials: TrialArgs) -> anyhow::Result<Choices> {
+        let flags = Choices {
+            data: self.data,
+            delimiter: self.delimiter,
+            no_header: self.no_header.then_some(true),
+            columns: self.columns,
+            na: self.na,
+            skip_lines: self.skip_lines,
+            comment: self.comment,
+            target: self.target,
+            favourable: self.favourable,
+            protected: self.protected,
+            reference: self.reference,
+            groups: self.groups,
+            features: self.features,
+            exclude: self.exclude,
+            categorical: self.categorical,
+            use_protected: self.use_protected.then_some(true),
+            model: trials.model,
+            repeats: trials.repeats,
+            test_fraction: trials.test_fraction,
+            seed: trials.seed,
+            confidence: trials.confidence,
+            ..Choices::default()
+        };
+        let project = match (self.project, self.no_project) {
+            (Some(path), _) => Some(path),
+            (None, false) if Path::new(PROJECT_FILE).is_file() => Some(PathBuf::from(PROJECT_FILE)),
+            _ => None,
+        };
+        Ok(match project {
+            Some(path) => flags.over(Choices::from_project_file(&path)?),
+            None => flags,
+        })
+    }
+}
+
+/// A progress bar on stderr, hidden when stderr is not a terminal or with --quiet.
+fn progress_bar(quiet: bool) -> ProgressBar {
+    let bar = ProgressBar::with_draw_target(
+        None,
+        if quiet {
+            ProgressDrawTarget::hidden()
+        } else {
+            ProgressDrawTarget::stderr()
+        },
+    );
+    bar.set_style(
+        ProgressStyle::with_template("{msg:>16} [{bar:30}] {pos}/{len} ({eta} left)")
+            .unwrap_or_else(|_| ProgressStyle::default_bar())
+            .progress_chars("=> "),
+    );
+    bar
+}
+
+fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
+    let settings = Settings::from_choices(choices)?;
+    let bar = progress_bar(output.quiet);
+    let show = |p: Progress| {
+        bar.set_message(p.stage);
+        bar.set_length(p.total as u64);
+        bar.set_position(p.done as u64);
+    };
+    let report = baseline::run(&settings, &show)?;
+    bar.finish_and_clear();
+    write_outputs(&report, render::baseline_text(&report), output)
+}
+
+fn write_outputs<T: serde::Serialize>(
+    report: &T,
+    text: String,
+    output: &OutputArgs,
+) -> anyhow::Result<()> {
+    match output.json.as_deref() {
+        Some(path) if path == Path::new("-") => print!("{}", render::json(report)),
+        Some(path) => {
+            std::fs::write(path, render::json(report))
+                .with_context(|| format!("cannot write the JSON report to {}", path.display()))?;
+            print!("{text}");
+            println!("\nJSON report written to {}", path.display());
+        }
+        None => print!("{text}"),
+    }
+    Ok(())
+}
+
+fn run(cli: Cli) -> anyhow::Result<()> {
+    match cli.command {
+        Command::Baseline(args) => {
+            let choices = args.data.choices(args.trials)?;
+            run_baseline(choices, &args.output)
+        }
+        Command::Demo(args) => {
+            let folder = args
+                .out
+                .unwrap_or_else(|| std::env::temp_dir().join("acquest-demo"));
+            demo::write_demo(&folder)?;
+            println!(
+                "Demo scenario (Larkfield Placement Fund, invented) written to {}: \
+                 applications.csv, costs.csv, {PROJECT_FILE}",
+                folder.display()
+            );
+            if args.no_run {
+                return Ok(());
+            }
+            println!("Running the baseline on it (later stages are not built yet).\n");
+            let choices = Choices::from_project_file(&folder.join(PROJECT_FILE))?;
+            run_baseline(choices, &args.output)
+        }
+    }
+}
+
+/// Runs the command line and returns the exit code.
+pub fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(error) => {
+            eprintln!("error: {error:#}");
+            let input = error
+                .downcast_ref::<acquest::Error>()
+                .is_some_and(acquest::Error::is_input);
+            ExitCode::from(if input { 2 } else { 1 })
+        }
+    }
+}

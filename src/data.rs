@@ -1,0 +1,1291 @@
+//! Loading: CSV and Parquet through polars, cell cleaning and typing, the schema (target,
+//! favourable value, groups, features) checked against what the file holds.
+
+use std::collections::{BTreeMap, HashMap};
+use std::fs::File;
+use std::io::Read;
+use std::path::Path;
+
+use polars::prelude::{
+    CsvParseOptions, CsvReadOptions, DataFrame, DataType, ParquetReader, SerReader,
+};
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+
+use crate::error::{nearest_hint, Error, Result};
+use crate::settings::{parse_comparison, CsvSettings, Membership, SchemaSettings, Settings};
+
+/// Code that marks a missing cell in a categorical column.
+pub const MISSING: u32 = u32::MAX;
+
+/// The values of one column, typed.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Values {
+    /// Numbers; `None` is missing.
+    Numeric(Vec<Option<f64>>),
+    /// Categories: `codes[i]` indexes `levels`, or is [`MISSING`].
+    Categorical {
+        levels: Vec<String>,
+        codes: Vec<u32>,
+    },
+}
+
+/// One named, typed column.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Column {
+    pub name: String,
+    pub values: Values,
+}
+
+impl Column {
+    /// Number of rows.
+    pub fn len(&self) -> usize {
+        match &self.values {
+            Values::Numeric(v) => v.len(),
+            Values::Categorical { codes, .. } => codes.len(),
+        }
+    }
+
+    /// True when the column has no rows.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Whether row `i` is missing.
+    pub fn is_missing(&self, i: usize) -> bool {
+        match &self.values {
+            Values::Numeric(v) => v[i].is_none(),
+            Values::Categorical { codes, .. } => codes[i] == MISSING,
+        }
+    }
+
+    /// Number of missing cells.
+    pub fn missing_count(&self) -> usize {
+        (0..self.len()).filter(|&i| self.is_missing(i)).count()
+    }
+
+    /// The cell as text (numbers in their shortest form), `None` when missing.
+    pub fn text(&self, i: usize) -> Option<String> {
+        match &self.values {
+            Values::Numeric(v) => v[i].map(|x| format!("{x}")),
+            Values::Categorical { levels, codes } => {
+                (codes[i] != MISSING).then(|| levels[codes[i] as usize].clone())
+            }
+        }
+    }
+
+    /// "numeric" or "categorical".
+    pub fn kind(&self) -> &'static str {
+        match self.values {
+            Values::Numeric(_) => "numeric",
+            Values::Categorical { .. } => "categorical",
+        }
+    }
+
+    /// This column restricted to the rows in `keep`, in that order.
+    pub fn take(&self, keep: &[usize]) -> Column {
+        let values = match &self.values {
+            Values::Numeric(v) => Values::Numeric(keep.iter().map(|&i| v[i]).collect()),
+            Values::Categorical { levels, codes } => Values::Categorical {
+                levels: levels.clone(),
+                codes: keep.iter().map(|&i| codes[i]).collect(),
+            },
+        };
+        Column {
+            name: self.name.clone(),
+            values,
+        }
+    }
+}
+
+/// What was read and from where.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SourceInfo {
+    /// The path as given.
+    pub path: String,
+    /// SHA-256 of the file's bytes.
+    pub sha256: String,
+    pub bytes: u64,
+    /// "csv" or "parquet".
+    pub format: String,
+    /// The field separator used, for CSV.
+    pub delimiter: Option<String>,
+    /// Data rows read.
+    pub rows: usize,
+}
+
+/// A file read into typed columns.
+#[derive(Debug, Clone)]
+pub struct Table {
+    pub source: SourceInfo,
+    pub columns: Vec<Column>,
+    /// Lines of the file before the first data row (skipped lines and the header), so that data
+    /// row `r` (1-based) is near line `r + lines_before_data`.
+    pub lines_before_data: usize,
+}
+
+impl Table {
+    /// Number of rows.
+    pub fn rows(&self) -> usize {
+        self.source.rows
+    }
+
+    /// The column named `name`, or an error naming the flag and the nearest column.
+    pub fn column(&self, name: &str, flag: &str) -> Result<&Column> {
+        self.columns
+            .iter()
+            .find(|c| c.name == name)
+            .ok_or_else(|| Error::UnknownColumn {
+                flag: flag.to_string(),
+                name: name.to_string(),
+                hint: nearest_hint(name, self.columns.iter().map(|c| c.name.as_str())),
+            })
+    }
+}
+
+/// Reads the data file named in the settings: Parquet when the file carries the Parquet marker,
+/// CSV otherwise. `categorical` names columns kept as categories even when they look numeric.
+pub fn read_table(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<Table> {
+    let file_error = |e: std::io::Error| Error::File {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    };
+    let metadata = std::fs::metadata(path).map_err(file_error)?;
+    if metadata.is_dir() {
+        return Err(Error::File {
+            path: path.to_path_buf(),
+            reason: "is a folder, not a data file".into(),
+        });
+    }
+    let (sha256, head) = hash_and_head(path).map_err(file_error)?;
+    let format_error = |reason: String| Error::Format {
+        path: path.to_path_buf(),
+        reason,
+    };
+    if head.is_empty() {
+        return Err(format_error("the file is empty".into()));
+    }
+    let extension = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+        .unwrap_or_default();
+    let is_parquet = head.starts_with(b"PAR1");
+    if (extension == "parquet" || extension == "pq") && !is_parquet {
+        return Err(format_error(
+            "is named as Parquet but is not a Parquet file (it lacks the PAR1 marker)".into(),
+        ));
+    }
+
+    let (frame, delimiter, lines_before_data) = if is_parquet {
+        let file = File::open(path).map_err(file_error)?;
+        let frame = ParquetReader::new(file)
+            .finish()
+            .map_err(|e| format_error(format!("cannot read as Parquet: {e}")))?;
+        (frame, None, 0)
+    } else {
+        read_csv(path, csv, &head)?
+    };
+    let rows = frame.height();
+    if rows == 0 {
+        return Err(format_error("holds no data rows".into()));
+    }
+    let mut columns = Vec::with_capacity(frame.width());
+    for column in frame.get_columns() {
+        let name = column.name().to_string();
+        let force_text = categorical.contains(&name);
+        columns.push(type_column(
+            name,
+            column,
+            &csv.missing_tokens,
+            force_text,
+            lines_before_data,
+        )?);
+    }
+    // A line with no cell at all (such as a blank last line) is not a row.
+    let blank: Vec<bool> = (0..rows)
+        .map(|i| columns.iter().all(|c| c.is_missing(i)))
+        .collect();
+    let mut rows = rows;
+    if blank.iter().any(|&b| b) {
+        let keep: Vec<usize> = (0..rows).filter(|&i| !blank[i]).collect();
+        columns = columns.iter().map(|c| c.take(&keep)).collect();
+        rows = keep.len();
+        if rows == 0 {
+            return Err(format_error("holds no data rows".into()));
+        }
+    }
+    Ok(Table {
+        source: SourceInfo {
+            path: path.display().to_string(),
+            sha256,
+            bytes: metadata.len(),
+            format: if is_parquet { "parquet" } else { "csv" }.into(),
+            delimiter: delimiter.map(|d| describe_delimiter(d).to_string()),
+            rows,
+        },
+        columns,
+        lines_before_data,
+    })
+}
+
+fn describe_delimiter(d: u8) -> String {
+    match d {
+        b'\t' => "tab".into(),
+        b' ' => "space".into(),
+        other => (other as char).to_string(),
+    }
+}
+
+/// SHA-256 of the whole file and its first 64 KiB.
+fn hash_and_head(path: &Path) -> std::io::Result<(String, Vec<u8>)> {
+    let mut file = File::open(path)?;
+    let mut hasher = Sha256::new();
+    let mut head = Vec::new();
+    let mut buffer = vec![0u8; 1 << 16];
+    loop {
+        let n = file.read(&mut buffer)?;
+        if n == 0 {
+            break;
+        }
+        if head.len() < 1 << 16 {
+            let take = n.min((1 << 16) - head.len());
+            head.extend_from_slice(&buffer[..take]);
+        }
+        hasher.update(&buffer[..n]);
+    }
+    let digest = hasher.finalize();
+    Ok((digest.iter().map(|b| format!("{b:02x}")).collect(), head))
+}
+
+/// The lines of the file's head that hold a header or data: skipped and comment lines removed.
+fn content_lines<'a>(head: &'a str, csv: &CsvSettings) -> Vec<&'a str> {
+    head.lines()
+        .skip(csv.skip_lines)
+        .filter(|l| !l.trim().is_empty())
+        .filter(|l| csv.comment.as_deref().is_none_or(|c| !l.starts_with(c)))
+        .take(50)
+        .collect()
+}
+
+/// Splits one line on `delimiter`, honouring double quotes.
+fn split_fields(line: &str, delimiter: u8) -> Vec<String> {
+    let mut fields = Vec::new();
+    let mut current = String::new();
+    let mut quoted = false;
+    for ch in line.chars() {
+        if ch == '"' {
+            quoted = !quoted;
+        } else if !quoted && ch as u32 == delimiter as u32 {
+            fields.push(std::mem::take(&mut current));
+        } else {
+            current.push(ch);
+        }
+    }
+    fields.push(current);
+    fields
+}
+
+/// Picks the field separator that splits the first line into more than one field and most of
+/// the following lines (four in five, or all but one) into as many, trying comma, semicolon, tab and single space
+/// in that order. A broken line among them is then reported by the ragged-line check.
+fn sniff_delimiter(lines: &[&str]) -> Option<u8> {
+    let lines: Vec<&str> = lines.iter().take(20).copied().collect();
+    [b',', b';', b'\t', b' '].into_iter().find(|&d| {
+        let counts: Vec<usize> = lines.iter().map(|l| split_fields(l, d).len()).collect();
+        counts.first().is_some_and(|&c| {
+            let agreeing = counts.iter().filter(|&&x| x == c).count();
+            c > 1 && (agreeing * 5 >= counts.len() * 4 || agreeing + 1 >= counts.len())
+        })
+    })
+}
+
+fn read_csv(path: &Path, csv: &CsvSettings, head: &[u8]) -> Result<(DataFrame, Option<u8>, usize)> {
+    let format_error = |reason: String| Error::Format {
+        path: path.to_path_buf(),
+        reason,
+    };
+    let head_text = String::from_utf8_lossy(head);
+    let lines = content_lines(&head_text, csv);
+    if lines.is_empty() {
+        return Err(format_error("holds no lines with data".into()));
+    }
+    let delimiter = match csv.delimiter {
+        Some(d) => d,
+        None => sniff_delimiter(&lines).ok_or_else(|| {
+            format_error(
+                "cannot tell the field separator from the first lines (tried , ; tab space); \
+                 name it with --delimiter"
+                    .into(),
+            )
+        })?,
+    };
+    let first_fields: Vec<String> = split_fields(lines[0], delimiter)
+        .into_iter()
+        .map(|f| f.trim().to_string())
+        .collect();
+    if csv.has_header {
+        if let Some((i, name)) = first_fields
+            .iter()
+            .enumerate()
+            .find(|(i, n)| first_fields[..*i].contains(n))
+        {
+            let first = first_fields.iter().position(|n| n == name).unwrap_or(0);
+            return Err(format_error(format!(
+                "the header names column '{name}' twice (fields {} and {}); rename one",
+                first + 1,
+                i + 1
+            )));
+        }
+        if lines.len() == 1 {
+            return Err(format_error("has a header line but no data rows".into()));
+        }
+    } else if let Some(names) = &csv.columns {
+        if names.len() != first_fields.len() {
+            return Err(Error::setting(
+                "--columns",
+                format!(
+                    "names {} columns but the first line of {} has {} fields",
+                    names.len(),
+                    path.display(),
+                    first_fields.len()
+                ),
+            ));
+        }
+    }
+
+    let lines_before_data = csv.skip_lines + usize::from(csv.has_header);
+    check_ragged(path, csv, delimiter, first_fields.len(), lines_before_data)?;
+
+    let mut parse = CsvParseOptions::default()
+        .with_separator(delimiter)
+        .with_quote_char(Some(b'"'))
+        .with_missing_is_null(true)
+        .with_truncate_ragged_lines(false);
+    if let Some(prefix) = &csv.comment {
+        parse = parse.with_comment_prefix(Some(prefix.as_str()));
+    }
+    let reader = CsvReadOptions::default()
+        .with_has_header(csv.has_header)
+        .with_skip_rows(csv.skip_lines)
+        .with_infer_schema_length(Some(0))
+        .with_raise_if_empty(true)
+        .with_parse_options(parse)
+        .try_into_reader_with_file_path(Some(path.to_path_buf()))
+        .map_err(|e| format_error(e.to_string()))?;
+    let mut frame = reader
+        .finish()
+        .map_err(|e| format_error(explain_csv_error(&e.to_string())))?;
+    if let Some(names) = &csv.columns {
+        if frame.width() != names.len() {
+            return Err(Error::setting(
+                "--columns",
+                format!(
+                    "names {} columns but the file has {}",
+                    names.len(),
+                    frame.width()
+                ),
+            ));
+        }
+        frame
+            .set_column_names(names.iter().map(String::as_str))
+            .map_err(|e| format_error(e.to_string()))?;
+    } else {
+        let trimmed: Vec<String> = frame
+            .get_column_names()
+            .iter()
+            .map(|n| n.trim().trim_matches('"').trim().to_string())
+            .collect();
+        frame
+            .set_column_names(trimmed.iter().map(String::as_str))
+            .map_err(|e| format_error(e.to_string()))?;
+    }
+    Ok((frame, Some(delimiter), lines_before_data))
+}
+
+/// polars pads short lines with missing cells and names no line for long ones; a line with
+/// another number of fields than the header is a broken file, not missing data, so find it and
+/// name it. Lines with quotes are left to polars.
+fn check_ragged(
+    path: &Path,
+    csv: &CsvSettings,
+    delimiter: u8,
+    width: usize,
+    lines_before_data: usize,
+) -> Result<()> {
+    let bytes = std::fs::read(path).map_err(|e| Error::File {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    })?;
+    let text = String::from_utf8_lossy(&bytes);
+    let mut data_row = 0usize;
+    for (index, line) in text.lines().enumerate().skip(lines_before_data) {
+        if line.trim().is_empty() || csv.comment.as_deref().is_some_and(|c| line.starts_with(c)) {
+            continue;
+        }
+        data_row += 1;
+        if !line.contains('"') {
+            let fields = line.split(delimiter as char).count();
+            if fields != width {
+                return Err(Error::Format {
+                    path: path.to_path_buf(),
+                    reason: format!(
+                        "line {} (data row {data_row}) has {fields} fields where the file has {width}",
+                        index + 1
+                    ),
+                });
+            }
+        }
+    }
+    Ok(())
+}
+
+fn explain_csv_error(message: &str) -> String {
+    let first = message.lines().next().unwrap_or(message).trim();
+    if message.contains("found more fields than defined") {
+        format!("a line has more fields than the header or first line: {first}")
+    } else if message.contains("empty") {
+        "the file is empty".to_string()
+    } else {
+        first.to_string()
+    }
+}
+
+/// Cleans one cell: trims padding and surrounding quotes; `None` for a missing-value token.
+fn clean_cell<'a>(cell: Option<&'a str>, missing: &[String]) -> Option<&'a str> {
+    let cell = cell?.trim();
+    let cell = cell
+        .strip_prefix('"')
+        .and_then(|c| c.strip_suffix('"'))
+        .map_or(cell, str::trim);
+    (!missing.iter().any(|m| m == cell)).then_some(cell)
+}
+
+/// Share of non-missing cells that must read as numbers for a column to count as numeric; below
+/// it the column is categorical, above it (but not all) the odd cells are an error.
+const NUMERIC_SHARE: f64 = 0.9;
+
+fn type_column(
+    name: String,
+    column: &polars::prelude::Column,
+    missing: &[String],
+    force_text: bool,
+    lines_before_data: usize,
+) -> Result<Column> {
+    let dtype = column.dtype();
+    if dtype.is_primitive_numeric() && !force_text {
+        let cast = column
+            .cast(&DataType::Float64)
+            .map_err(|e| Error::Internal(format!("column '{name}': {e}")))?;
+        let floats = cast
+            .f64()
+            .map_err(|e| Error::Internal(format!("column '{name}': {e}")))?;
+        let mut values = Vec::with_capacity(floats.len());
+        for (row, v) in floats.into_iter().enumerate() {
+            if let Some(x) = v {
+                if !x.is_finite() {
+                    return Err(non_finite(&name, row, lines_before_data, &x.to_string()));
+                }
+            }
+            values.push(v);
+        }
+        return Ok(Column {
+            name,
+            values: Values::Numeric(values),
+        });
+    }
+    let text = if matches!(dtype, DataType::String) {
+        column.clone()
+    } else {
+        column
+            .cast(&DataType::String)
+            .map_err(|e| Error::Internal(format!("column '{name}': {e}")))?
+    };
+    let strings = text
+        .str()
+        .map_err(|e| Error::Internal(format!("column '{name}': {e}")))?;
+
+    let mut present = 0usize;
+    let mut numeric = 0usize;
+    let mut first_text: Option<(usize, String)> = None;
+    let mut first_non_finite: Option<(usize, String)> = None;
+    if !force_text {
+        for (row, cell) in strings.into_iter().enumerate() {
+            let Some(cell) = clean_cell(cell, missing) else {
+                continue;
+            };
+            present += 1;
+            match cell.parse::<f64>() {
+                Ok(x) if x.is_finite() => numeric += 1,
+                Ok(_) => {
+                    numeric += 1;
+                    first_non_finite.get_or_insert((row, cell.to_string()));
+                }
+                Err(_) => {
+                    first_text.get_or_insert((row, cell.to_string()));
+                }
+            }
+        }
+    }
+    let looks_numeric = present > 0 && numeric as f64 >= NUMERIC_SHARE * present as f64;
+    if looks_numeric {
+        if let Some((row, cell)) = first_non_finite {
+            return Err(non_finite(&name, row, lines_before_data, &cell));
+        }
+        if let Some((row, cell)) = first_text {
+            return Err(Error::BadCell {
+                column: name,
+                row: row + 1,
+                reason: format!(
+                    "(line {}) holds the text '{cell}' in a column of numbers; if it marks a \
+                     missing value add --na '{cell}', if the column is categorical add \
+                     --categorical to name it",
+                    row + 1 + lines_before_data
+                ),
+            });
+        }
+        let values = strings
+            .into_iter()
+            .map(|cell| clean_cell(cell, missing).and_then(|c| c.parse::<f64>().ok()))
+            .collect();
+        return Ok(Column {
+            name,
+            values: Values::Numeric(values),
+        });
+    }
+    let mut index: HashMap<String, u32> = HashMap::new();
+    let mut levels: Vec<String> = Vec::new();
+    let mut codes = Vec::with_capacity(strings.len());
+    for cell in strings.into_iter() {
+        let code = match clean_cell(cell, missing) {
+            None => MISSING,
+            Some(c) => *index.entry(c.to_string()).or_insert_with(|| {
+                levels.push(c.to_string());
+                (levels.len() - 1) as u32
+            }),
+        };
+        codes.push(code);
+    }
+    Ok(Column {
+        name,
+        values: Values::Categorical { levels, codes },
+    })
+}
+
+fn non_finite(name: &str, row: usize, lines_before_data: usize, cell: &str) -> Error {
+    Error::BadCell {
+        column: name.to_string(),
+        row: row + 1,
+        reason: format!(
+            "(line {}) holds '{cell}', which is not a finite number; if it marks a missing value \
+             add --na '{cell}'",
+            row + 1 + lines_before_data
+        ),
+    }
+}
+
+/// Fewest rows a group may have: below it its rates rest on a handful of people.
+pub const MIN_GROUP_ROWS: usize = 20;
+
+/// A column with more than this share of missing cells is taken for a candidate feature (filled
+/// only on a pilot), not a current one, unless `--features` names it.
+pub const CANDIDATE_MISSING_SHARE: f64 = 0.5;
+
+/// One group of the protected attribute, as formed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Group {
+    pub name: String,
+    /// How the group was formed from the protected column, e.g. `sex = Female` or
+    /// `age <= 25`.
+    pub definition: String,
+}
+
+/// Something the user should know about the data, with no effect on whether the run goes on.
+pub type Warning = String;
+
+/// The data ready for trials: labels, groups and feature columns, restricted to usable rows.
+#[derive(Debug, Clone)]
+pub struct Dataset {
+    /// `true` where the label is favourable.
+    pub labels: Vec<bool>,
+    /// Group index of every row.
+    pub groups: Vec<u32>,
+    pub group_list: Vec<Group>,
+    /// Index of the reference group in `group_list`.
+    pub reference: usize,
+    /// How the reference was chosen.
+    pub reference_rule: String,
+    /// Current features, restricted to the usable rows.
+    pub features: Vec<Column>,
+    /// Columns taken for candidate features (mostly empty), restricted to the usable rows.
+    pub candidates: Vec<Column>,
+    /// The favourable label as matched, and the other value(s).
+    pub favourable: String,
+    pub unfavourable: String,
+    pub rows_read: usize,
+    /// Rows left out: missing label, missing protected value.
+    pub dropped_missing_label: usize,
+    pub dropped_missing_group: usize,
+    pub warnings: Vec<Warning>,
+}
+
+impl Dataset {
+    /// Rows used.
+    pub fn rows(&self) -> usize {
+        self.labels.len()
+    }
+
+    /// Reads the file and applies the schema.
+    pub fn load(settings: &Settings) -> Result<(Table, Dataset)> {
+        let table = read_table(&settings.data, &settings.csv, &settings.schema.categorical)?;
+        for name in &settings.schema.categorical {
+            table.column(name, "--categorical")?;
+        }
+        let dataset = Dataset::from_table(&table, &settings.schema)?;
+        Ok((table, dataset))
+    }
+
+    /// Applies the schema to a table.
+    pub fn from_table(table: &Table, schema: &SchemaSettings) -> Result<Dataset> {
+        let target = table.column(&schema.target, "--target")?;
+        let protected = table.column(&schema.protected, "--protected")?;
+        if target.name == protected.name {
+            return Err(Error::setting(
+                "--protected",
+                "is the same column as --target",
+            ));
+        }
+        let mut warnings = Vec::new();
+        let (labels, favourable, unfavourable) = read_labels(target, &schema.favourable)?;
+        let (groups, group_list) = form_groups(protected, schema.groups.as_deref(), &mut warnings)?;
+
+        let mut keep = Vec::with_capacity(table.rows());
+        let (mut no_label, mut no_group) = (0, 0);
+        for i in 0..table.rows() {
+            match (labels[i], groups[i]) {
+                (None, _) => no_label += 1,
+                (_, None) => no_group += 1,
+                _ => keep.push(i),
+            }
+        }
+        if no_label > 0 {
+            warnings.push(format!(
+                "{no_label} rows have no value in the target column '{}' and are left out",
+                target.name
+            ));
+        }
+        if no_group > 0 {
+            warnings.push(format!(
+                "{no_group} rows have no value in the protected column '{}' and are left out",
+                protected.name
+            ));
+        }
+        let labels: Vec<bool> = keep.iter().map(|&i| labels[i].unwrap_or(false)).collect();
+        let groups: Vec<u32> = keep.iter().map(|&i| groups[i].unwrap_or(0)).collect();
+
+        // Drop groups that no usable row falls in (values seen only on dropped rows).
+        let mut sizes = vec![0usize; group_list.len()];
+        for &g in &groups {
+            sizes[g as usize] += 1;
+        }
+        let (groups, group_list, sizes) = compact_groups(groups, group_list, sizes);
+        if group_list.len() < 2 {
+            return Err(Error::NotEnoughData(format!(
+                "--protected: column '{}' forms only one group ({}); fairness needs at least two",
+                protected.name,
+                group_list.first().map_or("none", |g| g.name.as_str())
+            )));
+        }
+        for (g, &size) in group_list.iter().zip(&sizes) {
+            if size < MIN_GROUP_ROWS {
+                return Err(Error::NotEnoughData(format!(
+                    "--protected: group '{}' has {size} rows; each group needs at least \
+                     {MIN_GROUP_ROWS} for its rates to mean anything (merge groups with --groups)",
+                    g.name
+                )));
+            }
+        }
+        let favourable_per_group = {
+            let mut f = vec![0usize; group_list.len()];
+            for (&g, &l) in groups.iter().zip(&labels) {
+                f[g as usize] += usize::from(l);
+            }
+            f
+        };
+        for (g, group) in group_list.iter().enumerate() {
+            let fav = favourable_per_group[g];
+            let unfav = sizes[g] - fav;
+            if fav.min(unfav) < 5 {
+                warnings.push(format!(
+                    "group '{}' has only {} rows with the {} label: its true or false positive \
+                     rate will be missing or noisy in many trials",
+                    group.name,
+                    fav.min(unfav),
+                    if fav < unfav {
+                        "favourable"
+                    } else {
+                        "unfavourable"
+                    }
+                ));
+            }
+        }
+        let total_favourable: usize = favourable_per_group.iter().sum();
+        if total_favourable == 0 || total_favourable == labels.len() {
+            return Err(Error::NotEnoughData(format!(
+                "--target: every usable row has the label '{}'; a classifier needs both labels",
+                if total_favourable == 0 {
+                    &unfavourable
+                } else {
+                    &favourable
+                }
+            )));
+        }
+
+        let (reference, reference_rule) = match &schema.reference {
+            Some(name) => {
+                let found = group_list
+                    .iter()
+                    .position(|g| &g.name == name)
+                    .ok_or_else(|| Error::UnknownValue {
+                        flag: "--reference".into(),
+                        column: protected.name.clone(),
+                        value: name.clone(),
+                        hint: nearest_hint(name, group_list.iter().map(|g| g.name.as_str())),
+                    })?;
+                (found, "named with --reference".to_string())
+            }
+            None => {
+                let rate = |g: usize| favourable_per_group[g] as f64 / sizes[g] as f64;
+                let best = (0..group_list.len())
+                    .max_by(|&a, &b| rate(a).total_cmp(&rate(b)).then(b.cmp(&a)))
+                    .unwrap_or(0);
+                (
+                    best,
+                    "the group with the highest favourable rate in the labels".to_string(),
+                )
+            }
+        };
+
+        let (features, candidates) =
+            choose_features(table, schema, &target.name, &protected.name, &mut warnings)?;
+        let features: Vec<Column> = features.iter().map(|c| c.take(&keep)).collect();
+        let candidates: Vec<Column> = candidates.iter().map(|c| c.take(&keep)).collect();
+        if features.is_empty() {
+            return Err(Error::setting(
+                "--features",
+                "no feature columns are left to train on",
+            ));
+        }
+        Ok(Dataset {
+            labels,
+            groups,
+            group_list,
+            reference,
+            reference_rule,
+            features,
+            candidates,
+            favourable,
+            unfavourable,
+            rows_read: table.rows(),
+            dropped_missing_label: no_label,
+            dropped_missing_group: no_group,
+            warnings,
+        })
+    }
+
+    /// Rows and favourable labels per group.
+    pub fn group_sizes(&self) -> Vec<(usize, usize)> {
+        let mut sizes = vec![(0usize, 0usize); self.group_list.len()];
+        for (&g, &l) in self.groups.iter().zip(&self.labels) {
+            sizes[g as usize].0 += 1;
+            sizes[g as usize].1 += usize::from(l);
+        }
+        sizes
+    }
+}
+
+fn compact_groups(
+    groups: Vec<u32>,
+    list: Vec<Group>,
+    sizes: Vec<usize>,
+) -> (Vec<u32>, Vec<Group>, Vec<usize>) {
+    let mut new_index = vec![u32::MAX; list.len()];
+    let mut new_list = Vec::new();
+    let mut new_sizes = Vec::new();
+    for (g, group) in list.into_iter().enumerate() {
+        if sizes[g] > 0 {
+            new_index[g] = new_list.len() as u32;
+            new_list.push(group);
+            new_sizes.push(sizes[g]);
+        }
+    }
+    let groups = groups.into_iter().map(|g| new_index[g as usize]).collect();
+    (groups, new_list, new_sizes)
+}
+
+/// Strips one trailing full stop, so that `>50K.` (as in some test files) matches `>50K`.
+fn label_key(text: &str) -> &str {
+    let t = text.trim();
+    t.strip_suffix('.').map_or(t, str::trim_end)
+}
+
+/// Reads the target as favourable / not; `None` where the label is missing.
+fn read_labels(target: &Column, favourable: &str) -> Result<(Vec<Option<bool>>, String, String)> {
+    if let (Values::Numeric(values), Some((op, threshold))) =
+        (&target.values, parse_comparison(favourable))
+    {
+        let labels: Vec<Option<bool>> = values
+            .iter()
+            .map(|v| v.map(|x| op.holds(x, threshold)))
+            .collect();
+        let symbol = op.symbol();
+        return Ok((
+            labels,
+            format!("{} {symbol} {threshold}", target.name),
+            format!("{} not {symbol} {threshold}", target.name),
+        ));
+    }
+    let wanted = label_key(favourable);
+    let mut seen: BTreeMap<String, usize> = BTreeMap::new();
+    let mut labels = Vec::with_capacity(target.len());
+    for i in 0..target.len() {
+        match target.text(i) {
+            None => labels.push(None),
+            Some(value) => {
+                let key = label_key(&value).to_string();
+                labels.push(Some(key == wanted));
+                *seen.entry(key).or_default() += 1;
+            }
+        }
+    }
+    if !seen.contains_key(wanted) {
+        return Err(Error::UnknownValue {
+            flag: "--favourable".into(),
+            column: target.name.clone(),
+            value: favourable.to_string(),
+            hint: nearest_hint(wanted, seen.keys().map(String::as_str)),
+        });
+    }
+    let others: Vec<&String> = seen.keys().filter(|k| k.as_str() != wanted).collect();
+    match others.len() {
+        0 => Err(Error::NotEnoughData(format!(
+            "--target: every row of column '{}' holds '{wanted}'; a classifier needs two labels",
+            target.name
+        ))),
+        1 => Ok((labels, wanted.to_string(), others[0].clone())),
+        n => Err(Error::setting(
+            "--target",
+            format!(
+                "column '{}' holds {} distinct values, not two (e.g. {}); for a numeric target \
+                 give a threshold such as --favourable '>=10'",
+                target.name,
+                n + 1,
+                seen.keys().take(5).cloned().collect::<Vec<_>>().join(", ")
+            ),
+        )),
+    }
+}
+
+/// Largest number of distinct values a protected column may have without `--groups`.
+const MAX_IMPLICIT_GROUPS: usize = 12;
+
+fn form_groups(
+    protected: &Column,
+    rules: Option<&[crate::settings::GroupRule]>,
+    warnings: &mut Vec<Warning>,
+) -> Result<(Vec<Option<u32>>, Vec<Group>)> {
+    let column = &protected.name;
+    let Some(rules) = rules else {
+        // One group per distinct value, named by the value, in order of first appearance.
+        let mut index: BTreeMap<String, u32> = BTreeMap::new();
+        let mut order: Vec<String> = Vec::new();
+        let mut groups = Vec::with_capacity(protected.len());
+        for i in 0..protected.len() {
+            groups.push(protected.text(i).map(|v| {
+                *index.entry(v.clone()).or_insert_with(|| {
+                    order.push(v);
+                    (order.len() - 1) as u32
+                })
+            }));
+        }
+        if order.len() > MAX_IMPLICIT_GROUPS {
+            return Err(Error::setting(
+                "--protected",
+                format!(
+                    "column '{column}' has {} distinct values; form groups with --groups, e.g. \
+                     --groups 'under 25=<25;25 and over=>=25' or 'a=x,y;b=*'",
+                    order.len()
+                ),
+            ));
+        }
+        let list = order
+            .into_iter()
+            .map(|v| Group {
+                definition: format!("{column} = {v}"),
+                name: v,
+            })
+            .collect();
+        return Ok((groups, list));
+    };
+
+    let list: Vec<Group> = rules
+        .iter()
+        .map(|r| Group {
+            name: r.name.clone(),
+            definition: match &r.member {
+                Membership::Values(v) => format!("{column} in {{{}}}", v.join(", ")),
+                Membership::Rest => {
+                    let claimed: Vec<String> = rules
+                        .iter()
+                        .filter_map(|other| match &other.member {
+                            Membership::Values(v) => Some(v.join(", ")),
+                            Membership::Compare { op, value } => {
+                                Some(format!("{} {value}", op.symbol()))
+                            }
+                            Membership::Rest => None,
+                        })
+                        .collect();
+                    format!("{column} not in {{{}}}", claimed.join("; "))
+                }
+                Membership::Compare { op, value } => format!("{column} {} {value}", op.symbol()),
+            },
+        })
+        .collect();
+    // Check that every listed code exists, so a typo is not silently an empty group.
+    let present: Vec<String> = {
+        let mut seen: BTreeMap<String, ()> = BTreeMap::new();
+        for i in 0..protected.len() {
+            if let Some(v) = protected.text(i) {
+                seen.insert(v, ());
+            }
+        }
+        seen.into_keys().collect()
+    };
+    for rule in rules {
+        if let Membership::Values(values) = &rule.member {
+            let absent: Vec<&String> = values.iter().filter(|v| !present.contains(v)).collect();
+            if absent.len() == values.len() {
+                return Err(Error::UnknownValue {
+                    flag: "--groups".into(),
+                    column: column.clone(),
+                    value: absent[0].clone(),
+                    hint: nearest_hint(absent[0], present.iter().map(String::as_str)),
+                });
+            }
+            for v in absent {
+                warnings.push(format!(
+                    "--groups: value '{v}' of group '{}' does not occur in column '{column}'",
+                    rule.name
+                ));
+            }
+        }
+        if let (Membership::Compare { .. }, Values::Categorical { .. }) =
+            (&rule.member, &protected.values)
+        {
+            return Err(Error::setting(
+                "--groups",
+                format!(
+                    "group '{}' compares numbers but column '{column}' holds text",
+                    rule.name
+                ),
+            ));
+        }
+    }
+    let rest = rules.iter().position(|r| r.member == Membership::Rest);
+    let mut groups = Vec::with_capacity(protected.len());
+    for i in 0..protected.len() {
+        let Some(text) = protected.text(i) else {
+            groups.push(None);
+            continue;
+        };
+        let number = match &protected.values {
+            Values::Numeric(v) => v[i],
+            Values::Categorical { .. } => None,
+        };
+        let matching: Vec<usize> = rules
+            .iter()
+            .enumerate()
+            .filter(|(_, r)| match &r.member {
+                Membership::Values(values) => values.contains(&text),
+                Membership::Compare { op, value } => number.is_some_and(|x| op.holds(x, *value)),
+                Membership::Rest => false,
+            })
+            .map(|(g, _)| g)
+            .collect();
+        let group = match (matching.as_slice(), rest) {
+            ([g], _) => *g,
+            ([], Some(r)) => r,
+            ([], None) => {
+                return Err(Error::BadCell {
+                    column: column.clone(),
+                    row: i + 1,
+                    reason: format!(
+                        "value '{text}' belongs to no group of --groups (add it to one, or end \
+                         with name=* for the rest)"
+                    ),
+                })
+            }
+            (several, _) => {
+                return Err(Error::setting(
+                    "--groups",
+                    format!(
+                        "value '{text}' of column '{column}' falls in groups '{}' and '{}'; \
+                         groups must not overlap",
+                        rules[several[0]].name, rules[several[1]].name
+                    ),
+                ))
+            }
+        };
+        groups.push(Some(group as u32));
+    }
+    Ok((groups, list))
+}
+
+fn choose_features<'a>(
+    table: &'a Table,
+    schema: &SchemaSettings,
+    target: &str,
+    protected: &str,
+    warnings: &mut Vec<Warning>,
+) -> Result<(Vec<&'a Column>, Vec<&'a Column>)> {
+    for name in &schema.exclude {
+        table.column(name, "--exclude")?;
+    }
+    let rows = table.rows();
+    let mut features = Vec::new();
+    let mut candidates = Vec::new();
+    if let Some(listed) = &schema.features {
+        for name in listed {
+            let column = table.column(name, "--features")?;
+            if name == target {
+                return Err(Error::setting(
+                    "--features",
+                    format!("lists the target '{name}'"),
+                ));
+            }
+            if name == protected && !schema.use_protected {
+                return Err(Error::setting(
+                    "--features",
+                    format!(
+                        "lists the protected column '{name}'; add --use-protected to train on it"
+                    ),
+                ));
+            }
+            if !schema.exclude.contains(name) && !features.iter().any(|c: &&Column| &c.name == name)
+            {
+                features.push(column);
+            }
+        }
+        for column in &table.columns {
+            let is_listed = listed.contains(&column.name);
+            if !is_listed && column.name != target && column.name != protected {
+                let share = column.missing_count() as f64 / rows as f64;
+                if share > CANDIDATE_MISSING_SHARE {
+                    candidates.push(column);
+                }
+            }
+        }
+    } else {
+        for column in &table.columns {
+            if column.name == target || schema.exclude.contains(&column.name) {
+                continue;
+            }
+            if column.name == protected && !schema.use_protected {
+                continue;
+            }
+            let missing = column.missing_count();
+            if missing as f64 > CANDIDATE_MISSING_SHARE * rows as f64 {
+                warnings.push(format!(
+                    "column '{}' is empty on {missing} of {rows} rows: taken for a candidate \
+                     feature (filled on a pilot), not a current one; name it in --features to \
+                     train on it",
+                    column.name
+                ));
+                candidates.push(column);
+                continue;
+            }
+            if let Values::Categorical { levels, .. } = &column.values {
+                if levels.len() > 50 && levels.len() as f64 > 0.5 * (rows - missing) as f64 {
+                    warnings.push(format!(
+                        "column '{}' has {} distinct values on {} rows and looks like an \
+                         identifier: left out (name it in --features to train on it)",
+                        column.name,
+                        levels.len(),
+                        rows - missing
+                    ));
+                    continue;
+                }
+            }
+            features.push(column);
+        }
+    }
+    if schema.use_protected && !features.iter().any(|c| c.name == protected) {
+        features.push(table.column(protected, "--protected")?);
+    }
+    Ok((features, candidates))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::settings::{Choices, Settings};
+    use std::io::Write;
+
+    fn write(content: &str, suffix: &str) -> tempfile::NamedTempFile {
+        let mut f = tempfile::Builder::new().suffix(suffix).tempfile().unwrap();
+        f.write_all(content.as_bytes()).unwrap();
+        f
+    }
+
+    fn settings_for(path: &Path, extra: impl FnOnce(&mut Choices)) -> Settings {
+        let mut c = Choices {
+            data: Some(path.to_path_buf()),
+            target: Some("y".into()),
+            favourable: Some("yes".into()),
+            protected: Some("g".into()),
+            ..Choices::default()
+        };
+        extra(&mut c);
+        Settings::from_choices(c).unwrap()
+    }
+
+    fn rows(n: usize, line: impl Fn(usize) -> String) -> String {
+        (0..n).map(|i| line(i) + "\n").collect()
+    }
+
+    #[test]
+    fn sniffs_separators() {
+        assert_eq!(sniff_delimiter(&["a;b;c", "1;2;3"]), Some(b';'));
+        assert_eq!(sniff_delimiter(&["a b c", "1 2 3"]), Some(b' '));
+        assert_eq!(sniff_delimiter(&["a, b, c", "1, 2, 3"]), Some(b','));
+        assert_eq!(sniff_delimiter(&["\"x;y\",b", "1,2"]), Some(b','));
+    }
+
+    #[test]
+    fn padding_quotes_and_missing_tokens_are_cleaned() {
+        let body = "x , g ,y\n".to_string()
+            + &rows(60, |i| {
+                format!(
+                    " {} , \"{}\" , {}",
+                    if i == 3 { "?".into() } else { i.to_string() },
+                    if i % 2 == 0 { "a" } else { "b" },
+                    if i % 3 == 0 { "yes" } else { "no." }
+                )
+            });
+        let f = write(&body, ".csv");
+        let s = settings_for(f.path(), |_| {});
+        let (table, data) = Dataset::load(&s).unwrap();
+        assert_eq!(table.rows(), 60);
+        let x = table.column("x", "t").unwrap();
+        assert_eq!(x.kind(), "numeric");
+        assert!(x.is_missing(3));
+        assert_eq!(data.group_list.len(), 2);
+        assert_eq!(data.group_list[0].name, "a");
+        assert_eq!(data.unfavourable, "no");
+    }
+
+    #[test]
+    fn text_among_numbers_names_the_row() {
+        let body = "x,g,y\n".to_string()
+            + &rows(60, |i| {
+                format!(
+                    "{},{},yes",
+                    if i == 7 { "abc".into() } else { i.to_string() },
+                    i % 2
+                )
+            });
+        let f = write(&body, ".csv");
+        let e = Dataset::load(&settings_for(f.path(), |_| {})).unwrap_err();
+        let m = e.to_string();
+        assert!(
+            m.contains("'x'") && m.contains("row 8") && m.contains("abc"),
+            "{m}"
+        );
+    }
+
+    #[test]
+    fn duplicate_header_names_are_refused() {
+        let f = write("a,b,a\n1,2,3\n", ".csv");
+        let e = read_table(f.path(), &settings_for(f.path(), |_| {}).csv, &[]).unwrap_err();
+        assert!(e.to_string().contains("'a' twice"), "{e}");
+    }
+
+    #[test]
+    fn groups_from_codes_and_thresholds() {
+        let body = "age,code,y\n".to_string()
+            + &rows(200, |i| {
+                format!(
+                    "{},{},{}",
+                    18 + i % 40,
+                    ["A1", "A2", "A3"][i % 3],
+                    if i % 2 == 0 { "yes" } else { "no" }
+                )
+            });
+        let f = write(&body, ".csv");
+        let s = settings_for(f.path(), |c| {
+            c.protected = Some("age".into());
+            c.groups = Some("young=<=25;older=>25".into());
+        });
+        let (_, d) = Dataset::load(&s).unwrap();
+        assert_eq!(d.group_list[0].definition, "age <= 25");
+        let young = d.groups.iter().filter(|&&g| g == 0).count();
+        assert_eq!(young, (0..200).filter(|i| 18 + i % 40 <= 25).count());
+
+        let s = settings_for(f.path(), |c| {
+            c.protected = Some("code".into());
+            c.groups = Some("first=A1;others=*".into());
+        });
+        let (_, d) = Dataset::load(&s).unwrap();
+        assert_eq!(d.group_sizes()[0].0, 67);
+
+        let s = settings_for(f.path(), |c| {
+            c.protected = Some("code".into());
+            c.groups = Some("first=A9;others=*".into());
+        });
+        assert!(Dataset::load(&s).unwrap_err().to_string().contains("A9"));
+    }
+
+    #[test]
+    fn trailing_full_stop_on_labels_matches() {
+        let body = "x,g,y\n".to_string()
+            + &rows(60, |i| {
+                format!(
+                    "{i},{},{}",
+                    i % 2,
+                    if i % 2 == 0 { ">50K." } else { "<=50K." }
+                )
+            });
+        let f = write(&body, ".csv");
+        let s = settings_for(f.path(), |c| c.favourable = Some(">50K".into()));
+        let (_, d) = Dataset::load(&s).unwrap();
+        assert_eq!(d.labels.iter().filter(|&&l| l).count(), 30);
+    }
+
+    #[test]
+    fn numeric_target_with_a_threshold() {
+        let body = "x,g,y\n".to_string() + &rows(60, |i| format!("{i},{},{}", i % 2, i % 20));
+        let f = write(&body, ".csv");
+        let s = settings_for(f.path(), |c| c.favourable = Some(">=10".into()));
+        let (_, d) = Dataset::load(&s).unwrap();
+        assert_eq!(d.labels.iter().filter(|&&l| l).count(), 30);
+        assert_eq!(d.favourable, "y >= 10");
+    }
+
+    #[test]
+    fn mostly_empty_columns_become_candidates() {
+        let body = "x,pilot,g,y\n".to_string()
+            + &rows(60, |i| {
+                format!(
+                    "{i},{},{},{}",
+                    if i < 10 { i.to_string() } else { String::new() },
+                    i % 2,
+                    if i % 2 == 0 { "yes" } else { "no" }
+                )
+            });
+        let f = write(&body, ".csv");
+        let (_, d) = Dataset::load(&settings_for(f.path(), |_| {})).unwrap();
+        assert_eq!(d.features.len(), 1);
+        assert_eq!(d.candidates[0].name, "pilot");
+        assert!(d.warnings.iter().any(|w| w.contains("candidate")));
+    }
+}

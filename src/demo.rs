@@ -1,0 +1,205 @@
+//! The demo scenario: an invented training fund that screens applications for paid placements.
+//! Generated from a stated model with a seed (docs/demo.md), so the true effect of every option
+//! is known and can be checked.
+
+use std::path::Path;
+
+use rand::Rng;
+
+use crate::error::{Error, Result};
+use crate::trial::stream_rng;
+
+/// Seed of the committed demo.
+pub const DEMO_SEED: u64 = 4_711;
+/// Applications in the demo data.
+pub const DEMO_ROWS: usize = 3_000;
+/// Share of applicants who declared a disability.
+pub const DISABLED_SHARE: f64 = 0.18;
+/// Pilot sizes of the three candidate features.
+pub const PILOT_WORK_SAMPLE: usize = 600;
+pub const PILOT_REFERENCE: usize = 400;
+pub const PILOT_POSTCODE: usize = 1_200;
+
+const REGIONS: [&str; 4] = ["North", "East", "South", "West"];
+
+/// One invented applicant, with the hidden qualities the label depends on.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Applicant {
+    /// Hidden: general aptitude, N(0, 1).
+    pub aptitude: f64,
+    /// Hidden: practical skill, N(0, 1), independent of aptitude.
+    pub skill: f64,
+    pub disabled: bool,
+    pub test_score: f64,
+    pub years_experience: f64,
+    pub region: &'static str,
+    pub prior_course: bool,
+    pub work_sample: f64,
+    pub reference_rating: f64,
+    pub postcode_digit: u32,
+    pub shortlisted: bool,
+}
+
+fn normal(rng: &mut impl Rng) -> f64 {
+    // Box-Muller; 1 - u keeps the logarithm finite.
+    let u: f64 = 1.0 - rng.gen::<f64>();
+    let v: f64 = rng.gen::<f64>();
+    (-2.0 * u.ln()).sqrt() * (2.0 * std::f64::consts::PI * v).cos()
+}
+
+fn round_to(x: f64, step: f64) -> f64 {
+    (x / step).round() * step
+}
+
+/// Draws one applicant from the scenario's generating model (docs/demo.md states it).
+pub fn draw_applicant(rng: &mut impl Rng, disabled_share: f64) -> Applicant {
+    let aptitude = normal(rng);
+    let skill = normal(rng);
+    let disabled = rng.gen::<f64>() < disabled_share;
+    let d = if disabled { 1.0 } else { 0.0 };
+    let test_score = round_to(
+        (60.0 + 8.0 * aptitude + 8.0 * normal(rng)).clamp(0.0, 100.0),
+        1.0,
+    );
+    let years_experience = round_to(
+        (4.0 + 1.0 * aptitude + 1.2 * skill - 1.5 * d + 2.0 * normal(rng)).max(0.0),
+        0.1,
+    );
+    let region = REGIONS[rng.gen_range(0..REGIONS.len())];
+    let prior_course = rng.gen::<f64>() < 1.0 / (1.0 + (-0.5 * aptitude).exp());
+    let work_sample = round_to(50.0 + 10.0 * skill + 4.0 * normal(rng), 0.1);
+    let reference_rating = (3.0 + 0.3 * skill + 0.3 * aptitude + normal(rng))
+        .round()
+        .clamp(1.0, 5.0);
+    let postcode_digit = rng.gen_range(0..10);
+    let merit = 0.9 * aptitude + 0.9 * skill + 0.25 * f64::from(u8::from(prior_course)) - 0.35 * d
+        + 0.6 * normal(rng);
+    Applicant {
+        aptitude,
+        skill,
+        disabled,
+        test_score,
+        years_experience,
+        region,
+        prior_course,
+        work_sample,
+        reference_rating,
+        postcode_digit,
+        shortlisted: merit > 0.4,
+    }
+}
+
+/// Draws `rows` applicants from random stream `stream` of `seed`.
+pub fn draw_applicants(rows: usize, seed: u64, stream: u64, disabled_share: f64) -> Vec<Applicant> {
+    let mut rng = stream_rng(seed, stream, 0);
+    (0..rows)
+        .map(|_| draw_applicant(&mut rng, disabled_share))
+        .collect()
+}
+
+/// Which rows carry each candidate feature (the pilots): random, disjoint draws.
+fn pilot_masks(rows: usize, seed: u64) -> [Vec<bool>; 3] {
+    use rand::seq::index::sample;
+    let mut rng = stream_rng(seed, 101, 0);
+    let mut mask = |size: usize| {
+        let mut m = vec![false; rows];
+        for i in sample(&mut rng, rows, size.min(rows)).into_iter() {
+            m[i] = true;
+        }
+        m
+    };
+    [
+        mask(PILOT_WORK_SAMPLE),
+        mask(PILOT_REFERENCE),
+        mask(PILOT_POSTCODE),
+    ]
+}
+
+/// The data file: current features for every row, candidate features only on pilot rows.
+pub fn applications_csv(applicants: &[Applicant], seed: u64) -> String {
+    let [work, reference, postcode] = pilot_masks(applicants.len(), seed);
+    let mut out = String::from(
+        "applicant_id,disability,test_score,years_experience,region,prior_course,work_sample,reference_rating,postcode_digit,shortlisted\n",
+    );
+    let yes_no = |b: bool| if b { "yes" } else { "no" };
+    for (i, a) in applicants.iter().enumerate() {
+        let pilot = |on: bool, text: String| if on { text } else { String::new() };
+        out.push_str(&format!(
+            "LPF-{:05},{},{:.0},{:.1},{},{},{},{},{},{}\n",
+            i + 1,
+            if a.disabled { "declared" } else { "none" },
+            a.test_score,
+            a.years_experience,
+            a.region,
+            yes_no(a.prior_course),
+            pilot(work[i], format!("{:.1}", a.work_sample)),
+            pilot(reference[i], format!("{:.0}", a.reference_rating)),
+            pilot(postcode[i], a.postcode_digit.to_string()),
+            yes_no(a.shortlisted),
+        ));
+    }
+    out
+}
+
+/// The cost sheet of the scenario, in euros.
+pub const COSTS_CSV: &str = "\
+name,kind,column,per_row,fixed,max_rows,step,sensitive,note
+work-sample,feature,work_sample,4.50,2000,,,no,Timed practical task scored by two assessors
+references,feature,reference_rating,2.00,500,,,no,Phone reference from a past supervisor
+postcode,feature,postcode_digit,0.05,100,,,yes,Last digit of the postcode from the address file
+more-applications,rows,,12.00,0,3000,500,no,Digitise the paper applications of the 2024 round
+more-disabled-applicants,rows,disability=declared,30.00,1500,600,100,yes,Targeted outreach through disability networks
+";
+
+/// The project file, so that commands run in the demo folder need no flags.
+pub const PROJECT_TOML: &str = "\
+# Larkfield Placement Fund (an invented scenario): screening of applications for paid placements.
+data = \"applications.csv\"
+target = \"shortlisted\"
+favourable = \"yes\"
+protected = \"disability\"
+exclude = [\"applicant_id\"]
+costs = \"costs.csv\"
+currency = \"EUR\"
+budget = 20000
+seed = 20261202
+";
+
+/// Writes the demo scenario into `folder`: applications.csv, costs.csv and acquest.toml.
+pub fn write_demo(folder: &Path) -> Result<()> {
+    let io = |e: std::io::Error| Error::File {
+        path: folder.to_path_buf(),
+        reason: e.to_string(),
+    };
+    std::fs::create_dir_all(folder).map_err(io)?;
+    let applicants = draw_applicants(DEMO_ROWS, DEMO_SEED, 100, DISABLED_SHARE);
+    std::fs::write(
+        folder.join("applications.csv"),
+        applications_csv(&applicants, DEMO_SEED),
+    )
+    .map_err(io)?;
+    std::fs::write(folder.join("costs.csv"), COSTS_CSV).map_err(io)?;
+    std::fs::write(folder.join(crate::settings::PROJECT_FILE), PROJECT_TOML).map_err(io)?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn generator_repeats_and_follows_its_model() {
+        let a = draw_applicants(20_000, 1, 100, DISABLED_SHARE);
+        assert_eq!(a[..50], draw_applicants(50, 1, 100, DISABLED_SHARE)[..]);
+        let share = a.iter().filter(|x| x.disabled).count() as f64 / a.len() as f64;
+        assert!((share - DISABLED_SHARE).abs() < 0.015, "{share}");
+        let mean_aptitude = a.iter().map(|x| x.aptitude).sum::<f64>() / a.len() as f64;
+        assert!(mean_aptitude.abs() < 0.03);
+        // The label carries a penalty for the under-represented group, so its rate is lower.
+        let rate = |d: bool| {
+            let g: Vec<&Applicant> = a.iter().filter(|x| x.disabled == d).collect();
+            g.iter().filter(|x| x.shortlisted).count() as f64 / g.len() as f64
+        };
+        assert!(rate(true) < rate(false) - 0.05);
+    }
+}

@@ -1,0 +1,131 @@
+//! The library's error type: every failure a user can cause names the flag, column, line or value.
+
+use std::path::PathBuf;
+
+/// Errors raised by the library. Variants other than [`Error::Internal`] describe bad input or
+/// usage; the binary maps them to exit code 2.
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// A file could not be opened or read.
+    #[error("cannot read {path}: {reason}")]
+    File { path: PathBuf, reason: String },
+
+    /// The file was read but its content cannot be used as it stands.
+    #[error("{path}: {reason}")]
+    Format { path: PathBuf, reason: String },
+
+    /// A flag names a column the data does not have.
+    #[error("{flag}: no column named '{name}'{hint}")]
+    UnknownColumn {
+        flag: String,
+        name: String,
+        hint: String,
+    },
+
+    /// A flag names a value that the column does not hold.
+    #[error("{flag}: column '{column}' has no value '{value}'{hint}")]
+    UnknownValue {
+        flag: String,
+        column: String,
+        value: String,
+        hint: String,
+    },
+
+    /// A cell of the data cannot be used.
+    #[error("column '{column}', data row {row}: {reason}")]
+    BadCell {
+        column: String,
+        row: usize,
+        reason: String,
+    },
+
+    /// A flag or setting has a value that cannot be used.
+    #[error("{flag}: {reason}")]
+    BadSetting { flag: String, reason: String },
+
+    /// The data, as given, cannot support the computation asked for.
+    #[error("{0}")]
+    NotEnoughData(String),
+
+    /// Something failed that the user did not cause (a model fit that broke, an I/O failure
+    /// while writing output).
+    #[error("{0}")]
+    Internal(String),
+}
+
+impl Error {
+    /// True when the error comes from the user's input or flags (exit code 2).
+    pub fn is_input(&self) -> bool {
+        !matches!(self, Error::Internal(_))
+    }
+
+    /// Shorthand for a [`Error::BadSetting`].
+    pub fn setting(flag: &str, reason: impl Into<String>) -> Self {
+        Error::BadSetting {
+            flag: flag.to_string(),
+            reason: reason.into(),
+        }
+    }
+}
+
+/// The library's result type.
+pub type Result<T> = std::result::Result<T, Error>;
+
+/// Formats " (did you mean 'x'?)" for the candidate nearest to `name`, or lists what exists when
+/// nothing is near.
+pub fn nearest_hint<'a>(name: &str, candidates: impl IntoIterator<Item = &'a str>) -> String {
+    let candidates: Vec<&str> = candidates.into_iter().collect();
+    let lower = name.to_lowercase();
+    let best = candidates
+        .iter()
+        .map(|c| (edit_distance(&lower, &c.to_lowercase()), *c))
+        .min_by(|a, b| a.0.cmp(&b.0).then(a.1.cmp(b.1)));
+    match best {
+        Some((d, c)) if d <= (name.chars().count() / 3).max(2) => format!(" (did you mean '{c}'?)"),
+        _ if candidates.is_empty() => String::new(),
+        _ => {
+            let shown: Vec<&str> = candidates.iter().take(12).copied().collect();
+            let more = if candidates.len() > 12 { ", ..." } else { "" };
+            format!(" (it has: {}{more})", shown.join(", "))
+        }
+    }
+}
+
+/// Levenshtein distance between two strings, counted in characters.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut previous: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut current = vec![i + 1; b.len() + 1];
+        for (j, cb) in b.iter().enumerate() {
+            let substitution = previous[j] + usize::from(ca != *cb);
+            current[j + 1] = substitution.min(previous[j + 1] + 1).min(current[j] + 1);
+        }
+        previous = current;
+    }
+    previous[b.len()]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nearest_name_is_suggested() {
+        let hint = nearest_hint("sexx", ["age", "sex", "race"]);
+        assert_eq!(hint, " (did you mean 'sex'?)");
+    }
+
+    #[test]
+    fn far_names_list_what_exists() {
+        let hint = nearest_hint("income_band", ["age", "sex"]);
+        assert_eq!(hint, " (it has: age, sex)");
+    }
+
+    #[test]
+    fn edit_distance_counts_single_edits() {
+        // kitten -> sitting is the textbook example with distance 3 (from memory).
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("", "abc"), 3);
+    }
+}

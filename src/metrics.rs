@@ -1,0 +1,514 @@
+//! Pure scoring: accuracy, rates per group, the disparity measures, the four-fifths check and the
+//! statistics (tests, intervals) they are reported with. Knows nothing of data frames or files.
+
+use serde::{Deserialize, Serialize};
+use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
+use statrs::function::factorial::ln_binomial;
+
+/// Counts for one group on one set of rows: labels, predictions and their crossing.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub struct GroupCounts {
+    /// Rows of the group.
+    pub rows: u64,
+    /// Rows whose label is favourable.
+    pub favourable_labels: u64,
+    /// Rows predicted favourable.
+    pub selected: u64,
+    /// Rows predicted favourable whose label is favourable.
+    pub true_positives: u64,
+    /// Rows predicted favourable whose label is unfavourable.
+    pub false_positives: u64,
+}
+
+impl GroupCounts {
+    /// P(ŷ = 1): the share of the group predicted favourable.
+    pub fn selection_rate(&self) -> Option<f64> {
+        ratio(self.selected, self.rows)
+    }
+
+    /// P(y = 1): the share of the group whose label is favourable.
+    pub fn label_rate(&self) -> Option<f64> {
+        ratio(self.favourable_labels, self.rows)
+    }
+
+    /// True positive rate P(ŷ = 1 | y = 1).
+    pub fn true_positive_rate(&self) -> Option<f64> {
+        ratio(self.true_positives, self.favourable_labels)
+    }
+
+    /// False positive rate P(ŷ = 1 | y = 0).
+    pub fn false_positive_rate(&self) -> Option<f64> {
+        ratio(self.false_positives, self.rows - self.favourable_labels)
+    }
+}
+
+fn ratio(numerator: u64, denominator: u64) -> Option<f64> {
+    (denominator > 0).then(|| numerator as f64 / denominator as f64)
+}
+
+/// Tallies labels and predictions per group. `groups[i]` is the group index of row `i`.
+pub fn group_counts(
+    labels: &[bool],
+    predicted: &[bool],
+    groups: &[u32],
+    group_count: usize,
+) -> Vec<GroupCounts> {
+    let mut counts = vec![GroupCounts::default(); group_count];
+    for ((&label, &prediction), &group) in labels.iter().zip(predicted).zip(groups) {
+        let c = &mut counts[group as usize];
+        c.rows += 1;
+        c.favourable_labels += u64::from(label);
+        c.selected += u64::from(prediction);
+        c.true_positives += u64::from(label && prediction);
+        c.false_positives += u64::from(!label && prediction);
+    }
+    counts
+}
+
+/// Share of rows whose prediction equals the label.
+pub fn accuracy(labels: &[bool], predicted: &[bool]) -> f64 {
+    let right = labels.iter().zip(predicted).filter(|(l, p)| l == p).count();
+    right as f64 / labels.len().max(1) as f64
+}
+
+/// Mean of the true positive rate and the true negative rate; `None` when one label is absent.
+pub fn balanced_accuracy(labels: &[bool], predicted: &[bool]) -> Option<f64> {
+    let (mut tp, mut pos, mut tn, mut neg) = (0u64, 0u64, 0u64, 0u64);
+    for (&l, &p) in labels.iter().zip(predicted) {
+        if l {
+            pos += 1;
+            tp += u64::from(p);
+        } else {
+            neg += 1;
+            tn += u64::from(!p);
+        }
+    }
+    Some((ratio(tp, pos)? + ratio(tn, neg)?) / 2.0)
+}
+
+/// Area under the ROC curve, as the Mann-Whitney probability that a favourable row scores above an
+/// unfavourable one (ties count one half). `None` when one label is absent.
+pub fn area_under_curve(labels: &[bool], scores: &[f64]) -> Option<f64> {
+    let mut order: Vec<usize> = (0..scores.len()).collect();
+    order.sort_by(|&a, &b| scores[a].total_cmp(&scores[b]));
+    let positives = labels.iter().filter(|&&l| l).count() as f64;
+    let negatives = labels.len() as f64 - positives;
+    if positives == 0.0 || negatives == 0.0 {
+        return None;
+    }
+    // Sum of the ranks of the favourable rows, with tied scores sharing their mean rank.
+    let mut rank_sum = 0.0;
+    let mut start = 0;
+    while start < order.len() {
+        let mut end = start;
+        while end + 1 < order.len() && scores[order[end + 1]] == scores[order[start]] {
+            end += 1;
+        }
+        let mean_rank = (start + end) as f64 / 2.0 + 1.0;
+        for &i in &order[start..=end] {
+            if labels[i] {
+                rank_sum += mean_rank;
+            }
+        }
+        start = end + 1;
+    }
+    Some((rank_sum - positives * (positives + 1.0) / 2.0) / (positives * negatives))
+}
+
+/// The disparity measures of one compared group against the reference group.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct Disparity {
+    /// Statistical parity difference P(ŷ=1|u) − P(ŷ=1|r); ideal 0.
+    pub statistical_parity_difference: Option<f64>,
+    /// Disparate impact P(ŷ=1|u) / P(ŷ=1|r); ideal 1. `None` when the reference rate is 0.
+    pub disparate_impact: Option<f64>,
+    /// Equal opportunity difference TPR_u − TPR_r; ideal 0.
+    pub equal_opportunity_difference: Option<f64>,
+    /// Average odds difference ½[(FPR_u − FPR_r) + (TPR_u − TPR_r)]; ideal 0.
+    pub average_odds_difference: Option<f64>,
+}
+
+/// Disparities of `compared` against `reference`, from predictions.
+pub fn disparity(compared: &GroupCounts, reference: &GroupCounts) -> Disparity {
+    let su = compared.selection_rate();
+    let sr = reference.selection_rate();
+    let eod = difference(
+        compared.true_positive_rate(),
+        reference.true_positive_rate(),
+    );
+    let fpr_gap = difference(
+        compared.false_positive_rate(),
+        reference.false_positive_rate(),
+    );
+    Disparity {
+        statistical_parity_difference: difference(su, sr),
+        disparate_impact: quotient(su, sr),
+        equal_opportunity_difference: eod,
+        average_odds_difference: match (fpr_gap, eod) {
+            (Some(f), Some(t)) => Some((f + t) / 2.0),
+            _ => None,
+        },
+    }
+}
+
+/// Difference and ratio of the label (favourable) rates: the bias already in the data.
+pub fn label_disparity(
+    compared: &GroupCounts,
+    reference: &GroupCounts,
+) -> (Option<f64>, Option<f64>) {
+    let lu = compared.label_rate();
+    let lr = reference.label_rate();
+    (difference(lu, lr), quotient(lu, lr))
+}
+
+fn difference(a: Option<f64>, b: Option<f64>) -> Option<f64> {
+    Some(a? - b?)
+}
+
+fn quotient(a: Option<f64>, b: Option<f64>) -> Option<f64> {
+    let b = b?;
+    (b > 0.0).then_some(a? / b)
+}
+
+/// Unfairness of a disparate impact ratio on a 0-is-fair scale: 1 − min(DI, 1/DI).
+pub fn impact_unfairness(disparate_impact: f64) -> f64 {
+    if disparate_impact <= 0.0 {
+        1.0
+    } else {
+        1.0 - disparate_impact.min(1.0 / disparate_impact)
+    }
+}
+
+/// The four-fifths rule threshold of 29 CFR 1607.4(D).
+pub const FOUR_FIFTHS: f64 = 0.8;
+
+/// One group's result under the four-fifths rule.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FourFifthsFinding {
+    /// Index of the group.
+    pub group: usize,
+    /// Selection rate of the group.
+    pub rate: f64,
+    /// Its rate divided by the highest group's rate.
+    pub impact_ratio: f64,
+    /// Adverse impact is indicated: the ratio is strictly less than four-fifths.
+    pub adverse_impact: bool,
+    /// Moving one person of this group across the selection line would change the finding.
+    pub one_person_flips: bool,
+    /// Two-proportion z statistic against the highest-rate group (pooled variance).
+    pub z: Option<f64>,
+    /// Two-sided p-value of that z-test.
+    pub z_p_value: Option<f64>,
+    /// Two-sided p-value of Fisher's exact test, computed when a cell count is below
+    /// [`FISHER_BELOW`] or the group is small.
+    pub fisher_p_value: Option<f64>,
+}
+
+/// Fisher's exact test is reported when an expected or observed cell is below this count.
+pub const FISHER_BELOW: u64 = 30;
+
+/// Applies the four-fifths rule to selected / total counts per group: each group's selection rate
+/// is compared with the highest group's rate (the yardstick group gets ratio 1). Groups with no
+/// rows are left out.
+pub fn four_fifths(selected: &[u64], totals: &[u64]) -> Vec<FourFifthsFinding> {
+    let rates: Vec<Option<f64>> = selected
+        .iter()
+        .zip(totals)
+        .map(|(&s, &n)| ratio(s, n))
+        .collect();
+    let Some(top) = (0..rates.len())
+        .filter(|&g| rates[g].is_some())
+        .max_by(|&a, &b| {
+            rates[a]
+                .unwrap_or(0.0)
+                .total_cmp(&rates[b].unwrap_or(0.0))
+                .then(b.cmp(&a))
+        })
+    else {
+        return Vec::new();
+    };
+    let top_rate = rates[top].unwrap_or(0.0);
+    let mut findings = Vec::new();
+    for g in 0..rates.len() {
+        let Some(rate) = rates[g] else { continue };
+        let impact_ratio = if top_rate > 0.0 { rate / top_rate } else { 1.0 };
+        let adverse_impact = impact_ratio < FOUR_FIFTHS;
+        let one_person_flips = g != top && {
+            let n = totals[g];
+            let moved = if adverse_impact {
+                selected[g] + 1
+            } else {
+                selected[g].saturating_sub(1)
+            };
+            let moved_rate = moved.min(n) as f64 / n as f64;
+            let moved_ratio = if top_rate > 0.0 {
+                moved_rate / top_rate
+            } else {
+                1.0
+            };
+            (moved_ratio < FOUR_FIFTHS) != adverse_impact
+        };
+        let (z, z_p_value, fisher_p_value) = if g == top {
+            (None, None, None)
+        } else {
+            let (z, p) = two_proportion_z_test(selected[g], totals[g], selected[top], totals[top])
+                .map_or((None, None), |(z, p)| (Some(z), Some(p)));
+            let small = [
+                selected[g],
+                totals[g] - selected[g],
+                selected[top],
+                totals[top] - selected[top],
+            ]
+            .iter()
+            .any(|&c| c < FISHER_BELOW);
+            let fisher = small.then(|| {
+                fisher_exact_two_sided(
+                    selected[g],
+                    totals[g] - selected[g],
+                    selected[top],
+                    totals[top] - selected[top],
+                )
+            });
+            (z, p, fisher)
+        };
+        findings.push(FourFifthsFinding {
+            group: g,
+            rate,
+            impact_ratio,
+            adverse_impact,
+            one_person_flips,
+            z,
+            z_p_value,
+            fisher_p_value,
+        });
+    }
+    findings
+}
+
+/// Two-proportion z-test with pooled variance: z and the two-sided p-value. `None` when the pooled
+/// proportion is 0 or 1 (no variation) or a group is empty.
+pub fn two_proportion_z_test(x1: u64, n1: u64, x2: u64, n2: u64) -> Option<(f64, f64)> {
+    if n1 == 0 || n2 == 0 {
+        return None;
+    }
+    let (n1f, n2f) = (n1 as f64, n2 as f64);
+    let pooled = (x1 + x2) as f64 / (n1f + n2f);
+    let variance = pooled * (1.0 - pooled) * (1.0 / n1f + 1.0 / n2f);
+    if variance <= 0.0 {
+        return None;
+    }
+    let z = (x1 as f64 / n1f - x2 as f64 / n2f) / variance.sqrt();
+    let normal = Normal::standard();
+    Some((z, 2.0 * normal.sf(z.abs())))
+}
+
+/// Fisher's exact test on the 2×2 table [[a, b], [c, d]], two-sided: the probability, under the
+/// hypergeometric law with the table's margins, of every table as or less likely than the one seen.
+pub fn fisher_exact_two_sided(a: u64, b: u64, c: u64, d: u64) -> f64 {
+    let row1 = a + b;
+    let col1 = a + c;
+    let total = a + b + c + d;
+    let low = col1.saturating_sub(total - row1);
+    let high = row1.min(col1);
+    let ln_denominator = ln_binomial(total, col1);
+    let ln_p = |k: u64| ln_binomial(row1, k) + ln_binomial(total - row1, col1 - k) - ln_denominator;
+    let observed = ln_p(a);
+    // Tables within a relative 1e-7 of the observed probability count as equally likely.
+    let limit = observed + (1.0f64 + 1e-7).ln();
+    let p: f64 = (low..=high)
+        .map(ln_p)
+        .filter(|&lp| lp <= limit)
+        .map(f64::exp)
+        .sum();
+    p.min(1.0)
+}
+
+/// A mean over trials with its interval and a test against the ideal value.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Estimate {
+    /// Mean over the trials that defined the value.
+    pub mean: f64,
+    /// Lower end of the interval; `None` with fewer than two trials.
+    pub low: Option<f64>,
+    /// Upper end of the interval.
+    pub high: Option<f64>,
+    /// Standard deviation over trials.
+    pub std_dev: Option<f64>,
+    /// Trials in which the value was defined.
+    pub trials: usize,
+    /// Two-sided p-value of the test that the true value equals `ideal` (for disparities), or
+    /// `None` where no ideal applies.
+    pub p_value: Option<f64>,
+}
+
+/// Builds an [`Estimate`] from per-trial values with a t-interval at `confidence`.
+///
+/// The trials are repeated random train/test splits of the same rows, so they overlap and their
+/// spread understates the uncertainty. The variance is therefore inflated by the corrected
+/// resampled t-test factor of Nadeau and Bengio (2003), `1/J + n_test/n_train` in place of `1/J`
+/// (`test_to_train` is n_test / n_train; pass 0 for independent samples).
+pub fn estimate(
+    values: &[f64],
+    confidence: f64,
+    test_to_train: f64,
+    ideal: Option<f64>,
+) -> Option<Estimate> {
+    let n = values.len();
+    if n == 0 {
+        return None;
+    }
+    let mean = values.iter().sum::<f64>() / n as f64;
+    if n < 2 {
+        return Some(Estimate {
+            mean,
+            low: None,
+            high: None,
+            std_dev: None,
+            trials: n,
+            p_value: None,
+        });
+    }
+    let variance = values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
+    let std_dev = variance.sqrt();
+    let standard_error = (variance * (1.0 / n as f64 + test_to_train)).sqrt();
+    let t = StudentsT::new(0.0, 1.0, (n - 1) as f64).ok()?;
+    let quantile = t.inverse_cdf(0.5 + confidence / 2.0);
+    let p_value = ideal.map(|ideal| {
+        if standard_error > 0.0 {
+            2.0 * t.sf(((mean - ideal) / standard_error).abs())
+        } else if (mean - ideal).abs() < 1e-12 {
+            1.0
+        } else {
+            0.0
+        }
+    });
+    Some(Estimate {
+        mean,
+        low: Some(mean - quantile * standard_error),
+        high: Some(mean + quantile * standard_error),
+        std_dev: Some(std_dev),
+        trials: n,
+        p_value,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn close(a: f64, b: f64, tolerance: f64) -> bool {
+        (a - b).abs() <= tolerance
+    }
+
+    #[test]
+    fn four_fifths_worked_example_of_the_uniform_guidelines() {
+        // Selection rates 60%, 45%, 48%, 51%: ratios 0.75, 0.80, 0.85 to the 60% group. Source:
+        // the 1979 Questions and Answers on the Uniform Guidelines on Employee Selection
+        // Procedures (the rates are from memory); the rule is 29 CFR 1607.4(D): adverse impact
+        // when the rate is *less than* four-fifths, so 0.80 is not flagged.
+        let selected = [60, 45, 48, 51];
+        let totals = [100, 100, 100, 100];
+        let findings = four_fifths(&selected, &totals);
+        let ratios: Vec<f64> = findings.iter().map(|f| f.impact_ratio).collect();
+        assert!(close(ratios[0], 1.0, 1e-12));
+        assert!(close(ratios[1], 0.75, 1e-12));
+        assert!(close(ratios[2], 0.80, 1e-12));
+        assert!(close(ratios[3], 0.85, 1e-12));
+        let flagged: Vec<bool> = findings.iter().map(|f| f.adverse_impact).collect();
+        assert_eq!(flagged, vec![false, true, false, false]);
+    }
+
+    #[test]
+    fn exactly_four_fifths_is_not_flagged_but_one_person_would_flip_it() {
+        // 29 CFR 1607.4(D): "less than four-fifths"; 8/10 against 10/10 is exactly 0.8.
+        let findings = four_fifths(&[10, 8], &[10, 10]);
+        assert!(!findings[1].adverse_impact);
+        assert!(findings[1].one_person_flips, "7/10 = 0.7 would be flagged");
+    }
+
+    #[test]
+    fn z_test_matches_statsmodels() {
+        // statsmodels 0.15.0, proportions_ztest([45, 60], [100, 100]) (pooled):
+        // z = -2.1239769762143657, p = 0.033672068856345855 (tests/reference/reference.py).
+        let (z, p) = two_proportion_z_test(45, 100, 60, 100).unwrap();
+        assert!(close(z, -2.1239769762143657, 1e-9), "{z}");
+        assert!(close(p, 0.033672068856345855, 1e-9), "{p}");
+    }
+
+    #[test]
+    fn fisher_exact_matches_scipy() {
+        // scipy 1.17.1, scipy.stats.fisher_exact([[3, 7], [9, 2]]).pvalue = 0.02997312285237981
+        // and fisher_exact([[8, 2], [1, 5]]).pvalue = 0.034965034965034975
+        // (tests/reference/reference.py).
+        assert!(close(
+            fisher_exact_two_sided(3, 7, 9, 2),
+            0.02997312285237981,
+            1e-10
+        ));
+        assert!(close(
+            fisher_exact_two_sided(8, 2, 1, 5),
+            0.034965034965034975,
+            1e-10
+        ));
+        // A table with no association gives p = 1.
+        assert!(close(fisher_exact_two_sided(5, 5, 5, 5), 1.0, 1e-12));
+    }
+
+    #[test]
+    fn auc_matches_scikit_learn_with_ties() {
+        // scikit-learn 1.9.1, roc_auc_score(y, s) on the values below = 0.8
+        // (tests/reference/reference.py).
+        let labels = [
+            true, false, true, true, false, false, true, false, true, false,
+        ];
+        let scores = [0.9, 0.8, 0.8, 0.6, 0.5, 0.4, 0.4, 0.3, 0.7, 0.1];
+        let auc = area_under_curve(&labels, &scores).unwrap();
+        assert!(close(auc, 0.8, 1e-12), "{auc}");
+    }
+
+    #[test]
+    fn rates_and_disparities_from_counts() {
+        // Worked by hand: u selects 2 of 4 (TPR 1/2, FPR 1/2), r selects 3 of 4 (TPR 1, FPR 1/2).
+        let labels = [true, true, false, false, true, true, false, false];
+        let predicted = [true, false, true, false, true, true, true, false];
+        let groups = [1, 1, 1, 1, 0, 0, 0, 0];
+        let counts = group_counts(&labels, &predicted, &groups, 2);
+        let d = disparity(&counts[1], &counts[0]);
+        assert!(close(
+            d.statistical_parity_difference.unwrap(),
+            -0.25,
+            1e-12
+        ));
+        assert!(close(d.disparate_impact.unwrap(), 2.0 / 3.0, 1e-12));
+        assert!(close(d.equal_opportunity_difference.unwrap(), -0.5, 1e-12));
+        assert!(close(d.average_odds_difference.unwrap(), -0.25, 1e-12));
+        // 5 of 8 right; TPR 3/4 and TNR 2/4 overall.
+        assert!(close(accuracy(&labels, &predicted), 0.625, 1e-12));
+        assert!(close(
+            balanced_accuracy(&labels, &predicted).unwrap(),
+            0.625,
+            1e-12
+        ));
+    }
+
+    #[test]
+    fn t_interval_matches_scipy_quantile() {
+        // scipy 1.17.1, scipy.stats.t.ppf(0.95, 4) = 2.1318467863266495 (tests/reference/reference.py).
+        let values = [1.0, 2.0, 3.0, 4.0, 5.0];
+        let e = estimate(&values, 0.9, 0.0, Some(0.0)).unwrap();
+        let half = 2.1318467863266495 * (2.5f64 / 5.0).sqrt();
+        assert!(close(e.high.unwrap() - e.mean, half, 1e-9));
+        // scipy 1.17.1, scipy.stats.ttest_1samp([1,2,3,4,5], 0).pvalue = 0.01323559956368269.
+        assert!(close(e.p_value.unwrap(), 0.01323559956368269, 1e-9));
+    }
+
+    #[test]
+    fn resampling_correction_widens_the_interval() {
+        let values = [0.80, 0.82, 0.81, 0.79, 0.83];
+        let plain = estimate(&values, 0.9, 0.0, None).unwrap();
+        let corrected = estimate(&values, 0.9, 0.25, None).unwrap();
+        let ratio = (corrected.high.unwrap() - corrected.mean) / (plain.high.unwrap() - plain.mean);
+        // (1/5 + 1/4) / (1/5) = 2.25, so the half-width grows by 1.5.
+        assert!(close(ratio, 1.5, 1e-12));
+    }
+}

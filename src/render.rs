@@ -1,0 +1,343 @@
+//! Renderers: each turns a report into one output format (terminal text, JSON) and computes
+//! nothing of its own.
+
+use std::fmt::Write as _;
+
+use crate::metrics::Estimate;
+use crate::report::BaselineReport;
+
+/// The report as pretty-printed JSON, ending in a newline.
+pub fn json<T: serde::Serialize>(report: &T) -> String {
+    let mut text =
+        serde_json::to_string_pretty(report).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
+    text.push('\n');
+    text
+}
+
+/// A plain text table: first column left-aligned, the rest right-aligned.
+struct Table {
+    header: Vec<String>,
+    rows: Vec<Vec<String>>,
+}
+
+impl Table {
+    fn new(header: &[&str]) -> Self {
+        Table {
+            header: header.iter().map(|h| h.to_string()).collect(),
+            rows: Vec::new(),
+        }
+    }
+
+    fn row(&mut self, cells: Vec<String>) {
+        self.rows.push(cells);
+    }
+
+    fn render(&self, out: &mut String) {
+        let columns = self.header.len();
+        let mut widths: Vec<usize> = self.header.iter().map(|h| h.chars().count()).collect();
+        for row in &self.rows {
+            for (w, cell) in widths.iter_mut().zip(row) {
+                *w = (*w).max(cell.chars().count());
+            }
+        }
+        let line = |cells: &[String], out: &mut String| {
+            let mut text = String::from("  ");
+            for (i, cell) in cells.iter().enumerate().take(columns) {
+                let pad = widths[i] - cell.chars().count();
+                if i == 0 {
+                    text.push_str(cell);
+                    text.push_str(&" ".repeat(pad));
+                } else {
+                    text.push_str("  ");
+                    text.push_str(&" ".repeat(pad));
+                    text.push_str(cell);
+                }
+            }
+            out.push_str(text.trim_end());
+            out.push('\n');
+        };
+        line(&self.header, out);
+        let rule: Vec<String> = widths.iter().map(|&w| "-".repeat(w)).collect();
+        line(&rule, out);
+        for row in &self.rows {
+            line(row, out);
+        }
+    }
+}
+
+fn thousands(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::new();
+    for (i, ch) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
+}
+
+fn number(x: f64) -> String {
+    format!("{x:.4}")
+}
+
+fn maybe(x: Option<f64>) -> String {
+    x.map_or("n/a".into(), number)
+}
+
+/// "0.8512 [0.8490, 0.8534]".
+fn with_interval(e: Option<&Estimate>) -> String {
+    match e {
+        None => "n/a".into(),
+        Some(e) => match (e.low, e.high) {
+            (Some(l), Some(h)) => format!("{} [{}, {}]", number(e.mean), number(l), number(h)),
+            _ => number(e.mean),
+        },
+    }
+}
+
+/// Marks an estimate whose test against its ideal value is significant at 1 − confidence.
+fn significance(e: Option<&Estimate>, confidence: f64) -> &'static str {
+    match e.and_then(|e| e.p_value) {
+        Some(p) if p < 1.0 - confidence => " *",
+        _ => "",
+    }
+}
+
+fn p_value(p: Option<f64>) -> String {
+    match p {
+        None => "n/a".into(),
+        Some(p) if p < 1e-16 => "< 1e-16".into(),
+        Some(p) if p < 1e-4 => format!("{p:.1e}"),
+        Some(p) => format!("{p:.4}"),
+    }
+}
+
+/// The baseline report as terminal text.
+pub fn baseline_text(report: &BaselineReport) -> String {
+    let mut out = String::new();
+    let inputs = &report.inputs;
+    let _ = writeln!(
+        out,
+        "acquest baseline: {} ({} rows read, {} used)",
+        inputs.data.path,
+        thousands(report.data.rows_read),
+        thousands(report.data.rows_used)
+    );
+    let _ = writeln!(
+        out,
+        "target '{}', favourable '{}' (otherwise '{}'); protected '{}'",
+        inputs.target, inputs.favourable, inputs.unfavourable, inputs.protected
+    );
+    let numeric = report
+        .data
+        .features
+        .iter()
+        .filter(|f| f.kind == "numeric")
+        .count();
+    let _ = writeln!(
+        out,
+        "{} features ({} numeric, {} categorical){}; model {}, {} trials holding out {:.0}%, seed {}",
+        report.data.features.len(),
+        numeric,
+        report.data.features.len() - numeric,
+        if inputs.use_protected { ", protected attribute included" } else { "" },
+        inputs.model,
+        inputs.repeats,
+        inputs.test_fraction * 100.0,
+        inputs.seed
+    );
+
+    out.push_str("\nGroups\n");
+    let mut t = Table::new(&["group", "formed as", "rows", "favourable", "label rate"]);
+    for g in &report.groups {
+        let mark = if g.name == report.reference.name {
+            " (reference)"
+        } else {
+            ""
+        };
+        t.row(vec![
+            format!("{}{mark}", g.name),
+            g.definition.clone(),
+            thousands(g.rows),
+            thousands(g.favourable_labels),
+            number(g.label_rate),
+        ]);
+    }
+    t.render(&mut out);
+    let _ = writeln!(out, "  reference: {}", report.reference.rule);
+
+    out.push_str("\nBias already in the labels\n");
+    let mut t = Table::new(&[
+        "group",
+        "SPD",
+        "DI",
+        "four-fifths",
+        "z-test p",
+        "Fisher p",
+        "one person flips it",
+    ]);
+    for c in &report.label_bias.comparisons {
+        let finding = report
+            .label_bias
+            .four_fifths
+            .iter()
+            .find(|f| f.group == c.group);
+        t.row(vec![
+            c.group.clone(),
+            maybe(c.statistical_parity_difference),
+            maybe(c.disparate_impact),
+            finding.map_or("n/a".into(), |f| {
+                format!(
+                    "{} ({:.3})",
+                    if f.adverse_impact {
+                        "adverse impact"
+                    } else {
+                        "not flagged"
+                    },
+                    f.impact_ratio
+                )
+            }),
+            p_value(finding.and_then(|f| f.z_p_value)),
+            p_value(finding.and_then(|f| f.fisher_p_value)),
+            finding.map_or("".into(), |f| {
+                if f.one_person_flips {
+                    "yes".into()
+                } else {
+                    "no".into()
+                }
+            }),
+        ]);
+    }
+    t.render(&mut out);
+    out.push_str("  four-fifths: each group's favourable rate over the highest group's; flagged only when below 0.8\n");
+
+    let m = &report.model;
+    let level = (inputs.confidence * 100.0).round();
+    let _ = writeln!(
+        out,
+        "\nModel on held-out rows ({} trials of {} training / {} test rows; mean [{level}% interval])",
+        m.trials,
+        thousands(m.train_rows),
+        thousands(m.test_rows)
+    );
+    let mut t = Table::new(&["measure", "value"]);
+    t.row(vec!["accuracy".into(), with_interval(Some(&m.accuracy))]);
+    t.row(vec![
+        "balanced accuracy".into(),
+        with_interval(m.balanced_accuracy.as_ref()),
+    ]);
+    t.row(vec![
+        "AUC".into(),
+        with_interval(m.area_under_curve.as_ref()),
+    ]);
+    t.render(&mut out);
+
+    out.push('\n');
+    let mut t = Table::new(&[
+        "group",
+        "test rows",
+        "selection rate",
+        "true positive rate",
+        "false positive rate",
+    ]);
+    for g in &m.groups {
+        t.row(vec![
+            g.group.clone(),
+            format!("{:.0}", g.test_rows),
+            with_interval(g.selection_rate.as_ref()),
+            with_interval(g.true_positive_rate.as_ref()),
+            with_interval(g.false_positive_rate.as_ref()),
+        ]);
+    }
+    t.render(&mut out);
+
+    let _ = writeln!(
+        out,
+        "\nDisparity against '{}' (* differs from the ideal at p < {:.2})",
+        report.reference.name,
+        1.0 - inputs.confidence
+    );
+    let mut t = Table::new(&[
+        "group",
+        "SPD (ideal 0)",
+        "DI (ideal 1)",
+        "EOD (ideal 0)",
+        "AOD (ideal 0)",
+    ]);
+    for c in &m.comparisons {
+        let cell = |e: &Option<Estimate>| {
+            format!(
+                "{}{}",
+                with_interval(e.as_ref()),
+                significance(e.as_ref(), inputs.confidence)
+            )
+        };
+        t.row(vec![
+            c.group.clone(),
+            cell(&c.statistical_parity_difference),
+            cell(&c.disparate_impact),
+            cell(&c.equal_opportunity_difference),
+            cell(&c.average_odds_difference),
+        ]);
+    }
+    t.render(&mut out);
+    if m.comparisons.len() > 1 {
+        let w = &m.worst;
+        let show = |w: &Option<crate::report::Worst>| {
+            w.as_ref().map_or("n/a".into(), |w| {
+                format!("{} ({:.4})", w.group, w.unfairness)
+            })
+        };
+        let _ = writeln!(
+            out,
+            "  worst group: SPD {}, DI {}, EOD {}, AOD {}",
+            show(&w.statistical_parity_difference),
+            show(&w.disparate_impact),
+            show(&w.equal_opportunity_difference),
+            show(&w.average_odds_difference)
+        );
+    }
+
+    out.push_str(
+        "\nFour-fifths rule on the model's selections (ratio to the highest group, per trial)\n",
+    );
+    let mut t = Table::new(&["group", "impact ratio", "finding", "trials below 0.8"]);
+    for f in &m.four_fifths {
+        t.row(vec![
+            f.group.clone(),
+            with_interval(Some(&f.impact_ratio)),
+            if f.adverse_impact {
+                "adverse impact".into()
+            } else {
+                "not flagged".into()
+            },
+            format!("{} of {}", f.trials_flagged, f.impact_ratio.trials),
+        ]);
+    }
+    t.render(&mut out);
+
+    if !report.warnings.is_empty() {
+        out.push_str("\nWarnings\n");
+        for w in &report.warnings {
+            let _ = writeln!(out, "  - {w}");
+        }
+    }
+    out.push_str("\nCautions\n");
+    for c in &report.cautions {
+        let _ = writeln!(out, "  - {c}");
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn thousands_separators() {
+        assert_eq!(thousands(32561), "32,561");
+        assert_eq!(thousands(999), "999");
+        assert_eq!(thousands(1_000_000), "1,000,000");
+    }
+}

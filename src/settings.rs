@@ -1,0 +1,560 @@
+//! Validated settings: what to read, how to form groups, how to run trials. Built from plain
+//! choices (flags, and the project file `acquest.toml`), checked once, then used everywhere below.
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use crate::error::{Error, Result};
+
+/// Name of the project file read from the working folder.
+pub const PROJECT_FILE: &str = "acquest.toml";
+
+/// Raw choices as a user gives them, in flags or in the project file. No field is checked here.
+#[derive(Debug, Clone, Default, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct Choices {
+    pub data: Option<PathBuf>,
+    pub delimiter: Option<String>,
+    pub no_header: Option<bool>,
+    pub columns: Option<Vec<String>>,
+    pub na: Option<Vec<String>>,
+    pub skip_lines: Option<usize>,
+    pub comment: Option<String>,
+    pub target: Option<String>,
+    pub favourable: Option<String>,
+    pub protected: Option<String>,
+    pub reference: Option<String>,
+    pub groups: Option<String>,
+    pub features: Option<Vec<String>>,
+    pub exclude: Option<Vec<String>>,
+    pub categorical: Option<Vec<String>>,
+    pub use_protected: Option<bool>,
+    pub model: Option<String>,
+    pub repeats: Option<usize>,
+    pub test_fraction: Option<f64>,
+    pub seed: Option<u64>,
+    pub confidence: Option<f64>,
+    pub costs: Option<PathBuf>,
+    pub budget: Option<f64>,
+    pub currency: Option<String>,
+}
+
+macro_rules! overlay {
+    ($base:ident, $top:ident, $($field:ident),*) => {
+        Choices { $($field: $top.$field.or($base.$field)),* }
+    };
+}
+
+impl Choices {
+    /// Reads a project file. Relative paths in it are taken relative to its folder.
+    pub fn from_project_file(path: &Path) -> Result<Self> {
+        let text = std::fs::read_to_string(path).map_err(|e| Error::File {
+            path: path.to_path_buf(),
+            reason: e.to_string(),
+        })?;
+        let mut choices: Choices = toml::from_str(&text).map_err(|e| Error::Format {
+            path: path.to_path_buf(),
+            reason: e.to_string().trim().to_string(),
+        })?;
+        let folder = path.parent().unwrap_or(Path::new("."));
+        for file in [&mut choices.data, &mut choices.costs]
+            .into_iter()
+            .flatten()
+        {
+            if file.is_relative() {
+                *file = folder.join(&*file);
+            }
+        }
+        Ok(choices)
+    }
+
+    /// These choices, with every choice left open filled from `base`.
+    pub fn over(self, base: Choices) -> Choices {
+        let top = self;
+        overlay!(
+            base,
+            top,
+            data,
+            delimiter,
+            no_header,
+            columns,
+            na,
+            skip_lines,
+            comment,
+            target,
+            favourable,
+            protected,
+            reference,
+            groups,
+            features,
+            exclude,
+            categorical,
+            use_protected,
+            model,
+            repeats,
+            test_fraction,
+            seed,
+            confidence,
+            costs,
+            budget,
+            currency
+        )
+    }
+}
+
+/// The model family fitted in every trial.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ModelKind {
+    /// L2-regularised logistic regression (linfa-logistic).
+    Logistic,
+    /// Decision tree, Gini splits (linfa-trees).
+    Tree,
+}
+
+impl ModelKind {
+    /// The name used on the command line and in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            ModelKind::Logistic => "logistic",
+            ModelKind::Tree => "tree",
+        }
+    }
+}
+
+/// How to read a CSV file.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CsvSettings {
+    /// Field separator; `None` means sniff it from the first lines.
+    pub delimiter: Option<u8>,
+    /// Whether the first line names the columns.
+    pub has_header: bool,
+    /// Column names when the file has no header.
+    pub columns: Option<Vec<String>>,
+    /// Cell texts (after trimming) that mean "missing".
+    pub missing_tokens: Vec<String>,
+    /// Lines to skip at the top of the file before the header or data.
+    pub skip_lines: usize,
+    /// Lines starting with this text are skipped.
+    pub comment: Option<String>,
+}
+
+/// Missing-value tokens understood without being asked.
+pub const DEFAULT_MISSING_TOKENS: [&str; 4] = ["", "?", "NA", "N/A"];
+
+/// One group as the user forms it from the protected column.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct GroupRule {
+    /// Name of the group in reports.
+    pub name: String,
+    /// Which values belong to it.
+    pub member: Membership,
+}
+
+/// Which values of the protected column belong to a group.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Membership {
+    /// Any of these values (codes), compared as text after trimming.
+    Values(Vec<String>),
+    /// Every value no other group claims.
+    Rest,
+    /// A numeric comparison, e.g. `<= 25`.
+    Compare { op: Comparison, value: f64 },
+}
+
+/// A numeric comparison operator.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Comparison {
+    #[serde(rename = "<")]
+    Less,
+    #[serde(rename = "<=")]
+    LessOrEqual,
+    #[serde(rename = ">")]
+    Greater,
+    #[serde(rename = ">=")]
+    GreaterOrEqual,
+}
+
+impl Comparison {
+    /// Whether `x op value` holds.
+    pub fn holds(self, x: f64, value: f64) -> bool {
+        match self {
+            Comparison::Less => x < value,
+            Comparison::LessOrEqual => x <= value,
+            Comparison::Greater => x > value,
+            Comparison::GreaterOrEqual => x >= value,
+        }
+    }
+
+    /// The operator as written.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            Comparison::Less => "<",
+            Comparison::LessOrEqual => "<=",
+            Comparison::Greater => ">",
+            Comparison::GreaterOrEqual => ">=",
+        }
+    }
+}
+
+/// Splits "<=25" into the operator and the number; `None` when the text is not of that form.
+pub fn parse_comparison(text: &str) -> Option<(Comparison, f64)> {
+    let text = text.trim();
+    let (op, rest) = if let Some(r) = text.strip_prefix("<=") {
+        (Comparison::LessOrEqual, r)
+    } else if let Some(r) = text.strip_prefix(">=") {
+        (Comparison::GreaterOrEqual, r)
+    } else if let Some(r) = text.strip_prefix('<') {
+        (Comparison::Less, r)
+    } else if let Some(r) = text.strip_prefix('>') {
+        (Comparison::Greater, r)
+    } else {
+        return None;
+    };
+    let value: f64 = rest.trim().parse().ok()?;
+    value.is_finite().then_some((op, value))
+}
+
+/// Which columns mean what.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SchemaSettings {
+    pub target: String,
+    /// The favourable label value, or a comparison such as `>=10` for a numeric target.
+    pub favourable: String,
+    pub protected: String,
+    pub reference: Option<String>,
+    /// Groups formed from the protected column; `None` means one group per distinct value.
+    pub groups: Option<Vec<GroupRule>>,
+    pub features: Option<Vec<String>>,
+    pub exclude: Vec<String>,
+    /// Columns read as categories even when their values look like numbers.
+    pub categorical: Vec<String>,
+    pub use_protected: bool,
+}
+
+/// How trials are run.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TrialSettings {
+    pub model: ModelKind,
+    pub repeats: usize,
+    pub test_fraction: f64,
+    pub seed: u64,
+    pub confidence: f64,
+}
+
+/// Everything `acquest baseline` needs, checked.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Settings {
+    pub data: PathBuf,
+    pub csv: CsvSettings,
+    pub schema: SchemaSettings,
+    pub trials: TrialSettings,
+}
+
+/// Default number of repeated trials.
+pub const DEFAULT_REPEATS: usize = 10;
+/// Default master seed.
+pub const DEFAULT_SEED: u64 = 20_261_202;
+
+impl Settings {
+    /// Checks the choices and builds the settings.
+    pub fn from_choices(choices: Choices) -> Result<Self> {
+        let data = choices
+            .data
+            .ok_or_else(|| Error::setting("--data", "no data file given"))?;
+        let required = |value: Option<String>, flag: &str| {
+            value
+                .filter(|v| !v.trim().is_empty())
+                .ok_or_else(|| Error::setting(flag, "is required"))
+        };
+        let target = required(choices.target, "--target")?;
+        let favourable = required(choices.favourable, "--favourable")?;
+        let protected = required(choices.protected, "--protected")?;
+
+        let delimiter = choices
+            .delimiter
+            .as_deref()
+            .map(parse_delimiter)
+            .transpose()?;
+        let has_header = !choices.no_header.unwrap_or(false);
+        let columns = choices.columns.map(|c| trimmed(&c));
+        if !has_header && columns.is_none() {
+            return Err(Error::setting(
+                "--no-header",
+                "needs --columns a,b,c to name the columns",
+            ));
+        }
+        if let Some(columns) = &columns {
+            if has_header {
+                return Err(Error::setting(
+                    "--columns",
+                    "names the columns of a file without a header; add --no-header",
+                ));
+            }
+            if let Some(name) = first_repeat(columns) {
+                return Err(Error::setting("--columns", format!("names '{name}' twice")));
+            }
+        }
+        let mut missing_tokens: Vec<String> = DEFAULT_MISSING_TOKENS
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+        missing_tokens.extend(
+            choices
+                .na
+                .unwrap_or_default()
+                .into_iter()
+                .map(|t| t.trim().to_string()),
+        );
+
+        let model = match choices.model.as_deref().unwrap_or("logistic") {
+            "logistic" => ModelKind::Logistic,
+            "tree" => ModelKind::Tree,
+            other => {
+                return Err(Error::setting(
+                    "--model",
+                    format!("unknown model '{other}' (choose logistic or tree)"),
+                ))
+            }
+        };
+        let repeats = choices.repeats.unwrap_or(DEFAULT_REPEATS);
+        if repeats == 0 {
+            return Err(Error::setting(
+                "--repeats",
+                "must be at least 1 (10 or more gives useful intervals)",
+            ));
+        }
+        let test_fraction = choices.test_fraction.unwrap_or(0.3);
+        if !(test_fraction > 0.0 && test_fraction < 1.0) {
+            return Err(Error::setting(
+                "--test-fraction",
+                format!("must lie strictly between 0 and 1, not {test_fraction}"),
+            ));
+        }
+        let confidence = choices.confidence.unwrap_or(0.9);
+        if !(confidence > 0.0 && confidence < 1.0) {
+            return Err(Error::setting(
+                "--confidence",
+                format!("must lie strictly between 0 and 1, not {confidence}"),
+            ));
+        }
+
+        Ok(Settings {
+            data,
+            csv: CsvSettings {
+                delimiter,
+                has_header,
+                columns,
+                missing_tokens,
+                skip_lines: choices.skip_lines.unwrap_or(0),
+                comment: choices.comment.filter(|c| !c.is_empty()),
+            },
+            schema: SchemaSettings {
+                target: target.trim().to_string(),
+                favourable: favourable.trim().to_string(),
+                protected: protected.trim().to_string(),
+                reference: choices.reference.map(|r| r.trim().to_string()),
+                groups: choices.groups.as_deref().map(parse_groups).transpose()?,
+                features: choices.features.map(|f| trimmed(&f)),
+                exclude: trimmed(&choices.exclude.unwrap_or_default()),
+                categorical: trimmed(&choices.categorical.unwrap_or_default()),
+                use_protected: choices.use_protected.unwrap_or(false),
+            },
+            trials: TrialSettings {
+                model,
+                repeats,
+                test_fraction,
+                seed: choices.seed.unwrap_or(DEFAULT_SEED),
+                confidence,
+            },
+        })
+    }
+}
+
+fn trimmed(names: &[String]) -> Vec<String> {
+    names
+        .iter()
+        .map(|n| n.trim().to_string())
+        .filter(|n| !n.is_empty())
+        .collect()
+}
+
+fn first_repeat(names: &[String]) -> Option<&str> {
+    names
+        .iter()
+        .enumerate()
+        .find(|(i, n)| names[..*i].contains(n))
+        .map(|(_, n)| n.as_str())
+}
+
+/// Reads a delimiter given as one character or as a name (`tab`, `space`, `comma`, `semicolon`).
+pub fn parse_delimiter(text: &str) -> Result<u8> {
+    let byte = match text {
+        "tab" | "\\t" | "\t" => b'\t',
+        "space" | " " => b' ',
+        "comma" => b',',
+        "semicolon" => b';',
+        "pipe" => b'|',
+        t if t.len() == 1 && t.is_ascii() => t.as_bytes()[0],
+        t => {
+            return Err(Error::setting(
+                "--delimiter",
+                format!("'{t}' is not one character (use e.g. ';', tab or space)"),
+            ))
+        }
+    };
+    if byte == b'"' || byte == b'\n' || byte == b'\r' {
+        return Err(Error::setting(
+            "--delimiter",
+            "cannot be a quote or a line break",
+        ));
+    }
+    Ok(byte)
+}
+
+/// Parses `--groups`: `name=value,value;name=value` for codes, `name=*` for every other value,
+/// `name=<=25;name=>25` for a numeric threshold.
+pub fn parse_groups(text: &str) -> Result<Vec<GroupRule>> {
+    let mut rules = Vec::new();
+    for part in text.split(';').map(str::trim).filter(|p| !p.is_empty()) {
+        let Some((name, spec)) = part.split_once('=') else {
+            return Err(Error::setting(
+                "--groups",
+                format!("'{part}' should read name=values (e.g. female=A92,A95) or name=<=25"),
+            ));
+        };
+        let name = name.trim();
+        if name.is_empty() {
+            return Err(Error::setting(
+                "--groups",
+                format!("'{part}' has no group name"),
+            ));
+        }
+        if rules.iter().any(|r: &GroupRule| r.name == name) {
+            return Err(Error::setting(
+                "--groups",
+                format!("group '{name}' is named twice"),
+            ));
+        }
+        let spec = spec.trim();
+        let member = if spec == "*" {
+            Membership::Rest
+        } else if spec.starts_with('<') || spec.starts_with('>') {
+            let (op, value) = parse_comparison(spec).ok_or_else(|| {
+                Error::setting(
+                    "--groups",
+                    format!("'{spec}' is not a comparison such as <=25"),
+                )
+            })?;
+            Membership::Compare { op, value }
+        } else {
+            let values: Vec<String> = spec
+                .split(',')
+                .map(|v| v.trim().to_string())
+                .filter(|v| !v.is_empty())
+                .collect();
+            if values.is_empty() {
+                return Err(Error::setting(
+                    "--groups",
+                    format!("group '{name}' lists no values"),
+                ));
+            }
+            Membership::Values(values)
+        };
+        rules.push(GroupRule {
+            name: name.to_string(),
+            member,
+        });
+    }
+    if rules.len() < 2 {
+        return Err(Error::setting("--groups", "needs at least two groups"));
+    }
+    if rules
+        .iter()
+        .filter(|r| r.member == Membership::Rest)
+        .count()
+        > 1
+    {
+        return Err(Error::setting(
+            "--groups",
+            "only one group can take the rest (=*)",
+        ));
+    }
+    Ok(rules)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn minimal() -> Choices {
+        Choices {
+            data: Some("x.csv".into()),
+            target: Some("y".into()),
+            favourable: Some("1".into()),
+            protected: Some("g".into()),
+            ..Choices::default()
+        }
+    }
+
+    #[test]
+    fn defaults_are_filled() {
+        let s = Settings::from_choices(minimal()).unwrap();
+        assert_eq!(s.trials.repeats, DEFAULT_REPEATS);
+        assert_eq!(s.trials.model, ModelKind::Logistic);
+        assert!(s.csv.missing_tokens.contains(&"?".to_string()));
+    }
+
+    #[test]
+    fn zero_repeats_is_refused() {
+        let mut c = minimal();
+        c.repeats = Some(0);
+        let e = Settings::from_choices(c).unwrap_err();
+        assert!(e.to_string().contains("--repeats"));
+    }
+
+    #[test]
+    fn flags_override_the_project_file() {
+        let file = Choices {
+            repeats: Some(5),
+            seed: Some(1),
+            ..minimal()
+        };
+        let flags = Choices {
+            repeats: Some(7),
+            ..Choices::default()
+        };
+        let merged = flags.over(file);
+        assert_eq!(merged.repeats, Some(7));
+        assert_eq!(merged.seed, Some(1));
+    }
+
+    #[test]
+    fn groups_from_codes_and_thresholds() {
+        let rules = parse_groups("female=A92,A95; male=*").unwrap();
+        assert_eq!(
+            rules[0].member,
+            Membership::Values(vec!["A92".into(), "A95".into()])
+        );
+        assert_eq!(rules[1].member, Membership::Rest);
+        let rules = parse_groups("25 or younger=<=25;over 25=>25").unwrap();
+        assert_eq!(
+            rules[0].member,
+            Membership::Compare {
+                op: Comparison::LessOrEqual,
+                value: 25.0
+            }
+        );
+        assert!(parse_groups("only=1").is_err());
+        assert!(parse_groups("a=<x;b=*").is_err());
+    }
+
+    #[test]
+    fn delimiter_names() {
+        assert_eq!(parse_delimiter("tab").unwrap(), b'\t');
+        assert_eq!(parse_delimiter(";").unwrap(), b';');
+        assert!(parse_delimiter(";;").is_err());
+    }
+}

@@ -1,0 +1,585 @@
+//! End-to-end tests of the acquest binary: real files in, JSON reports parsed back into the
+//! report types. The open datasets live in ../shared/data (see each PROVENANCE.md there).
+
+use std::path::{Path, PathBuf};
+
+use acquest::report::BaselineReport;
+use assert_cmd::Command;
+
+const ADULT_COLUMNS: &str = "age,workclass,fnlwgt,education,education-num,marital-status,\
+occupation,relationship,race,sex,capital-gain,capital-loss,hours-per-week,native-country,income";
+const GERMAN_COLUMNS: &str = "status,duration,history,purpose,amount,savings,employment,rate,\
+personal,debtors,residence,property,age,plans,housing,credits,job,liable,telephone,foreign,credit";
+
+fn shared(path: &str) -> Option<PathBuf> {
+    let p = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../shared/data")
+        .join(path);
+    if p.exists() {
+        Some(p)
+    } else {
+        eprintln!("skipped: {} is absent", p.display());
+        None
+    }
+}
+
+fn acquest() -> Command {
+    let mut cmd = Command::cargo_bin("acquest").unwrap();
+    cmd.env_remove("RAYON_NUM_THREADS");
+    cmd
+}
+
+/// Runs acquest with `args` plus `--json FILE` and returns the parsed report.
+fn baseline_report(args: &[&str], threads: Option<usize>) -> (BaselineReport, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let json = dir.path().join("report.json");
+    let mut cmd = acquest();
+    cmd.current_dir(dir.path())
+        .arg("baseline")
+        .args(args)
+        .arg("--quiet")
+        .arg("--json")
+        .arg(&json);
+    if let Some(t) = threads {
+        cmd.env("RAYON_NUM_THREADS", t.to_string());
+    }
+    let output = cmd.output().unwrap();
+    assert!(
+        output.status.success(),
+        "acquest failed: {}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let text = std::fs::read_to_string(&json).unwrap();
+    (serde_json::from_str(&text).unwrap(), text)
+}
+
+fn label_rate(report: &BaselineReport, group: &str) -> f64 {
+    report
+        .groups
+        .iter()
+        .find(|g| g.name == group)
+        .unwrap()
+        .label_rate
+}
+
+fn close(a: f64, b: f64) -> bool {
+    (a - b).abs() < 5e-7
+}
+
+#[test]
+fn adult_label_bias_and_model_with_intervals() {
+    let Some(data) = shared("adult/adult.data") else {
+        return;
+    };
+    let data = data.to_str().unwrap();
+    let (report, _) = baseline_report(
+        &[
+            "--data",
+            data,
+            "--no-header",
+            "--columns",
+            ADULT_COLUMNS,
+            "--target",
+            "income",
+            "--favourable",
+            ">50K",
+            "--protected",
+            "sex",
+            "--repeats",
+            "4",
+        ],
+        None,
+    );
+    // ../shared/data/adult/PROVENANCE.md: Male 21,790 rows, 6,662 >50K (0.305737); Female
+    // 10,771 rows, 1,179 >50K (0.109461); label ratio Female/Male 0.358023, SPD -0.196276.
+    assert_eq!(report.data.rows_used, 32_561);
+    assert!(close(label_rate(&report, "Male"), 0.305737));
+    assert!(close(label_rate(&report, "Female"), 0.109461));
+    assert_eq!(report.reference.name, "Male");
+    let label = &report.label_bias.comparisons[0];
+    assert!(close(label.disparate_impact.unwrap(), 0.358023));
+    assert!(close(
+        label.statistical_parity_difference.unwrap(),
+        -0.196276
+    ));
+    // 29 CFR 1607.4(D): 0.358 is below four-fifths.
+    let female = report
+        .label_bias
+        .four_fifths
+        .iter()
+        .find(|f| f.group == "Female")
+        .unwrap();
+    assert!(female.adverse_impact);
+
+    let model = &report.model;
+    assert_eq!(model.trials, 4);
+    assert!(model.accuracy.low.unwrap() < model.accuracy.mean);
+    assert!(model.accuracy.mean < model.accuracy.high.unwrap());
+    // Logistic regression on Adult is commonly reported near 85% accuracy (common practice, no
+    // source): a loose sanity band, not a reference value.
+    assert!(
+        (0.82..0.88).contains(&model.accuracy.mean),
+        "{}",
+        model.accuracy.mean
+    );
+    let c = &model.comparisons[0];
+    for e in [
+        &c.statistical_parity_difference,
+        &c.disparate_impact,
+        &c.equal_opportunity_difference,
+        &c.average_odds_difference,
+    ] {
+        let e = e.as_ref().unwrap();
+        assert!(e.low.is_some() && e.high.is_some() && e.p_value.is_some());
+    }
+    assert_eq!(report.cautions.len(), 4);
+}
+
+#[test]
+fn adult_test_file_with_full_stops_and_a_leading_comment_line() {
+    let Some(data) = shared("adult/adult.test") else {
+        return;
+    };
+    let data = data.to_str().unwrap();
+    let (report, _) = baseline_report(
+        &[
+            "--data",
+            data,
+            "--no-header",
+            "--columns",
+            ADULT_COLUMNS,
+            "--skip-lines",
+            "1",
+            "--target",
+            "income",
+            "--favourable",
+            ">50K",
+            "--protected",
+            "sex",
+            "--repeats",
+            "2",
+            "--model",
+            "tree",
+        ],
+        None,
+    );
+    // ../shared/data/adult/PROVENANCE.md: adult.test Male 10,860 / 3,256 (0.299816);
+    // Female 5,421 / 590 (0.108836). Labels there end in a full stop.
+    assert_eq!(report.data.rows_used, 16_281);
+    assert!(close(label_rate(&report, "Male"), 0.299816));
+    assert!(close(label_rate(&report, "Female"), 0.108836));
+    assert_eq!(report.inputs.favourable, ">50K");
+}
+
+#[test]
+fn german_credit_groups_from_codes_and_from_an_age_threshold() {
+    let Some(data) = shared("german-credit/german.data") else {
+        return;
+    };
+    let data = data.to_str().unwrap();
+    let common = [
+        "--data",
+        data,
+        "--no-header",
+        "--columns",
+        GERMAN_COLUMNS,
+        "--target",
+        "credit",
+        "--favourable",
+        "1",
+        "--repeats",
+        "3",
+    ];
+    let mut by_sex = common.to_vec();
+    by_sex.extend([
+        "--protected",
+        "personal",
+        "--groups",
+        "female=A92,A95;male=*",
+    ]);
+    let (report, _) = baseline_report(&by_sex, None);
+    // ../shared/data/german-credit/PROVENANCE.md: female (A92) 201/310 = 0.648387,
+    // male (A91+A93+A94) 499/690 = 0.723188.
+    assert!(close(label_rate(&report, "female"), 0.648387));
+    assert!(close(label_rate(&report, "male"), 0.723188));
+    assert!(
+        report.warnings.iter().any(|w| w.contains("A95")),
+        "A95 does not occur"
+    );
+
+    let mut by_age = common.to_vec();
+    by_age.extend([
+        "--protected",
+        "age",
+        "--groups",
+        "25 or younger=<=25;over 25=>25",
+        "--model",
+        "tree",
+    ]);
+    let (report, _) = baseline_report(&by_age, None);
+    // PROVENANCE.md: age > 25: 590/810 = 0.728395; age <= 25: 110/190 = 0.578947.
+    assert!(close(label_rate(&report, "over 25"), 0.728395));
+    assert!(close(label_rate(&report, "25 or younger"), 0.578947));
+    assert_eq!(report.groups[0].definition, "age <= 25");
+}
+
+#[test]
+fn student_performance_with_a_numeric_threshold_target() {
+    for (file, female, male) in [
+        // ../shared/data/student-performance/PROVENANCE.md (pass = G3 >= 10).
+        ("student-performance/student-mat.csv", 0.639423, 0.705882),
+        ("student-performance/student-por.csv", 0.869452, 0.812030),
+    ] {
+        let Some(data) = shared(file) else { return };
+        let (report, _) = baseline_report(
+            &[
+                "--data",
+                data.to_str().unwrap(),
+                "--target",
+                "G3",
+                "--favourable",
+                ">=10",
+                "--protected",
+                "sex",
+                "--exclude",
+                "G1,G2",
+                "--repeats",
+                "3",
+            ],
+            None,
+        );
+        assert!(close(label_rate(&report, "F"), female), "{file}");
+        assert!(close(label_rate(&report, "M"), male), "{file}");
+        assert_eq!(report.inputs.data.delimiter.as_deref(), Some(";"));
+    }
+}
+
+#[test]
+fn same_seed_gives_byte_identical_json_on_one_and_two_threads() {
+    let Some(data) = shared("german-credit/german.data") else {
+        return;
+    };
+    let data = data.to_str().unwrap();
+    for model in ["logistic", "tree"] {
+        let args = [
+            "--data",
+            data,
+            "--no-header",
+            "--columns",
+            GERMAN_COLUMNS,
+            "--target",
+            "credit",
+            "--favourable",
+            "1",
+            "--protected",
+            "personal",
+            "--groups",
+            "female=A92,A95;male=*",
+            "--model",
+            model,
+            "--repeats",
+            "6",
+            "--seed",
+            "99",
+        ];
+        let (_, one) = baseline_report(&args, Some(1));
+        let (_, two) = baseline_report(&args, Some(2));
+        let (_, again) = baseline_report(&args, Some(2));
+        assert_eq!(one, two, "{model}: thread count changed the report");
+        assert_eq!(two, again, "{model}: a second run changed the report");
+    }
+}
+
+#[test]
+fn parquet_input_gives_the_same_groups_as_csv() {
+    use polars::prelude::*;
+    let dir = tempfile::tempdir().unwrap();
+    let rows = 200;
+    let mut frame = df!(
+        "score" => (0..rows).map(|i| (i % 37) as f64).collect::<Vec<_>>(),
+        "group" => (0..rows).map(|i| if i % 4 == 0 { "b" } else { "a" }).collect::<Vec<_>>(),
+        "label" => (0..rows).map(|i| if (i % 37) > 15 { "good" } else { "bad" }).collect::<Vec<_>>(),
+    )
+    .unwrap();
+    let path = dir.path().join("cases.parquet");
+    ParquetWriter::new(std::fs::File::create(&path).unwrap())
+        .finish(&mut frame)
+        .unwrap();
+    let csv = dir.path().join("cases.csv");
+    CsvWriter::new(std::fs::File::create(&csv).unwrap())
+        .finish(&mut frame)
+        .unwrap();
+    let args = |p: &Path| {
+        vec![
+            "--data".to_string(),
+            p.display().to_string(),
+            "--target".into(),
+            "label".into(),
+            "--favourable".into(),
+            "good".into(),
+            "--protected".into(),
+            "group".into(),
+            "--repeats".into(),
+            "3".into(),
+        ]
+    };
+    let a = args(&path);
+    let b = args(&csv);
+    let (from_parquet, _) =
+        baseline_report(&a.iter().map(String::as_str).collect::<Vec<_>>(), None);
+    let (from_csv, _) = baseline_report(&b.iter().map(String::as_str).collect::<Vec<_>>(), None);
+    assert_eq!(from_parquet.inputs.data.format, "parquet");
+    assert_eq!(from_parquet.groups, from_csv.groups);
+    assert_eq!(from_parquet.model.accuracy, from_csv.model.accuracy);
+}
+
+#[test]
+fn demo_writes_the_committed_scenario_and_runs_the_baseline() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("demo");
+    let output = acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let text = String::from_utf8_lossy(&output.stdout);
+    assert!(text.contains("Bias already in the labels"), "{text}");
+    assert!(text.contains("Cautions"));
+    let committed = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data");
+    for file in ["applications.csv", "costs.csv", "acquest.toml"] {
+        let written = std::fs::read(out.join(file)).unwrap();
+        let kept = std::fs::read(committed.join(file)).unwrap();
+        assert!(
+            written == kept,
+            "demo-data/{file} differs from what the generator writes; \
+                                  regenerate with `acquest demo --out demo-data --no-run`"
+        );
+    }
+}
+
+#[test]
+fn project_file_supplies_the_settings() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(dir.path())
+        .arg("--no-run")
+        .assert()
+        .success();
+    let output = acquest()
+        .current_dir(dir.path())
+        .args(["baseline", "--repeats", "2", "--quiet", "--json", "-"])
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let report: BaselineReport = serde_json::from_slice(&output.stdout).unwrap();
+    assert_eq!(report.inputs.target, "shortlisted");
+    assert_eq!(report.inputs.repeats, 2, "flags override the project file");
+    assert!(report
+        .data
+        .features
+        .iter()
+        .all(|f| f.name != "applicant_id"));
+    let candidates: Vec<&str> = report
+        .data
+        .candidates
+        .iter()
+        .map(|c| c.name.as_str())
+        .collect();
+    assert_eq!(
+        candidates,
+        ["work_sample", "reference_rating", "postcode_digit"]
+    );
+}
+
+/// Writes `content` to a file named `name` in a new folder and runs baseline on it.
+fn bad_input(name: &str, content: &[u8], extra: &[&str]) -> (i32, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join(name);
+    std::fs::write(&path, content).unwrap();
+    let mut args = vec![
+        "baseline",
+        "--data",
+        path.to_str().unwrap(),
+        "--target",
+        "y",
+        "--favourable",
+        "yes",
+        "--protected",
+        "g",
+        "--quiet",
+    ];
+    args.extend_from_slice(extra);
+    let output = acquest()
+        .current_dir(dir.path())
+        .args(&args)
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr).to_string();
+    assert!(!stderr.contains("panicked"), "{name}: {stderr}");
+    assert!(!stderr.contains("RUST_BACKTRACE"), "{name}: {stderr}");
+    (output.status.code().unwrap_or(-1), stderr)
+}
+
+fn good_rows(n: usize) -> String {
+    let mut s = String::from("x,g,y\n");
+    for i in 0..n {
+        s += &format!(
+            "{},{},{}\n",
+            i % 17,
+            if i % 3 == 0 { "b" } else { "a" },
+            if i % 2 == 0 { "yes" } else { "no" }
+        );
+    }
+    s
+}
+
+#[test]
+fn bad_inputs_end_with_exit_2_and_a_message_that_names_the_problem() {
+    let good = good_rows(120);
+    let cases: Vec<(&str, String, Vec<&str>, &str)> = vec![
+        (
+            "missing.csv",
+            String::new(),
+            vec!["--data", "/nonexistent/cases.csv"],
+            "cannot read",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--target", "yy"],
+            "did you mean 'y'",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--favourable", "maybe"],
+            "no value 'maybe'",
+        ),
+        (
+            "cases.csv",
+            good.replace(",no\n", ",yes\n"),
+            vec![],
+            "every row",
+        ),
+        (
+            "cases.csv",
+            good.replace(",b,", ",a,"),
+            vec![],
+            "only one group",
+        ),
+        (
+            "cases.csv",
+            {
+                let mut s = good.replace(",b,", ",a,");
+                s += "1,c,yes\n2,c,no\n3,c,yes\n";
+                s
+            },
+            vec![],
+            "'c' has 3 rows",
+        ),
+        ("cases.csv", String::new(), vec![], "empty"),
+        (
+            "cases.csv",
+            good.replacen("5,a,no\n", "5,a,no,extra\n", 1),
+            vec![],
+            "fields",
+        ),
+        (
+            "cases.csv",
+            good.replacen("\n3,a,no\n", "\nthree,a,no\n", 1),
+            vec![],
+            "'three'",
+        ),
+        (
+            "cases.csv",
+            good.replacen("\n3,a,no\n", "\nNaN,a,no\n", 1),
+            vec![],
+            "not a finite number",
+        ),
+        (
+            "cases.csv",
+            good.replacen("\n3,a,no\n", "\ninf,a,no\n", 1),
+            vec![],
+            "not a finite number",
+        ),
+        ("cases.parquet", good.clone(), vec![], "not a Parquet file"),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--repeats", "0"],
+            "--repeats",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--model", "forest"],
+            "unknown model",
+        ),
+        (
+            "cases.csv",
+            good.replace("x,g,y", "x,g,x"),
+            vec![],
+            "'x' twice",
+        ),
+    ];
+    for (name, content, mut extra, expected) in cases {
+        if extra.first() == Some(&"--data") {
+            // Replace the data path: the last --data wins in clap only if allowed; run directly.
+            let output = acquest()
+                .args([
+                    "baseline",
+                    "--target",
+                    "y",
+                    "--favourable",
+                    "yes",
+                    "--protected",
+                    "g",
+                ])
+                .args(extra.drain(..))
+                .output()
+                .unwrap();
+            let stderr = String::from_utf8_lossy(&output.stderr);
+            assert_eq!(output.status.code(), Some(2), "{stderr}");
+            assert!(
+                stderr.contains(expected),
+                "expected '{expected}' in: {stderr}"
+            );
+            continue;
+        }
+        let (code, stderr) = bad_input(name, content.as_bytes(), &extra);
+        assert_eq!(code, 2, "{name} {extra:?}: {stderr}");
+        assert!(
+            stderr.contains(expected),
+            "expected '{expected}' in: {stderr}"
+        );
+    }
+}
+
+#[test]
+fn usage_errors_exit_2() {
+    acquest()
+        .arg("baseline")
+        .arg("--no-such-flag")
+        .assert()
+        .code(2);
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .current_dir(dir.path())
+        .args(["baseline", "--data", "x.csv"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("--target"));
+}

@@ -1,0 +1,38 @@
+"""Reference values for acquest's tests, computed with general-purpose libraries.
+
+Run once by hand (CI does not need it): python3 tests/reference/reference.py
+Versions used for the values stored in the tests: printed on the first line.
+"""
+import numpy as np
+import scipy
+import sklearn
+import statsmodels
+from scipy import stats
+from sklearn.linear_model import LogisticRegression
+from sklearn.metrics import roc_auc_score
+from statsmodels.stats.proportion import proportions_ztest
+
+print(f"scipy {scipy.__version__}, scikit-learn {sklearn.__version__}, statsmodels {statsmodels.__version__}")
+
+z, p = proportions_ztest([45, 60], [100, 100])
+print("proportions_ztest([45, 60], [100, 100]):", repr(z), repr(p))
+
+print("fisher_exact([[3, 7], [9, 2]]):", repr(stats.fisher_exact([[3, 7], [9, 2]]).pvalue))
+print("fisher_exact([[8, 2], [1, 5]]):", repr(stats.fisher_exact([[8, 2], [1, 5]]).pvalue))
+
+y = [1, 0, 1, 1, 0, 0, 1, 0, 1, 0]
+s = [0.9, 0.8, 0.8, 0.6, 0.5, 0.4, 0.4, 0.3, 0.7, 0.1]
+print("roc_auc_score:", repr(roc_auc_score(y, s)))
+
+print("t.ppf(0.95, 4):", repr(stats.t.ppf(0.95, 4)))
+print("ttest_1samp([1,2,3,4,5], 0):", repr(stats.ttest_1samp([1, 2, 3, 4, 5], 0).pvalue))
+
+# Logistic regression with L2 penalty 1/2 ||w||^2 (intercept not penalised) on a small table.
+x = np.array([
+    [0.5, 1.0], [1.5, -0.5], [-1.0, 0.3], [2.0, 1.2], [-0.3, -1.1],
+    [0.8, 0.4], [-1.7, 0.9], [1.1, -1.4], [0.0, 0.0], [-0.6, 1.8],
+    [1.9, 0.2], [-1.2, -0.7],
+])
+yl = np.array([1, 1, 0, 1, 0, 1, 0, 0, 1, 0, 1, 0])
+model = LogisticRegression(C=1.0, tol=1e-12, max_iter=10000).fit(x, yl)
+print("logistic coef:", repr(model.coef_[0].tolist()), "intercept:", repr(float(model.intercept_[0])))
