@@ -199,7 +199,7 @@ pub fn read_table(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Res
             column,
             &csv.missing_tokens,
             force_text,
-            lines_before_data,
+            (!is_parquet).then_some(lines_before_data),
         )?);
     }
     // A line with no cell at all (such as a blank last line) is not a row.
@@ -417,7 +417,20 @@ fn check_ragged(
         path: path.to_path_buf(),
         reason: e.to_string(),
     })?;
-    let text = String::from_utf8_lossy(&bytes);
+    let text = std::str::from_utf8(&bytes).map_err(|e| {
+        let line = bytes[..e.valid_up_to()]
+            .iter()
+            .filter(|&&b| b == b'\n')
+            .count()
+            + 1;
+        Error::Format {
+            path: path.to_path_buf(),
+            reason: format!(
+                "line {line} is not UTF-8 text; convert the file to UTF-8 (for example with \
+                 iconv -f latin1 -t utf-8)"
+            ),
+        }
+    })?;
     let mut data_row = 0usize;
     for (index, line) in text.lines().enumerate().skip(lines_before_data) {
         if line.trim().is_empty() || csv.comment.as_deref().is_some_and(|c| line.starts_with(c)) {
@@ -470,7 +483,7 @@ fn type_column(
     column: &polars::prelude::Column,
     missing: &[String],
     force_text: bool,
-    lines_before_data: usize,
+    line_offset: Option<usize>,
 ) -> Result<Column> {
     let dtype = column.dtype();
     if dtype.is_primitive_numeric() && !force_text {
@@ -484,7 +497,7 @@ fn type_column(
         for (row, v) in floats.into_iter().enumerate() {
             if let Some(x) = v {
                 if !x.is_finite() {
-                    return Err(non_finite(&name, row, lines_before_data, &x.to_string()));
+                    return Err(non_finite(&name, row, line_offset, &x.to_string()));
                 }
             }
             values.push(v);
@@ -530,18 +543,17 @@ fn type_column(
     let looks_numeric = present > 0 && numeric as f64 >= NUMERIC_SHARE * present as f64;
     if looks_numeric {
         if let Some((row, cell)) = first_non_finite {
-            return Err(non_finite(&name, row, lines_before_data, &cell));
+            return Err(non_finite(&name, row, line_offset, &cell));
         }
         if let Some((row, cell)) = first_text {
             return Err(Error::BadCell {
+                reason: format!(
+                    "holds the text '{cell}' in a column of numbers; if it marks a missing value \
+                     add --na '{cell}', if the column holds categories add --categorical '{name}'"
+                ),
                 column: name,
                 row: row + 1,
-                reason: format!(
-                    "(line {}) holds the text '{cell}' in a column of numbers; if it marks a \
-                     missing value add --na '{cell}', if the column is categorical add \
-                     --categorical to name it",
-                    row + 1 + lines_before_data
-                ),
+                line: line_offset.map(|offset| row + 1 + offset),
             });
         }
         let values = strings
@@ -572,14 +584,14 @@ fn type_column(
     })
 }
 
-fn non_finite(name: &str, row: usize, lines_before_data: usize, cell: &str) -> Error {
+fn non_finite(name: &str, row: usize, line_offset: Option<usize>, cell: &str) -> Error {
     Error::BadCell {
         column: name.to_string(),
         row: row + 1,
+        line: line_offset.map(|offset| row + 1 + offset),
         reason: format!(
-            "(line {}) holds '{cell}', which is not a finite number; if it marks a missing value \
-             add --na '{cell}'",
-            row + 1 + lines_before_data
+            "holds '{cell}', which is not a finite number; if it marks a missing value add \
+             --na '{cell}'"
         ),
     }
 }
@@ -1019,6 +1031,7 @@ fn form_groups(
                 return Err(Error::BadCell {
                     column: column.clone(),
                     row: i + 1,
+                    line: None,
                     reason: format!(
                         "value '{text}' belongs to no group of --groups (add it to one, or end \
                          with name=* for the rest)"

@@ -31,11 +31,13 @@ pub enum Error {
         hint: String,
     },
 
-    /// A cell of the data cannot be used.
-    #[error("column '{column}', data row {row}: {reason}")]
+    /// A cell of the data cannot be used. `row` counts data rows from 1; `line` is the file line
+    /// when known.
+    #[error("column '{column}', data row {row}{}: {reason}", line.map(|l| format!(" (line {l})")).unwrap_or_default())]
     BadCell {
         column: String,
         row: usize,
+        line: Option<usize>,
         reason: String,
     },
 

@@ -282,6 +282,10 @@ pub fn baseline_text(report: &BaselineReport) -> String {
         ]);
     }
     t.render(&mut out);
+    out.push_str(
+        "  SPD statistical parity difference, DI disparate impact, EOD equal opportunity \
+         difference, AOD average odds difference\n",
+    );
     if m.comparisons.len() > 1 {
         let w = &m.worst;
         let show = |w: &Option<crate::report::Worst>| {
