@@ -31,30 +31,10 @@ pub fn build_report(
     data: &Dataset,
     outcomes: &[TrialOutcome],
 ) -> Result<BaselineReport> {
-    let sizes = data.group_sizes();
     let names: Vec<String> = data.group_list.iter().map(|g| g.name.clone()).collect();
-    let groups: Vec<GroupSummary> = data
-        .group_list
-        .iter()
-        .zip(&sizes)
-        .map(|(g, &(rows, favourable))| GroupSummary {
-            name: g.name.clone(),
-            definition: g.definition.clone(),
-            rows,
-            favourable_labels: favourable,
-            label_rate: favourable as f64 / rows as f64,
-        })
-        .collect();
+    let groups = group_summaries(data);
 
-    let label_counts: Vec<GroupCounts> = sizes
-        .iter()
-        .map(|&(rows, favourable)| GroupCounts {
-            rows: rows as u64,
-            favourable_labels: favourable as u64,
-            selected: favourable as u64,
-            ..GroupCounts::default()
-        })
-        .collect();
+    let label_counts = label_counts(data);
     let reference = data.reference;
     let label_bias = LabelBias {
         comparisons: compared_groups(reference, names.len())
@@ -107,19 +87,7 @@ pub fn build_report(
         format_version: FORMAT_VERSION,
         tool_version: env!("CARGO_PKG_VERSION").into(),
         command: "baseline".into(),
-        inputs: Inputs {
-            data: table.source.clone(),
-            target: settings.schema.target.clone(),
-            favourable: data.favourable.clone(),
-            unfavourable: data.unfavourable.clone(),
-            protected: settings.schema.protected.clone(),
-            use_protected: settings.schema.use_protected,
-            model: settings.trials.model.name().into(),
-            repeats: settings.trials.repeats,
-            test_fraction: settings.trials.test_fraction,
-            seed: settings.trials.seed,
-            confidence: settings.trials.confidence,
-        },
+        inputs: inputs(settings, table, data),
         data: DataSummary {
             rows_read: data.rows_read,
             rows_used: data.rows(),
@@ -130,15 +98,66 @@ pub fn build_report(
             candidates: data.candidates.iter().map(summarise).collect(),
         },
         groups,
-        reference: ReferenceGroup {
-            name: names[reference].clone(),
-            rule: data.reference_rule.clone(),
-        },
+        reference: reference_group(data),
         label_bias,
         model,
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
     })
+}
+
+/// What the run read and how it was set, for any report.
+pub fn inputs(settings: &Settings, table: &Table, data: &Dataset) -> Inputs {
+    Inputs {
+        data: table.source.clone(),
+        target: settings.schema.target.clone(),
+        favourable: data.favourable.clone(),
+        unfavourable: data.unfavourable.clone(),
+        protected: settings.schema.protected.clone(),
+        use_protected: settings.schema.use_protected,
+        model: settings.trials.model.name().into(),
+        repeats: settings.trials.repeats,
+        test_fraction: settings.trials.test_fraction,
+        seed: settings.trials.seed,
+        confidence: settings.trials.confidence,
+    }
+}
+
+/// Counts per group with the labels standing in for selections, so that the selection-rate
+/// measures (SPD, DI, four-fifths) read the bias already in the labels.
+pub fn label_counts(data: &Dataset) -> Vec<GroupCounts> {
+    data.group_sizes()
+        .iter()
+        .map(|&(rows, favourable)| GroupCounts {
+            rows: rows as u64,
+            favourable_labels: favourable as u64,
+            selected: favourable as u64,
+            ..GroupCounts::default()
+        })
+        .collect()
+}
+
+/// Each group with its size and label rate.
+pub fn group_summaries(data: &Dataset) -> Vec<GroupSummary> {
+    data.group_list
+        .iter()
+        .zip(data.group_sizes())
+        .map(|(g, (rows, favourable))| GroupSummary {
+            name: g.name.clone(),
+            definition: g.definition.clone(),
+            rows,
+            favourable_labels: favourable,
+            label_rate: favourable as f64 / rows as f64,
+        })
+        .collect()
+}
+
+/// The reference group and how it was chosen.
+pub fn reference_group(data: &Dataset) -> ReferenceGroup {
+    ReferenceGroup {
+        name: data.group_list[data.reference].name.clone(),
+        rule: data.reference_rule.clone(),
+    }
 }
 
 fn compared_groups(reference: usize, count: usize) -> impl Iterator<Item = usize> {

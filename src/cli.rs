@@ -8,9 +8,9 @@ use anyhow::Context;
 use clap::{Args, Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
-use acquest::settings::{Choices, Settings, PROJECT_FILE};
+use acquest::settings::{Choices, CurveSettings, Settings, PROJECT_FILE};
 use acquest::trial::Progress;
-use acquest::{baseline, demo, render};
+use acquest::{baseline, demo, learning, render};
 
 #[derive(Parser)]
 #[command(
@@ -30,8 +30,31 @@ enum Command {
     /// Data summary, groups, bias in the labels, and the current model's accuracy and fairness
     /// with intervals.
     Baseline(Box<BaselineArgs>),
+    /// Learning curves of accuracy and of each group's rates, fitted and extrapolated, with the
+    /// disparities they imply.
+    Curves(Box<CurvesArgs>),
     /// Write the invented demo scenario to a folder and run it.
     Demo(DemoArgs),
+}
+
+#[derive(Args)]
+struct CurvesArgs {
+    #[command(flatten)]
+    data: DataArgs,
+    #[command(flatten)]
+    trials: TrialArgs,
+    /// Training sizes to read the curves at: multiples of today's training rows (2x) or row
+    /// counts, comma-separated [default: 2x,4x].
+    #[arg(long, value_delimiter = ',', value_name = "SIZES")]
+    at: Option<Vec<String>>,
+    /// Smallest training size [default: the smallest at which every group and label has 10 rows].
+    #[arg(long, value_name = "ROWS")]
+    smallest: Option<usize>,
+    /// Write a chart of the curves to FILE (SVG).
+    #[arg(long, value_name = "FILE")]
+    svg: Option<PathBuf>,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 #[derive(Args)]
@@ -237,6 +260,31 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Baseline(args) => {
             let choices = args.data.choices(args.trials)?;
             run_baseline(choices, &args.output)
+        }
+        Command::Curves(args) => {
+            let args = *args;
+            let mut choices = args.data.choices(args.trials)?;
+            choices.at = args.at.or(choices.at.take());
+            choices.smallest = args.smallest.or(choices.smallest);
+            let settings = Settings::from_choices(choices.clone())?;
+            let curve_settings = CurveSettings::from_choices(&choices)?;
+            let bar = progress_bar(args.output.quiet);
+            let show = |p: Progress| {
+                bar.set_message(p.stage);
+                bar.set_length(p.total as u64);
+                bar.set_position(p.done as u64);
+            };
+            let report = learning::run(&settings, &curve_settings, &show)?;
+            bar.finish_and_clear();
+            if let Some(path) = &args.svg {
+                std::fs::write(path, render::svg::curves_svg(&report))
+                    .with_context(|| format!("cannot write the chart to {}", path.display()))?;
+            }
+            write_outputs(&report, render::curves_text(&report), &args.output)?;
+            if let Some(path) = &args.svg {
+                println!("Chart written to {}", path.display());
+            }
+            Ok(())
         }
         Command::Demo(args) => {
             let folder = args

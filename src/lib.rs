@@ -4,10 +4,12 @@
 //! and never prints; the binary parses flags, calls it and renders.
 
 pub mod baseline;
+pub mod curve;
 pub mod data;
 pub mod demo;
 pub mod encode;
 pub mod error;
+pub mod learning;
 pub mod metrics;
 pub mod model;
 pub mod render;

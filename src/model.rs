@@ -14,12 +14,27 @@ use crate::settings::ModelKind;
 pub trait FittedModel: Send + Sync {
     /// Scores of the rows of `x`.
     fn scores(&self, x: ArrayView2<f64>) -> Vec<f64>;
+    /// Parameters from which a fit on more rows of the same columns can start, where the family
+    /// can use them.
+    fn warm_start(&self) -> Option<Vec<f64>> {
+        None
+    }
 }
 
 /// A model family with fixed settings, fitted afresh in every trial.
 pub trait ModelFamily: Send + Sync {
     /// Fits on `x` with labels `y` (true = favourable).
-    fn fit(&self, x: ArrayView2<f64>, y: &[bool]) -> Result<Box<dyn FittedModel>>;
+    fn fit(&self, x: ArrayView2<f64>, y: &[bool]) -> Result<Box<dyn FittedModel>> {
+        self.fit_from(x, y, None)
+    }
+    /// Fits, starting from the [`FittedModel::warm_start`] of an earlier fit where given (used
+    /// across nested training sizes; the optimum is the same, it is only reached sooner).
+    fn fit_from(
+        &self,
+        x: ArrayView2<f64>,
+        y: &[bool],
+        start: Option<&[f64]>,
+    ) -> Result<Box<dyn FittedModel>>;
     /// Whether the scores rank rows finely enough for AUC to mean something.
     fn gives_scores(&self) -> bool;
 }
@@ -46,7 +61,7 @@ impl Default for Logistic {
         Logistic {
             alpha: 1.0,
             max_iterations: 100,
-            gradient_tolerance: 1e-5,
+            gradient_tolerance: 1e-4,
         }
     }
 }
@@ -63,16 +78,43 @@ impl FittedModel for FittedLogistic {
             .map(|z| 1.0 / (1.0 + (-(z + self.intercept)).exp()))
             .collect()
     }
+
+    fn warm_start(&self) -> Option<Vec<f64>> {
+        let mut start = self.weights.to_vec();
+        start.push(self.intercept);
+        Some(start)
+    }
+}
+
+/// Whether linfa-logistic will model the favourable label as its "positive" class: it takes the
+/// first label it meets, unless that label is the rarer one.
+fn favourable_is_positive(y: &[bool]) -> bool {
+    let favourable = y.iter().filter(|&&l| l).count();
+    let unfavourable = y.len() - favourable;
+    match y.first() {
+        Some(true) => favourable >= unfavourable,
+        _ => favourable > unfavourable,
+    }
 }
 
 impl ModelFamily for Logistic {
-    fn fit(&self, x: ArrayView2<f64>, y: &[bool]) -> Result<Box<dyn FittedModel>> {
+    fn fit_from(
+        &self,
+        x: ArrayView2<f64>,
+        y: &[bool],
+        start: Option<&[f64]>,
+    ) -> Result<Box<dyn FittedModel>> {
         let targets = Array1::from(y.to_vec());
         let dataset = DatasetBase::new(x, targets.view());
-        let fitted = LogisticRegression::default()
+        let mut params = LogisticRegression::default()
             .alpha(self.alpha)
             .max_iterations(self.max_iterations)
-            .gradient_tolerance(self.gradient_tolerance * y.len().max(1) as f64)
+            .gradient_tolerance(self.gradient_tolerance * y.len().max(1) as f64);
+        if let Some(start) = start.filter(|s| s.len() == x.ncols() + 1) {
+            let sign = if favourable_is_positive(y) { 1.0 } else { -1.0 };
+            params = params.initial_params(Array1::from_iter(start.iter().map(|v| sign * v)));
+        }
+        let fitted = params
             .fit(&dataset)
             .map_err(|e| Error::Internal(format!("logistic regression failed to fit: {e}")))?;
         // linfa models the probability of its "positive" class; turn it into the favourable one.
@@ -187,7 +229,12 @@ fn flatten(node: &TreeNode<f64, bool>, nodes: &mut Vec<Node>) -> usize {
 const FAVOURABLE_WEIGHT: f32 = 1.0 + 1.0 / 1024.0;
 
 impl ModelFamily for Tree {
-    fn fit(&self, x: ArrayView2<f64>, y: &[bool]) -> Result<Box<dyn FittedModel>> {
+    fn fit_from(
+        &self,
+        x: ArrayView2<f64>,
+        y: &[bool],
+        _start: Option<&[f64]>,
+    ) -> Result<Box<dyn FittedModel>> {
         let targets = Array1::from(y.to_vec());
         let weights = Array1::from_iter(y.iter().map(|&l| if l { FAVOURABLE_WEIGHT } else { 1.0 }));
         let dataset = DatasetBase::new(x, targets).with_weights(weights);
@@ -266,6 +313,44 @@ mod tests {
         assert!((logit[0] - -0.391725824526378).abs() < 1e-5, "{logit:?}");
         assert!((logit[1] - logit[0] - 1.2618853931960752).abs() < 1e-5);
         assert!((logit[2] - logit[0] - 0.5294273430803651).abs() < 1e-5);
+    }
+
+    #[test]
+    fn a_warm_start_reaches_the_same_fit() {
+        // Both label orders, so that linfa's choice of its positive class is exercised.
+        let x = array![
+            [0.5, 1.0],
+            [1.5, -0.5],
+            [-1.0, 0.3],
+            [2.0, 1.2],
+            [-0.3, -1.1],
+            [0.8, 0.4],
+            [-1.7, 0.9],
+            [1.1, -1.4],
+            [0.0, 0.0],
+            [-0.6, 1.8],
+            [1.9, 0.2],
+            [-1.2, -0.7]
+        ];
+        for flip in [false, true] {
+            let y: Vec<bool> = [
+                true, true, false, true, false, true, false, false, true, false, false, false,
+            ]
+            .iter()
+            .map(|&l| l ^ flip)
+            .collect();
+            let family = Logistic {
+                alpha: 1.0,
+                max_iterations: 1000,
+                gradient_tolerance: 1e-10,
+            };
+            let cold = family.fit(x.view(), &y).unwrap();
+            let start = cold.warm_start().unwrap();
+            let warm = family.fit_from(x.view(), &y, Some(&start)).unwrap();
+            for (a, b) in cold.scores(x.view()).iter().zip(warm.scores(x.view())) {
+                assert!((a - b).abs() < 1e-6, "flip {flip}: {a} vs {b}");
+            }
+        }
     }
 
     #[test]

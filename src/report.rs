@@ -191,3 +191,118 @@ pub struct ModelFourFifths {
     /// Trials in which the ratio was below 0.8.
     pub trials_flagged: usize,
 }
+
+/// The report of `acquest curves`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CurvesReport {
+    pub format: String,
+    pub format_version: u32,
+    pub tool_version: String,
+    pub command: String,
+    pub inputs: Inputs,
+    pub schedule: CurveSchedule,
+    pub groups: Vec<GroupSummary>,
+    pub reference: ReferenceGroup,
+    /// Accuracy and each group's selection rate, true positive rate and false positive rate.
+    pub curves: Vec<CurveRecord>,
+    /// SPD, DI, EOD and AOD of each compared group, derived from the fitted rates.
+    pub disparities: Vec<DisparityCurve>,
+    pub warnings: Vec<String>,
+    pub cautions: Vec<String>,
+}
+
+/// Which training sizes were measured, and how.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CurveSchedule {
+    /// Training rows of each repeat (all rows less the test part).
+    pub training_rows: usize,
+    /// Test rows of each repeat, fixed across its sizes.
+    pub test_rows: usize,
+    /// The anchor sizes, smallest first; the last is all training rows.
+    pub sizes: Vec<usize>,
+    /// How the smallest size was chosen.
+    pub smallest_rule: String,
+    pub repeats: usize,
+    /// Largest anchors held back to score each family's forecast.
+    pub held_back: usize,
+    /// Bootstrap draws over repeats behind every band.
+    pub bootstrap_draws: usize,
+    /// Sizes beyond this (4× the largest anchor) are flagged as unreliable.
+    pub reliable_up_to: f64,
+}
+
+/// One measured anchor: a quantity's spread over repeats at one training size.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct AnchorPoint {
+    pub size: usize,
+    pub mean: f64,
+    pub std_dev: Option<f64>,
+    pub min: f64,
+    pub max: f64,
+    /// Repeats in which the quantity was defined at this size.
+    pub repeats: usize,
+}
+
+/// One family fitted to a quantity.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FamilyFit {
+    pub family: crate::curve::Family,
+    pub formula: String,
+    /// a, b, c of the formula in n (training rows); unused ones are 0.
+    pub parameters: [f64; 3],
+    /// Weighted residual sum of squares on all anchors (weights n / largest n).
+    pub rss: Option<f64>,
+    /// Weighted RMS error forecasting the held-back anchors from the others.
+    pub forecast_error: Option<f64>,
+    pub status: crate::curve::FitStatus,
+}
+
+/// A value read off a curve at one training size, with its bootstrap band.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CurvePoint {
+    pub size: f64,
+    pub value: f64,
+    pub low: Option<f64>,
+    pub high: Option<f64>,
+    /// Beyond the largest anchor.
+    pub extrapolated: bool,
+    /// Beyond 4× the largest anchor: not to be relied on.
+    pub unreliable: bool,
+}
+
+/// A fitted learning curve of one quantity.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CurveRecord {
+    /// "accuracy", "selection rate", "true positive rate" or "false positive rate".
+    pub quantity: String,
+    /// The group, for a group's rate.
+    pub group: Option<String>,
+    pub anchors: Vec<AnchorPoint>,
+    pub families: Vec<FamilyFit>,
+    /// The family with the smallest forecast error; `None` when no family could be fitted.
+    pub chosen: Option<crate::curve::Family>,
+    /// The chosen curve's level as n grows, where it gets there in practice (closes 90% of
+    /// its remaining gap by 100× today's training rows); `None` otherwise.
+    pub asymptote: Option<f64>,
+    /// The curve on a grid of sizes, for charts.
+    pub grid: Vec<CurvePoint>,
+    /// The curve at the sizes asked for (`--at`).
+    pub at: Vec<CurvePoint>,
+}
+
+/// A disparity measure of one compared group, derived from the fitted group rates.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct DisparityCurve {
+    /// "statistical parity difference", "disparate impact", "equal opportunity difference" or
+    /// "average odds difference".
+    pub measure: String,
+    pub group: String,
+    /// The same measure on the labels themselves, where it applies (SPD and DI).
+    pub in_labels: Option<f64>,
+    /// The measure at each anchor, from the measured rates.
+    pub anchors: Vec<AnchorPoint>,
+    /// From the rates' asymptotes, where all have one.
+    pub asymptote: Option<f64>,
+    pub grid: Vec<CurvePoint>,
+    pub at: Vec<CurvePoint>,
+}

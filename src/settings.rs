@@ -38,6 +38,8 @@ pub struct Choices {
     pub costs: Option<PathBuf>,
     pub budget: Option<f64>,
     pub currency: Option<String>,
+    pub at: Option<Vec<String>>,
+    pub smallest: Option<usize>,
 }
 
 macro_rules! overlay {
@@ -98,7 +100,9 @@ impl Choices {
             confidence,
             costs,
             budget,
-            currency
+            currency,
+            at,
+            smallest
         )
     }
 }
@@ -387,6 +391,74 @@ fn first_repeat(names: &[String]) -> Option<&str> {
         .enumerate()
         .find(|(i, n)| names[..*i].contains(n))
         .map(|(_, n)| n.as_str())
+}
+
+/// A training size asked for on a learning curve.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum SizeRequest {
+    /// A multiple of the training rows held now (`2x`).
+    Times(f64),
+    /// A number of training rows.
+    Rows(usize),
+}
+
+/// Settings of `acquest curves`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CurveSettings {
+    /// Sizes to read the curves at.
+    pub at: Vec<SizeRequest>,
+    /// Smallest anchor size, overriding the rule.
+    pub smallest: Option<usize>,
+}
+
+impl CurveSettings {
+    /// Checks `--at` and `--smallest`; the default sizes are 2x and 4x.
+    pub fn from_choices(choices: &Choices) -> Result<Self> {
+        let texts = choices
+            .at
+            .clone()
+            .unwrap_or_else(|| vec!["2x".into(), "4x".into()]);
+        let mut at = Vec::new();
+        for text in texts.iter().map(|t| t.trim()).filter(|t| !t.is_empty()) {
+            let request = if let Some(times) = text.strip_suffix(['x', 'X']) {
+                match times.trim().parse::<f64>() {
+                    Ok(t) if t.is_finite() && t > 0.0 => SizeRequest::Times(t),
+                    _ => {
+                        return Err(Error::setting(
+                            "--at",
+                            format!("'{text}' is not a multiple such as 2x"),
+                        ))
+                    }
+                }
+            } else {
+                match text.replace('_', "").parse::<usize>() {
+                    Ok(n) if n > 0 => SizeRequest::Rows(n),
+                    _ => {
+                        return Err(Error::setting(
+                            "--at",
+                            format!(
+                                "'{text}' is neither a multiple (2x) nor a number of training rows"
+                            ),
+                        ))
+                    }
+                }
+            };
+            at.push(request);
+        }
+        if let Some(n) = choices.smallest {
+            if n < 20 {
+                return Err(Error::setting(
+                    "--smallest",
+                    format!("{n} rows is too few to fit a model on"),
+                ));
+            }
+        }
+        Ok(CurveSettings {
+            at,
+            smallest: choices.smallest,
+        })
+    }
 }
 
 /// Reads a delimiter given as one character or as a name (`tab`, `space`, `comma`, `semicolon`).

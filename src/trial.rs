@@ -111,21 +111,117 @@ pub fn run_trial(
     drop(x_train);
     let x_test = encoder.transform(&data.features, test);
     let scores = model.scores(x_test.view());
+    Ok(measure(data, family, test, &scores, train.len()))
+}
+
+/// Scores on the test rows turned into the trial's measurements (favourable when score ≥ 0.5).
+fn measure(
+    data: &Dataset,
+    family: &dyn ModelFamily,
+    test: &[usize],
+    scores: &[f64],
+    train_rows: usize,
+) -> TrialOutcome {
     let predicted: Vec<bool> = scores.iter().map(|&s| s >= 0.5).collect();
     let labels: Vec<bool> = test.iter().map(|&i| data.labels[i]).collect();
     let groups: Vec<u32> = test.iter().map(|&i| data.groups[i]).collect();
-    Ok(TrialOutcome {
+    TrialOutcome {
         accuracy: metrics::accuracy(&labels, &predicted),
         balanced_accuracy: metrics::balanced_accuracy(&labels, &predicted),
         area_under_curve: if family.gives_scores() {
-            metrics::area_under_curve(&labels, &scores)
+            metrics::area_under_curve(&labels, scores)
         } else {
             None
         },
         counts: metrics::group_counts(&labels, &predicted, &groups, data.group_list.len()),
-        train_rows: train.len(),
+        train_rows,
         test_rows: test.len(),
-    })
+    }
+}
+
+/// Stream number of the learning curves' splits and nested orders.
+pub const CURVE_STREAM: u64 = 2;
+
+/// Orders `rows` so that every prefix keeps the (group, label) mix of the whole: each cell is
+/// shuffled, and its k-th row of m is placed at position (k + ½)/m of the way through.
+pub fn nested_order(
+    rows: &[usize],
+    labels: &[bool],
+    groups: &[u32],
+    group_count: usize,
+    rng: &mut impl rand::Rng,
+) -> Vec<usize> {
+    let mut cells: Vec<Vec<usize>> = vec![Vec::new(); group_count * 2];
+    for &i in rows {
+        cells[groups[i] as usize * 2 + usize::from(labels[i])].push(i);
+    }
+    let mut keyed: Vec<(f64, usize, usize)> = Vec::with_capacity(rows.len());
+    for (c, mut cell) in cells.into_iter().enumerate() {
+        cell.shuffle(rng);
+        let m = cell.len() as f64;
+        for (k, i) in cell.into_iter().enumerate() {
+            keyed.push(((k as f64 + 0.5) / m, c, i));
+        }
+    }
+    keyed.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    keyed.into_iter().map(|(_, _, i)| i).collect()
+}
+
+/// Learning-curve trials: for each repeat, one stratified split, one nested order of its
+/// training part, one encoding fitted on that whole training part, then a model per size fitted
+/// on the first `size` rows of the order (warm-started from the size before) and measured on the
+/// repeat's fixed test part. Returns outcomes as `[repeat][size]`.
+pub fn nested_trials(
+    data: &Dataset,
+    family: &dyn ModelFamily,
+    sizes: &[usize],
+    repeats: usize,
+    test_fraction: f64,
+    seed: u64,
+    progress: ProgressSink,
+) -> Result<Vec<Vec<TrialOutcome>>> {
+    let total = repeats * sizes.len();
+    let done = AtomicUsize::new(0);
+    progress(Progress {
+        stage: "learning curves",
+        done: 0,
+        total,
+    });
+    (0..repeats)
+        .into_par_iter()
+        .map(|repeat| {
+            let mut rng = stream_rng(seed, CURVE_STREAM, repeat as u64);
+            let group_count = data.group_list.len();
+            let (train, test) = stratified_split(
+                &data.labels,
+                &data.groups,
+                group_count,
+                test_fraction,
+                &mut rng,
+            );
+            let order = nested_order(&train, &data.labels, &data.groups, group_count, &mut rng);
+            let encoder = Encoder::fit(&data.features, &order);
+            let x_pool = encoder.transform(&data.features, &order);
+            let y_pool: Vec<bool> = order.iter().map(|&i| data.labels[i]).collect();
+            let x_test = encoder.transform(&data.features, &test);
+            let mut start: Option<Vec<f64>> = None;
+            let mut outcomes = Vec::with_capacity(sizes.len());
+            for &size in sizes {
+                let size = size.min(order.len());
+                let x = x_pool.slice(ndarray::s![..size, ..]);
+                let model = family.fit_from(x, &y_pool[..size], start.as_deref())?;
+                start = model.warm_start();
+                let scores = model.scores(x_test.view());
+                outcomes.push(measure(data, family, &test, &scores, size));
+                progress(Progress {
+                    stage: "learning curves",
+                    done: done.fetch_add(1, Ordering::Relaxed) + 1,
+                    total,
+                });
+            }
+            Ok(outcomes)
+        })
+        .collect()
 }
 
 /// Runs `repeats` stratified train/test trials on all rows, in parallel, in trial order.
@@ -185,6 +281,29 @@ mod tests {
                 };
                 assert!(cell(&test) >= 1 && cell(&train) >= 1, "cell ({g}, {l})");
             }
+        }
+    }
+
+    #[test]
+    fn nested_prefixes_keep_the_mix() {
+        let labels: Vec<bool> = (0..1000).map(|i| i % 4 == 0).collect();
+        let groups: Vec<u32> = (0..1000).map(|i| u32::from(i % 10 < 3)).collect();
+        let rows: Vec<usize> = (0..1000).collect();
+        let order = nested_order(&rows, &labels, &groups, 2, &mut stream_rng(3, 2, 0));
+        let mut sorted = order.clone();
+        sorted.sort_unstable();
+        assert_eq!(sorted, rows, "a permutation");
+        for prefix in [100, 250, 500] {
+            let share = order[..prefix]
+                .iter()
+                .filter(|&&i| groups[i] == 1 && labels[i])
+                .count();
+            let expected =
+                (0..1000).filter(|&i| groups[i] == 1 && labels[i]).count() * prefix / 1000;
+            assert!(
+                share.abs_diff(expected) <= 1,
+                "{prefix}: {share} vs {expected}"
+            );
         }
     }
 

@@ -583,3 +583,188 @@ fn usage_errors_exit_2() {
         .code(2)
         .stderr(predicates::str::contains("--target"));
 }
+
+fn curves_report(
+    args: &[&str],
+    threads: Option<usize>,
+) -> (
+    acquest::report::CurvesReport,
+    String,
+    PathBuf,
+    tempfile::TempDir,
+) {
+    let dir = tempfile::tempdir().unwrap();
+    let json = dir.path().join("curves.json");
+    let svg = dir.path().join("curves.svg");
+    let mut cmd = acquest();
+    cmd.current_dir(dir.path())
+        .arg("curves")
+        .args(args)
+        .arg("--quiet")
+        .arg("--json")
+        .arg(&json)
+        .arg("--svg")
+        .arg(&svg);
+    if let Some(t) = threads {
+        cmd.env("RAYON_NUM_THREADS", t.to_string());
+    }
+    let output = cmd.output().unwrap();
+    assert!(
+        output.status.success(),
+        "acquest curves failed: {}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let text = std::fs::read_to_string(&json).unwrap();
+    (serde_json::from_str(&text).unwrap(), text, svg, dir)
+}
+
+#[test]
+fn adult_learning_curves_hold_every_family_and_forecast_well() {
+    let Some(data) = shared("adult/adult.data") else {
+        return;
+    };
+    let (report, _, svg, _dir) = curves_report(
+        &[
+            "--data",
+            data.to_str().unwrap(),
+            "--no-header",
+            "--columns",
+            ADULT_COLUMNS,
+            "--target",
+            "income",
+            "--favourable",
+            ">50K",
+            "--protected",
+            "sex",
+            "--repeats",
+            "4",
+            "--at",
+            "2x,8x",
+        ],
+        None,
+    );
+    let s = &report.schedule;
+    assert_eq!(*s.sizes.last().unwrap(), s.training_rows);
+    assert!(s.sizes.len() >= 10, "{:?}", s.sizes);
+    // Accuracy and three rates for each of the two groups.
+    assert_eq!(report.curves.len(), 7);
+    for c in &report.curves {
+        assert_eq!(c.families.len(), 4, "{}", c.quantity);
+        assert!(c.chosen.is_some(), "{}", c.quantity);
+        for f in &c.families {
+            assert!(f.parameters.iter().all(|p| p.is_finite()));
+        }
+        assert_eq!(c.at.len(), 2);
+        assert!(
+            !c.at[0].unreliable && c.at[1].unreliable,
+            "8x is beyond 4x the largest size"
+        );
+    }
+    // On Adult the accuracy curve forecasts its held-back anchors within half a percentage point
+    // (a stated tolerance: common practice, no source).
+    let accuracy = &report.curves[0];
+    let chosen = accuracy
+        .families
+        .iter()
+        .find(|f| Some(f.family) == accuracy.chosen)
+        .unwrap();
+    assert!(
+        chosen.forecast_error.unwrap() < 0.005,
+        "{:?}",
+        chosen.forecast_error
+    );
+    // Disparities derived for the one compared group, with the labels' own SPD beside them
+    // (../shared/data/adult/PROVENANCE.md: -0.196276).
+    assert_eq!(report.disparities.len(), 4);
+    assert!((report.disparities[0].in_labels.unwrap() + 0.196276).abs() < 5e-7);
+    let chart = std::fs::read_to_string(svg).unwrap();
+    assert!(
+        chart.starts_with("<svg") && chart.contains("polyline") && chart.contains("training rows")
+    );
+}
+
+#[test]
+fn curves_are_byte_identical_on_one_and_two_threads() {
+    let Some(data) = shared("german-credit/german.data") else {
+        return;
+    };
+    let args = [
+        "--data",
+        data.to_str().unwrap(),
+        "--no-header",
+        "--columns",
+        GERMAN_COLUMNS,
+        "--target",
+        "credit",
+        "--favourable",
+        "1",
+        "--protected",
+        "personal",
+        "--groups",
+        "female=A92,A95;male=*",
+        "--repeats",
+        "4",
+    ];
+    let (_, one, _, _d1) = curves_report(&args, Some(1));
+    let (_, two, _, _d2) = curves_report(&args, Some(2));
+    assert_eq!(one, two);
+}
+
+#[test]
+fn curves_on_too_few_rows_stop_with_a_clear_message() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("small.csv");
+    std::fs::write(&path, good_rows(60)).unwrap();
+    let output = acquest()
+        .current_dir(dir.path())
+        .args([
+            "curves",
+            "--data",
+            path.to_str().unwrap(),
+            "--target",
+            "y",
+            "--favourable",
+            "yes",
+            "--protected",
+            "g",
+            "--quiet",
+        ])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("learning curve"), "{stderr}");
+    assert!(!stderr.contains("panicked"));
+}
+
+#[test]
+fn a_rare_group_gets_the_documented_fallback_and_a_warning() {
+    let Some(data) = shared("adult/adult.data") else {
+        return;
+    };
+    let (report, text, _, _dir) = curves_report(
+        &[
+            "--data",
+            data.to_str().unwrap(),
+            "--no-header",
+            "--columns",
+            ADULT_COLUMNS,
+            "--target",
+            "income",
+            "--favourable",
+            ">50K",
+            "--protected",
+            "race",
+            "--repeats",
+            "2",
+        ],
+        None,
+    );
+    assert!(
+        report.schedule.smallest_rule.contains("an eighth"),
+        "{}",
+        report.schedule.smallest_rule
+    );
+    assert!(report.warnings.iter().any(|w| w.contains("too small")));
+    assert!(!text.contains("NaN"));
+}

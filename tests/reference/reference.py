@@ -36,3 +36,20 @@ x = np.array([
 yl = np.array([1, 1, 0, 1, 0, 1, 0, 0, 1, 0, 1, 0])
 model = LogisticRegression(C=1.0, tol=1e-12, max_iter=10000).fit(x, yl)
 print("logistic coef:", repr(model.coef_[0].tolist()), "intercept:", repr(float(model.intercept_[0])))
+
+# Learning-curve families, weighted least squares (minimise sum w * r^2), weights n / max(n).
+from scipy.optimize import curve_fit
+
+n = np.array([500.0, 707.0, 1000.0, 1414.0, 2000.0, 2828.0, 4000.0, 5657.0])
+y = np.array([0.7912, 0.8031, 0.8155, 0.8204, 0.8297, 0.8321, 0.8388, 0.8402])
+w = n / n.max()
+families = {
+    "pow3": (lambda n, a, b, c: a - b * n ** (-c), [0.86, 3.0, 0.5]),
+    "exp3": (lambda n, a, b, c: a - b * np.exp(-c * n), [0.84, 0.1, 1e-3]),
+    "log2": (lambda n, a, b: a + b * np.log(n), [0.5, 0.03]),
+}
+for name, (f, p0) in families.items():
+    p, _ = curve_fit(f, n, y, p0=p0, sigma=1 / np.sqrt(w), absolute_sigma=True, maxfev=200000,
+                     xtol=1e-15, ftol=1e-15, gtol=1e-15)
+    rss = float(np.sum(w * (y - f(n, *p)) ** 2))
+    print(f"curve_fit {name}:", repr(p.tolist()), "rss", repr(rss))

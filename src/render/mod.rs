@@ -1,10 +1,12 @@
 //! Renderers: each turns a report into one output format (terminal text, JSON) and computes
 //! nothing of its own.
 
+pub mod svg;
+
 use std::fmt::Write as _;
 
 use crate::metrics::Estimate;
-use crate::report::BaselineReport;
+use crate::report::{BaselineReport, CurvePoint, CurvesReport};
 
 /// The report as pretty-printed JSON, ending in a newline.
 pub fn json<T: serde::Serialize>(report: &T) -> String {
@@ -321,17 +323,173 @@ pub fn baseline_text(report: &BaselineReport) -> String {
     }
     t.render(&mut out);
 
-    if !report.warnings.is_empty() {
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// "0.8512 [0.8490, 0.8534]" for a point on a curve, with "!" when beyond the reliable reach.
+fn curve_cell(p: Option<&CurvePoint>) -> String {
+    match p {
+        None => "n/a".into(),
+        Some(p) => {
+            let mark = if p.unreliable { " !" } else { "" };
+            match (p.low, p.high) {
+                (Some(l), Some(h)) => {
+                    format!("{} [{}, {}]{mark}", number(p.value), number(l), number(h))
+                }
+                _ => format!("{}{mark}", number(p.value)),
+            }
+        }
+    }
+}
+
+/// The curves report as terminal text.
+pub fn curves_text(report: &CurvesReport) -> String {
+    let mut out = String::new();
+    let inputs = &report.inputs;
+    let s = &report.schedule;
+    let _ = writeln!(
+        out,
+        "acquest curves: {} ({} rows); target '{}' favourable '{}', protected '{}'; model {}, {} repeats, seed {}",
+        inputs.data.path,
+        thousands(inputs.data.rows),
+        inputs.target,
+        inputs.favourable,
+        inputs.protected,
+        inputs.model,
+        s.repeats,
+        inputs.seed
+    );
+    let _ = writeln!(
+        out,
+        "{} training sizes from {} to {} rows (all training rows), each repeat tested on the same {} held-out rows",
+        s.sizes.len(),
+        thousands(s.sizes[0]),
+        thousands(*s.sizes.last().unwrap_or(&0)),
+        thousands(s.test_rows)
+    );
+    let _ = writeln!(out, "  smallest size: {}", s.smallest_rule);
+    let level = (inputs.confidence * 100.0).round();
+    let _ = writeln!(
+        out,
+        "  each family is scored by forecasting the {} largest sizes from the others; bands: {level}% bootstrap over repeats ({} draws)",
+        s.held_back, s.bootstrap_draws
+    );
+    let top = *s.sizes.last().unwrap_or(&0);
+    let requested: Vec<f64> = report
+        .curves
+        .iter()
+        .find(|c| !c.at.is_empty())
+        .map(|c| c.at.iter().map(|p| p.size).collect())
+        .unwrap_or_default();
+    let at_header = |n: f64| {
+        format!(
+            "at {} ({:.1}x)",
+            thousands(n.round() as usize),
+            n / top as f64
+        )
+    };
+
+    out.push_str(
+        "
+Learning curves (value [band]; 'now' is the mean at all training rows)
+",
+    );
+    let mut header: Vec<String> = vec![
+        "measure".into(),
+        "group".into(),
+        format!("now ({})", thousands(top)),
+        "level".into(),
+    ];
+    header.extend(requested.iter().map(|&n| at_header(n)));
+    header.extend(["family".into(), "forecast error".into()]);
+    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+    let mut t = Table::new(&header_refs);
+    for c in &report.curves {
+        let mut row = vec![
+            c.quantity.clone(),
+            c.group.clone().unwrap_or_else(|| "all".into()),
+            c.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
+            maybe(c.asymptote),
+        ];
+        for i in 0..requested.len() {
+            row.push(curve_cell(c.at.get(i)));
+        }
+        let chosen = c.families.iter().find(|f| Some(f.family) == c.chosen);
+        row.push(chosen.map_or("none".into(), |f| f.formula.clone()));
+        row.push(
+            chosen
+                .and_then(|f| f.forecast_error)
+                .map_or("n/a".into(), |e| format!("{e:.4}")),
+        );
+        t.row(row);
+    }
+    t.render(&mut out);
+
+    let _ = writeln!(
+        out,
+        "
+Disparities against '{}', derived from the fitted rates",
+        report.reference.name
+    );
+    let mut header: Vec<String> = vec![
+        "measure".into(),
+        "group".into(),
+        "in labels".into(),
+        "now".into(),
+        "level".into(),
+    ];
+    header.extend(requested.iter().map(|&n| at_header(n)));
+    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+    let mut t = Table::new(&header_refs);
+    for d in &report.disparities {
+        let mut row = vec![
+            d.measure.clone(),
+            d.group.clone(),
+            maybe(d.in_labels),
+            d.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
+            maybe(d.asymptote),
+        ];
+        for i in 0..requested.len() {
+            row.push(curve_cell(d.at.get(i)));
+        }
+        t.row(row);
+    }
+    t.render(&mut out);
+    let _ = writeln!(
+        out,
+        "  'in labels': the same measure on the labels themselves; more rows of the same kind tend to pull the model towards it"
+    );
+    if report
+        .curves
+        .iter()
+        .any(|c| c.at.iter().any(|p| p.unreliable))
+        || report
+            .disparities
+            .iter()
+            .any(|d| d.at.iter().any(|p| p.unreliable))
+    {
+        let _ = writeln!(
+            out,
+            "  ! beyond {} rows, 4x the largest fitted size: extrapolated too far to be relied on",
+            thousands(s.reliable_up_to.round() as usize)
+        );
+    }
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+fn warnings_and_cautions(out: &mut String, warnings: &[String], cautions: &[String]) {
+    if !warnings.is_empty() {
         out.push_str("\nWarnings\n");
-        for w in &report.warnings {
+        for w in warnings {
             let _ = writeln!(out, "  - {w}");
         }
     }
     out.push_str("\nCautions\n");
-    for c in &report.cautions {
+    for c in cautions {
         let _ = writeln!(out, "  - {c}");
     }
-    out
 }
 
 #[cfg(test)]

@@ -1,0 +1,648 @@
+//! `acquest curves`: learning curves of accuracy and of each group's rates over nested training
+//! sizes, fitted and chosen by forecast, with disparities derived from the fitted rates and bands
+//! from a bootstrap over repeats.
+
+use rand::Rng;
+
+use crate::baseline;
+use crate::curve::{self, Choice, Fit};
+use crate::data::Dataset;
+use crate::error::{Error, Result};
+use crate::metrics::{self, GroupCounts};
+use crate::model;
+use crate::report::*;
+use crate::settings::{CurveSettings, Settings, SizeRequest};
+use crate::trial::{self, stream_rng, ProgressSink, TrialOutcome};
+
+/// Fewest rows of one (group, label) cell that the smallest anchor must hold.
+pub const MIN_CELL_ROWS: usize = 10;
+/// Fewest rows of the smallest anchor.
+pub const MIN_ANCHOR_ROWS: usize = 100;
+/// Ratio between successive anchor sizes.
+pub const SIZE_RATIO: f64 = std::f64::consts::SQRT_2;
+/// Fewest anchors a curve is fitted on.
+pub const MIN_ANCHORS: usize = 6;
+/// Bootstrap draws over repeats behind every band.
+pub const BOOTSTRAP_DRAWS: usize = 200;
+/// Sizes beyond this multiple of the largest anchor are flagged as unreliable.
+pub const RELIABLE_MULTIPLE: f64 = 4.0;
+/// Points of the chart grid.
+const GRID_POINTS: usize = 40;
+/// Random stream of the bootstrap draws.
+const BOOTSTRAP_STREAM: u64 = 3;
+
+/// The anchor sizes: from `smallest` up by [`SIZE_RATIO`] to all `training` rows (a geometric
+/// size within 10% of the top is dropped for the top). With fewer than [`MIN_ANCHORS`] that way,
+/// [`MIN_ANCHORS`] sizes spread evenly on the log scale; `None` when the training part is less
+/// than twice the smallest size.
+pub fn anchor_sizes(smallest: usize, training: usize) -> Option<Vec<usize>> {
+    if training < 2 * smallest {
+        return None;
+    }
+    let mut sizes = Vec::new();
+    let mut size = smallest as f64;
+    while size < 0.9 * training as f64 {
+        sizes.push(size.round() as usize);
+        size *= SIZE_RATIO;
+    }
+    sizes.push(training);
+    if sizes.len() < MIN_ANCHORS {
+        let ratio = (training as f64 / smallest as f64).powf(1.0 / (MIN_ANCHORS - 1) as f64);
+        sizes = (0..MIN_ANCHORS)
+            .map(|k| (smallest as f64 * ratio.powi(k as i32)).round() as usize)
+            .collect();
+        *sizes.last_mut()? = training;
+    }
+    sizes.dedup();
+    Some(sizes)
+}
+
+/// The quantities measured at every anchor, in report order: accuracy, then per group the
+/// selection rate, true positive rate and false positive rate.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Quantity {
+    Accuracy,
+    Selection(usize),
+    TruePositive(usize),
+    FalsePositive(usize),
+}
+
+impl Quantity {
+    fn all(groups: usize) -> Vec<Quantity> {
+        let mut q = vec![Quantity::Accuracy];
+        for g in 0..groups {
+            q.extend([
+                Quantity::Selection(g),
+                Quantity::TruePositive(g),
+                Quantity::FalsePositive(g),
+            ]);
+        }
+        q
+    }
+
+    fn read(self, o: &TrialOutcome) -> Option<f64> {
+        match self {
+            Quantity::Accuracy => Some(o.accuracy),
+            Quantity::Selection(g) => o.counts[g].selection_rate(),
+            Quantity::TruePositive(g) => o.counts[g].true_positive_rate(),
+            Quantity::FalsePositive(g) => o.counts[g].false_positive_rate(),
+        }
+    }
+
+    fn name(self) -> &'static str {
+        match self {
+            Quantity::Accuracy => "accuracy",
+            Quantity::Selection(_) => "selection rate",
+            Quantity::TruePositive(_) => "true positive rate",
+            Quantity::FalsePositive(_) => "false positive rate",
+        }
+    }
+
+    fn group(self) -> Option<usize> {
+        match self {
+            Quantity::Accuracy => None,
+            Quantity::Selection(g) | Quantity::TruePositive(g) | Quantity::FalsePositive(g) => {
+                Some(g)
+            }
+        }
+    }
+}
+
+/// The four disparity measures, derived from group rates.
+const MEASURES: [&str; 4] = [
+    "statistical parity difference",
+    "disparate impact",
+    "equal opportunity difference",
+    "average odds difference",
+];
+
+/// A measure of group u against reference r from their (selection, TPR, FPR) rates.
+fn derive(measure: usize, u: [f64; 3], r: [f64; 3]) -> Option<f64> {
+    match measure {
+        0 => Some(u[0] - r[0]),
+        1 => (r[0] > 0.0).then(|| u[0] / r[0]),
+        2 => Some(u[1] - r[1]),
+        _ => Some(((u[2] - r[2]) + (u[1] - r[1])) / 2.0),
+    }
+}
+
+/// The curve-fitting part of the work, on trial outcomes already run: used by `curves` and, in
+/// later stages, by the appraisal of options.
+pub struct FittedCurves {
+    pub sizes: Vec<usize>,
+    pub curves: Vec<CurveRecord>,
+    pub disparities: Vec<DisparityCurve>,
+    pub held_back: usize,
+    pub warnings: Vec<String>,
+}
+
+/// Runs `acquest curves`.
+pub fn run(
+    settings: &Settings,
+    curve_settings: &CurveSettings,
+    progress: ProgressSink,
+) -> Result<CurvesReport> {
+    let (table, data) = Dataset::load(settings)?;
+    let trials = &settings.trials;
+    let group_count = data.group_list.len();
+    // The split of repeat 0 gives the sizes of every repeat (cells are cut the same way).
+    let (train, test) = trial::stratified_split(
+        &data.labels,
+        &data.groups,
+        group_count,
+        trials.test_fraction,
+        &mut stream_rng(trials.seed, trial::CURVE_STREAM, 0),
+    );
+    let (smallest, smallest_rule, mut warnings) =
+        smallest_size(&data, &train, curve_settings.smallest)?;
+    let sizes = anchor_sizes(smallest, train.len()).ok_or_else(|| {
+        Error::NotEnoughData(format!(
+            "too few rows for a learning curve: the training part holds {} rows and the smallest \
+             learnable size is {smallest} ({smallest_rule}); a curve needs at least twice that",
+            train.len()
+        ))
+    })?;
+    let family = model::family(trials.model);
+    let outcomes = trial::nested_trials(
+        &data,
+        family.as_ref(),
+        &sizes,
+        trials.repeats,
+        trials.test_fraction,
+        trials.seed,
+        progress,
+    )?;
+    if trials.repeats < 3 {
+        warnings.push(format!(
+            "bands come from a bootstrap over {} repeats; use --repeats 5 or more for bands that mean something",
+            trials.repeats
+        ));
+    }
+    let requested: Vec<f64> = curve_settings
+        .at
+        .iter()
+        .map(|r| match *r {
+            SizeRequest::Times(t) => t * train.len() as f64,
+            SizeRequest::Rows(n) => n as f64,
+        })
+        .collect();
+    let label_counts = baseline::label_counts(&data);
+    let fitted = fit_curves(
+        &data,
+        &outcomes,
+        &sizes,
+        &requested,
+        settings.trials.confidence,
+        settings.trials.seed,
+        &label_counts,
+    );
+    warnings.extend(data.warnings.iter().cloned());
+    warnings.extend(fitted.warnings);
+    let top = *sizes.last().unwrap_or(&1) as f64;
+    for &n in &requested {
+        if n > RELIABLE_MULTIPLE * top {
+            warnings.push(format!(
+                "{n:.0} training rows is more than {RELIABLE_MULTIPLE}x the largest fitted size \
+                 ({top:.0}): the curves are extrapolated too far there to be relied on"
+            ));
+        }
+    }
+    Ok(CurvesReport {
+        format: FORMAT.into(),
+        format_version: FORMAT_VERSION,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
+        command: "curves".into(),
+        inputs: baseline::inputs(settings, &table, &data),
+        schedule: CurveSchedule {
+            training_rows: train.len(),
+            test_rows: test.len(),
+            sizes,
+            smallest_rule,
+            repeats: trials.repeats,
+            held_back: fitted.held_back,
+            bootstrap_draws: BOOTSTRAP_DRAWS,
+            reliable_up_to: RELIABLE_MULTIPLE * top,
+        },
+        groups: baseline::group_summaries(&data),
+        reference: baseline::reference_group(&data),
+        curves: fitted.curves,
+        disparities: fitted.disparities,
+        warnings,
+        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+/// The smallest anchor: [`MIN_ANCHOR_ROWS`], or more so that every (group, label) cell holds
+/// [`MIN_CELL_ROWS`] rows in a proportional sample, unless `--smallest` says otherwise.
+fn smallest_size(
+    data: &Dataset,
+    train: &[usize],
+    asked: Option<usize>,
+) -> Result<(usize, String, Vec<String>)> {
+    let group_count = data.group_list.len();
+    let mut cells = vec![0usize; group_count * 2];
+    for &i in train {
+        cells[data.groups[i] as usize * 2 + usize::from(data.labels[i])] += 1;
+    }
+    let mut warnings = Vec::new();
+    for (c, &count) in cells.iter().enumerate() {
+        if count < MIN_CELL_ROWS {
+            let label = if c % 2 == 1 {
+                &data.favourable
+            } else {
+                &data.unfavourable
+            };
+            return Err(Error::NotEnoughData(format!(
+                "group '{}' has {count} training rows with the label '{label}'; a learning curve \
+                 needs at least {MIN_CELL_ROWS} in every group and label (merge groups with --groups)",
+                data.group_list[c / 2].name
+            )));
+        }
+    }
+    let rarest = *cells.iter().min().unwrap_or(&1);
+    let by_rule = MIN_ANCHOR_ROWS
+        .max((MIN_CELL_ROWS as f64 * train.len() as f64 / rarest as f64).ceil() as usize);
+    let rule = format!(
+        "the smallest size at which every group and label has {MIN_CELL_ROWS} rows in a \
+         proportional sample, and at least {MIN_ANCHOR_ROWS}: {by_rule}"
+    );
+    // A rare group and label would push the smallest size so high that too little of the
+    // curve is left: then start at an eighth of the training rows and say what that costs.
+    let span_limit = MIN_ANCHOR_ROWS.max(train.len() / 8);
+    let (by_rule, rule) = if by_rule > span_limit && asked.is_none() {
+        let thin: Vec<String> = cells
+            .iter()
+            .enumerate()
+            .filter(|&(_, &count)| (count * span_limit) / train.len() < MIN_CELL_ROWS)
+            .map(|(c, &count)| {
+                let label = if c % 2 == 1 {
+                    &data.favourable
+                } else {
+                    &data.unfavourable
+                };
+                format!(
+                    "'{}' with label '{label}' (about {} rows at the smallest size)",
+                    data.group_list[c / 2].name,
+                    count * span_limit / train.len()
+                )
+            })
+            .collect();
+        warnings.push(format!(
+            "some groups are too small for {MIN_CELL_ROWS} rows of each label at every size: {}; \
+             their rates at the smaller sizes are noisy and their curves less certain",
+            thin.join(", ")
+        ));
+        (
+            span_limit,
+            format!(
+                "an eighth of the training rows ({span_limit}), since {MIN_CELL_ROWS} rows of \
+                 every group and label would need {by_rule}"
+            ),
+        )
+    } else {
+        (by_rule, rule)
+    };
+    match asked {
+        Some(n) if n >= train.len() => Err(Error::setting(
+            "--smallest",
+            format!("{n} is not below the {} training rows", train.len()),
+        )),
+        Some(n) => {
+            if n < by_rule {
+                warnings.push(format!(
+                    "--smallest {n} is below the rule's {by_rule}: the rarest group and label has \
+                     fewer than {MIN_CELL_ROWS} rows at the smallest anchors"
+                ));
+            }
+            Ok((
+                n,
+                format!("set with --smallest (the rule gives {by_rule})"),
+                warnings,
+            ))
+        }
+        None => Ok((by_rule, rule, warnings)),
+    }
+}
+
+/// One quantity's per-repeat values, fitted choice, and bootstrap refits.
+struct QuantityFit {
+    per_repeat: Vec<Vec<Option<f64>>>,
+    choice: Option<Choice>,
+    /// Bootstrap refits of the chosen family (one per draw; `None` where a draw could not fit).
+    replicates: Vec<Option<Fit>>,
+}
+
+/// Fits every quantity, derives the disparities, and reads all curves at the grid and at the
+/// requested sizes.
+pub fn fit_curves(
+    data: &Dataset,
+    outcomes: &[Vec<TrialOutcome>],
+    sizes: &[usize],
+    requested: &[f64],
+    confidence: f64,
+    seed: u64,
+    label_counts: &[GroupCounts],
+) -> FittedCurves {
+    let group_count = data.group_list.len();
+    let repeats = outcomes.len();
+    let sizes_f: Vec<f64> = sizes.iter().map(|&n| n as f64).collect();
+    let held_back = if sizes.len() >= 9 { 3 } else { 2 };
+    let mut warnings = Vec::new();
+
+    // The same bootstrap draws serve every quantity, so derived measures keep the rates'
+    // correlation.
+    let mut rng = stream_rng(seed, BOOTSTRAP_STREAM, 0);
+    let draws: Vec<Vec<usize>> = (0..BOOTSTRAP_DRAWS)
+        .map(|_| (0..repeats).map(|_| rng.gen_range(0..repeats)).collect())
+        .collect();
+    let all: Vec<usize> = (0..repeats).collect();
+
+    let quantities = Quantity::all(group_count);
+    let fits: Vec<QuantityFit> = quantities
+        .iter()
+        .map(|&q| {
+            let per_repeat: Vec<Vec<Option<f64>>> = outcomes
+                .iter()
+                .map(|row| row.iter().map(|o| q.read(o)).collect())
+                .collect();
+            let (kept, means) = curve::means_over(&per_repeat, &all, sizes.len());
+            let kept_sizes: Vec<f64> = kept.iter().map(|&i| sizes_f[i]).collect();
+            let choice = curve::choose(&kept_sizes, &means, held_back);
+            let replicates = match &choice {
+                None => Vec::new(),
+                Some(choice) => draws
+                    .iter()
+                    .map(|draw| {
+                        let (kept, means) = curve::means_over(&per_repeat, draw, sizes.len());
+                        let s: Vec<f64> = kept.iter().map(|&i| sizes_f[i]).collect();
+                        let f =
+                            curve::fit(choice.fit().family, &s, &means, &curve::size_weights(&s));
+                        (f.status != curve::FitStatus::Failed).then_some(f)
+                    })
+                    .collect(),
+            };
+            QuantityFit {
+                per_repeat,
+                choice,
+                replicates,
+            }
+        })
+        .collect();
+
+    let top = *sizes_f.last().unwrap_or(&1.0);
+    let reach = requested.iter().copied().fold(top, f64::max);
+    let grid: Vec<f64> = (0..GRID_POINTS)
+        .map(|k| sizes_f[0] * (reach / sizes_f[0]).powf(k as f64 / (GRID_POINTS - 1) as f64))
+        .collect();
+    let point = |size: f64, value: f64, band: Option<(f64, f64)>| CurvePoint {
+        size,
+        value,
+        low: band.map(|b| b.0),
+        high: band.map(|b| b.1),
+        extrapolated: size > top * 1.000_001,
+        unreliable: size > RELIABLE_MULTIPLE * top,
+    };
+    let tail = (1.0 - confidence) / 2.0;
+    let band_of = |mut values: Vec<f64>| -> Option<(f64, f64)> {
+        if values.len() < 2 {
+            return None;
+        }
+        Some((
+            curve::quantile(&mut values, tail)?,
+            curve::quantile(&mut values, 1.0 - tail)?,
+        ))
+    };
+    let clip = |q: Quantity, v: f64| {
+        if q == Quantity::Accuracy || q.group().is_some() {
+            v.clamp(0.0, 1.0)
+        } else {
+            v
+        }
+    };
+
+    let mut curves = Vec::new();
+    for (&q, f) in quantities.iter().zip(&fits) {
+        let read_at = |at: &[f64]| -> Vec<CurvePoint> {
+            let Some(choice) = &f.choice else {
+                return Vec::new();
+            };
+            at.iter()
+                .map(|&n| {
+                    let reps: Vec<f64> = f
+                        .replicates
+                        .iter()
+                        .flatten()
+                        .map(|r| clip(q, r.predict(n)))
+                        .collect();
+                    point(n, clip(q, choice.fit().predict(n)), band_of(reps))
+                })
+                .collect()
+        };
+        if f.choice.is_none() {
+            warnings.push(format!(
+                "no curve could be fitted to the {}{}: too few sizes where it is defined",
+                q.name(),
+                q.group()
+                    .map(|g| format!(" of group '{}'", data.group_list[g].name))
+                    .unwrap_or_default()
+            ));
+        }
+        curves.push(CurveRecord {
+            quantity: q.name().into(),
+            group: q.group().map(|g| data.group_list[g].name.clone()),
+            anchors: anchors(&f.per_repeat, sizes),
+            families: f
+                .choice
+                .as_ref()
+                .map(|c| {
+                    c.candidates
+                        .iter()
+                        .map(|(fit, error)| FamilyFit {
+                            family: fit.family,
+                            formula: fit.family.formula().into(),
+                            parameters: fit
+                                .parameters()
+                                .map(|p| if p.is_finite() { p } else { 0.0 }),
+                            rss: fit.rss.is_finite().then_some(fit.rss),
+                            forecast_error: *error,
+                            status: fit.status,
+                        })
+                        .collect()
+                })
+                .unwrap_or_default(),
+            chosen: f.choice.as_ref().map(|c| c.fit().family),
+            asymptote: f
+                .choice
+                .as_ref()
+                .and_then(|c| c.fit().level_reached_from(top))
+                .map(|a| clip(q, a)),
+            grid: read_at(&grid),
+            at: read_at(requested),
+        });
+    }
+
+    // Disparities from the fitted rates of each compared group and the reference.
+    let rate_index = |g: usize, k: usize| 1 + 3 * g + k;
+    let reference = data.reference;
+    let mut disparities = Vec::new();
+    for g in (0..group_count).filter(|&g| g != reference) {
+        let usable = (0..3).all(|k| {
+            fits[rate_index(g, k)].choice.is_some()
+                && fits[rate_index(reference, k)].choice.is_some()
+        });
+        for (m, measure) in MEASURES.iter().enumerate() {
+            let at_point = |n: f64| -> Option<f64> {
+                if !usable {
+                    return None;
+                }
+                let rates = |h: usize| -> [f64; 3] {
+                    std::array::from_fn(|k| {
+                        fits[rate_index(h, k)]
+                            .choice
+                            .as_ref()
+                            .map_or(f64::NAN, |c| c.fit().predict(n).clamp(0.0, 1.0))
+                    })
+                };
+                derive(m, rates(g), rates(reference)).filter(|v| v.is_finite())
+            };
+            let replicate = |b: usize, n: f64| -> Option<f64> {
+                let rates = |h: usize| -> Option<[f64; 3]> {
+                    let mut out = [0.0; 3];
+                    for (k, slot) in out.iter_mut().enumerate() {
+                        *slot = fits[rate_index(h, k)]
+                            .replicates
+                            .get(b)?
+                            .as_ref()?
+                            .predict(n)
+                            .clamp(0.0, 1.0);
+                    }
+                    Some(out)
+                };
+                derive(m, rates(g)?, rates(reference)?).filter(|v| v.is_finite())
+            };
+            let read_at = |at: &[f64]| -> Vec<CurvePoint> {
+                at.iter()
+                    .filter_map(|&n| {
+                        let value = at_point(n)?;
+                        let reps: Vec<f64> = (0..BOOTSTRAP_DRAWS)
+                            .filter_map(|b| replicate(b, n))
+                            .collect();
+                        Some(point(n, value, band_of(reps)))
+                    })
+                    .collect()
+            };
+            let asymptote = if usable {
+                let level = |h: usize| -> Option<[f64; 3]> {
+                    let mut out = [0.0; 3];
+                    for (k, slot) in out.iter_mut().enumerate() {
+                        *slot = fits[rate_index(h, k)]
+                            .choice
+                            .as_ref()?
+                            .fit()
+                            .level_reached_from(top)?
+                            .clamp(0.0, 1.0);
+                    }
+                    Some(out)
+                };
+                level(g)
+                    .zip(level(reference))
+                    .and_then(|(u, r)| derive(m, u, r))
+            } else {
+                None
+            };
+            let (label_spd, label_di) =
+                metrics::label_disparity(&label_counts[g], &label_counts[reference]);
+            let measured: Vec<Vec<Option<f64>>> = outcomes
+                .iter()
+                .map(|row| {
+                    row.iter()
+                        .map(|o| {
+                            let d = metrics::disparity(&o.counts[g], &o.counts[reference]);
+                            [
+                                d.statistical_parity_difference,
+                                d.disparate_impact,
+                                d.equal_opportunity_difference,
+                                d.average_odds_difference,
+                            ][m]
+                        })
+                        .collect()
+                })
+                .collect();
+            disparities.push(DisparityCurve {
+                measure: measure.to_string(),
+                group: data.group_list[g].name.clone(),
+                in_labels: match m {
+                    0 => label_spd,
+                    1 => label_di,
+                    _ => None,
+                },
+                anchors: anchors(&measured, sizes),
+                asymptote,
+                grid: read_at(&grid),
+                at: read_at(requested),
+            });
+        }
+    }
+    FittedCurves {
+        sizes: sizes.to_vec(),
+        curves,
+        disparities,
+        held_back,
+        warnings,
+    }
+}
+
+/// Mean, spread and range over repeats at each size; sizes where no repeat defines the value
+/// are left out.
+fn anchors(per_repeat: &[Vec<Option<f64>>], sizes: &[usize]) -> Vec<AnchorPoint> {
+    (0..sizes.len())
+        .filter_map(|i| {
+            let values: Vec<f64> = per_repeat.iter().filter_map(|r| r[i]).collect();
+            if values.is_empty() {
+                return None;
+            }
+            let n = values.len() as f64;
+            let mean = values.iter().sum::<f64>() / n;
+            let std_dev = (values.len() > 1).then(|| {
+                (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt()
+            });
+            Some(AnchorPoint {
+                size: sizes[i],
+                mean,
+                std_dev,
+                min: values.iter().copied().fold(f64::INFINITY, f64::min),
+                max: values.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+                repeats: values.len(),
+            })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sizes_grow_by_root_two_to_all_training_rows() {
+        // The benchmark schedule of the curves issue: 500·√2^k up to 26,048 rows, 13 sizes.
+        let sizes = anchor_sizes(500, 26_048).unwrap();
+        assert_eq!(sizes.len(), 13);
+        assert_eq!(sizes[..4], [500, 707, 1000, 1414]);
+        assert_eq!(*sizes.last().unwrap(), 26_048);
+        let few = anchor_sizes(100, 300).unwrap();
+        assert_eq!(few.len(), MIN_ANCHORS);
+        assert_eq!((few[0], few[5]), (100, 300));
+        assert!(anchor_sizes(100, 150).is_none());
+    }
+
+    #[test]
+    fn disparities_from_rates() {
+        let u = [0.2, 0.5, 0.1];
+        let r = [0.4, 0.7, 0.2];
+        assert!((derive(0, u, r).unwrap() + 0.2).abs() < 1e-12);
+        assert!((derive(1, u, r).unwrap() - 0.5).abs() < 1e-12);
+        assert!((derive(2, u, r).unwrap() + 0.2).abs() < 1e-12);
+        assert!((derive(3, u, r).unwrap() + 0.15).abs() < 1e-12);
+        assert_eq!(derive(1, u, [0.0, 0.7, 0.2]), None);
+    }
+}
