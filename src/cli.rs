@@ -75,8 +75,9 @@ struct DemoArgs {
     /// Only write the files; run nothing.
     #[arg(long)]
     no_run: bool,
-    #[command(flatten)]
-    output: OutputArgs,
+    /// No progress bars.
+    #[arg(long)]
+    quiet: bool,
 }
 
 #[derive(Args)]
@@ -237,6 +238,28 @@ fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     write_outputs(&report, render::baseline_text(&report), output)
 }
 
+fn run_curves(choices: Choices, svg: Option<&Path>, output: &OutputArgs) -> anyhow::Result<()> {
+    let settings = Settings::from_choices(choices.clone())?;
+    let curve_settings = CurveSettings::from_choices(&choices)?;
+    let bar = progress_bar(output.quiet);
+    let show = |p: Progress| {
+        bar.set_message(p.stage);
+        bar.set_length(p.total as u64);
+        bar.set_position(p.done as u64);
+    };
+    let report = learning::run(&settings, &curve_settings, &show)?;
+    bar.finish_and_clear();
+    if let Some(path) = svg {
+        std::fs::write(path, render::svg::curves_svg(&report))
+            .with_context(|| format!("cannot write the chart to {}", path.display()))?;
+    }
+    write_outputs(&report, render::curves_text(&report), output)?;
+    if let Some(path) = svg {
+        println!("Chart written to {}", path.display());
+    }
+    Ok(())
+}
+
 fn write_outputs<T: serde::Serialize>(
     report: &T,
     text: String,
@@ -266,25 +289,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             let mut choices = args.data.choices(args.trials)?;
             choices.at = args.at.or(choices.at.take());
             choices.smallest = args.smallest.or(choices.smallest);
-            let settings = Settings::from_choices(choices.clone())?;
-            let curve_settings = CurveSettings::from_choices(&choices)?;
-            let bar = progress_bar(args.output.quiet);
-            let show = |p: Progress| {
-                bar.set_message(p.stage);
-                bar.set_length(p.total as u64);
-                bar.set_position(p.done as u64);
-            };
-            let report = learning::run(&settings, &curve_settings, &show)?;
-            bar.finish_and_clear();
-            if let Some(path) = &args.svg {
-                std::fs::write(path, render::svg::curves_svg(&report))
-                    .with_context(|| format!("cannot write the chart to {}", path.display()))?;
-            }
-            write_outputs(&report, render::curves_text(&report), &args.output)?;
-            if let Some(path) = &args.svg {
-                println!("Chart written to {}", path.display());
-            }
-            Ok(())
+            run_curves(choices, args.svg.as_deref(), &args.output)
         }
         Command::Demo(args) => {
             let folder = args
@@ -299,9 +304,19 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             if args.no_run {
                 return Ok(());
             }
-            println!("Running the baseline on it (later stages are not built yet).\n");
+            println!("Running the baseline and the learning curves on it (option appraisal and the plan are not built yet).\n");
             let choices = Choices::from_project_file(&folder.join(PROJECT_FILE))?;
-            run_baseline(choices, &args.output)
+            let output = |name: &str| OutputArgs {
+                json: Some(folder.join(name)),
+                quiet: args.quiet,
+            };
+            run_baseline(choices.clone(), &output("baseline.json"))?;
+            println!();
+            run_curves(
+                choices,
+                Some(&folder.join("curves.svg")),
+                &output("curves.json"),
+            )
         }
     }
 }
