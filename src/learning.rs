@@ -134,6 +134,51 @@ pub struct FittedCurves {
     pub disparities: Vec<DisparityCurve>,
     pub held_back: usize,
     pub warnings: Vec<String>,
+    fits: Vec<QuantityFit>,
+}
+
+/// Every quantity (accuracy, then per group selection rate, TPR, FPR) read off the fitted
+/// curves at one size: the fit's value and the value under every bootstrap draw (NaN where a
+/// quantity has no curve or a draw could not be fitted). Values are clipped to [0, 1].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Reading {
+    pub point: Vec<f64>,
+    /// `draws[b][q]`.
+    pub draws: Vec<Vec<f64>>,
+}
+
+impl FittedCurves {
+    /// Reads every quantity at size `n`.
+    pub fn read(&self, n: f64) -> Reading {
+        let point = self
+            .fits
+            .iter()
+            .map(|f| {
+                f.choice
+                    .as_ref()
+                    .map_or(f64::NAN, |c| c.fit().predict(n).clamp(0.0, 1.0))
+            })
+            .collect();
+        let draws = (0..BOOTSTRAP_DRAWS)
+            .map(|b| {
+                self.fits
+                    .iter()
+                    .map(|f| {
+                        f.replicates
+                            .get(b)
+                            .and_then(|r| r.as_ref())
+                            .map_or(f64::NAN, |r| r.predict(n).clamp(0.0, 1.0))
+                    })
+                    .collect()
+            })
+            .collect();
+        Reading { point, draws }
+    }
+
+    /// The largest measured size.
+    pub fn largest(&self) -> usize {
+        *self.sizes.last().unwrap_or(&0)
+    }
 }
 
 /// Runs `acquest curves`.
@@ -143,63 +188,31 @@ pub fn run(
     progress: ProgressSink,
 ) -> Result<CurvesReport> {
     let (table, data) = Dataset::load(settings)?;
-    let trials = &settings.trials;
-    let group_count = data.group_list.len();
-    // The split of repeat 0 gives the sizes of every repeat (cells are cut the same way).
-    let (train, test) = trial::stratified_split(
-        &data.labels,
-        &data.groups,
-        group_count,
-        trials.test_fraction,
-        &mut stream_rng(trials.seed, trial::CURVE_STREAM, 0),
-    );
-    let (smallest, smallest_rule, mut warnings) =
-        smallest_size(&data, &train, curve_settings.smallest)?;
-    let sizes = anchor_sizes(smallest, train.len()).ok_or_else(|| {
-        Error::NotEnoughData(format!(
-            "too few rows for a learning curve: the training part holds {} rows and the smallest \
-             learnable size is {smallest} ({smallest_rule}); a curve needs at least twice that",
-            train.len()
-        ))
-    })?;
-    let family = model::family(trials.model);
-    let outcomes = trial::nested_trials(
-        &data,
-        family.as_ref(),
-        &sizes,
-        trials.repeats,
-        trials.test_fraction,
-        trials.seed,
-        progress,
-    )?;
-    if trials.repeats < 3 {
-        warnings.push(format!(
-            "bands come from a bootstrap over {} repeats; use --repeats 5 or more for bands that mean something",
-            trials.repeats
-        ));
-    }
-    let requested: Vec<f64> = curve_settings
-        .at
-        .iter()
-        .map(|r| match *r {
-            SizeRequest::Times(t) => t * train.len() as f64,
-            SizeRequest::Rows(n) => n as f64,
-        })
-        .collect();
-    let label_counts = baseline::label_counts(&data);
-    let fitted = fit_curves(
-        &data,
-        &outcomes,
-        &sizes,
-        &requested,
-        settings.trials.confidence,
-        settings.trials.seed,
-        &label_counts,
-    );
+    let all_rows: Vec<usize> = (0..data.rows()).collect();
+    let plan = CurvePlan {
+        rows: &all_rows,
+        columns: &data.features,
+        stream: trial::CURVE_STREAM,
+        stage: "learning curves",
+        smallest: curve_settings.smallest,
+    };
+    let requested = |training: usize| -> Vec<f64> {
+        curve_settings
+            .at
+            .iter()
+            .map(|r| match *r {
+                SizeRequest::Times(t) => t * training as f64,
+                SizeRequest::Rows(n) => n as f64,
+            })
+            .collect()
+    };
+    let measured = measure_curves(&data, settings, &plan, &requested, progress)?;
+    let mut warnings = measured.warnings;
     warnings.extend(data.warnings.iter().cloned());
-    warnings.extend(fitted.warnings);
-    let top = *sizes.last().unwrap_or(&1) as f64;
-    for &n in &requested {
+    let fitted = measured.fitted;
+    warnings.extend(fitted.warnings.iter().cloned());
+    let top = fitted.largest() as f64;
+    for &n in &requested(measured.schedule.training_rows) {
         if n > RELIABLE_MULTIPLE * top {
             warnings.push(format!(
                 "{n:.0} training rows is more than {RELIABLE_MULTIPLE}x the largest fitted size \
@@ -213,6 +226,96 @@ pub fn run(
         tool_version: env!("CARGO_PKG_VERSION").into(),
         command: "curves".into(),
         inputs: baseline::inputs(settings, &table, &data),
+        schedule: measured.schedule,
+        groups: baseline::group_summaries(&data),
+        reference: baseline::reference_group(&data),
+        curves: fitted.curves,
+        disparities: fitted.disparities,
+        warnings,
+        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+/// Which rows and columns a set of learning curves is measured on.
+pub struct CurvePlan<'a> {
+    pub rows: &'a [usize],
+    pub columns: &'a [crate::data::Column],
+    pub stream: u64,
+    pub stage: &'static str,
+    pub smallest: Option<usize>,
+}
+
+/// Learning curves measured and fitted, with their schedule.
+pub struct MeasuredCurves {
+    pub fitted: FittedCurves,
+    pub schedule: CurveSchedule,
+    pub warnings: Vec<String>,
+}
+
+/// Runs the nested trials of a plan and fits the curves; `requested` gives the sizes to read
+/// them at from the number of training rows.
+pub fn measure_curves(
+    data: &Dataset,
+    settings: &Settings,
+    plan: &CurvePlan,
+    requested: &dyn Fn(usize) -> Vec<f64>,
+    progress: ProgressSink,
+) -> Result<MeasuredCurves> {
+    let trials = &settings.trials;
+    let group_count = data.group_list.len();
+    // The split of repeat 0 gives the sizes of every repeat (cells are cut the same way).
+    let (train, test) = trial::stratified_split_of(
+        plan.rows,
+        &data.labels,
+        &data.groups,
+        group_count,
+        trials.test_fraction,
+        &mut stream_rng(trials.seed, plan.stream, 0),
+    );
+    let (smallest, smallest_rule, mut warnings) = smallest_size(data, &train, plan.smallest)?;
+    let sizes = anchor_sizes(smallest, train.len()).ok_or_else(|| {
+        Error::NotEnoughData(format!(
+            "too few rows for a learning curve: the training part holds {} rows and the smallest \
+             learnable size is {smallest} ({smallest_rule}); a curve needs at least twice that",
+            train.len()
+        ))
+    })?;
+    let family = model::family(trials.model);
+    let schedule = trial::Schedule {
+        rows: plan.rows,
+        columns: plan.columns,
+        vary_group: None,
+        sizes: &sizes,
+        stream: plan.stream,
+        stage: plan.stage,
+    };
+    let outcomes = trial::nested_trials(
+        data,
+        family.as_ref(),
+        &schedule,
+        trials.repeats,
+        trials.test_fraction,
+        trials.seed,
+        progress,
+    )?;
+    if trials.repeats < 3 {
+        warnings.push(format!(
+            "bands come from a bootstrap over {} repeats; use --repeats 5 or more for bands that mean something",
+            trials.repeats
+        ));
+    }
+    let label_counts = baseline::label_counts(data);
+    let fitted = fit_curves(
+        data,
+        &outcomes,
+        &sizes,
+        &requested(train.len()),
+        trials.confidence,
+        trials.seed,
+        &label_counts,
+    );
+    let top = *sizes.last().unwrap_or(&1) as f64;
+    Ok(MeasuredCurves {
         schedule: CurveSchedule {
             training_rows: train.len(),
             test_rows: test.len(),
@@ -223,18 +326,14 @@ pub fn run(
             bootstrap_draws: BOOTSTRAP_DRAWS,
             reliable_up_to: RELIABLE_MULTIPLE * top,
         },
-        groups: baseline::group_summaries(&data),
-        reference: baseline::reference_group(&data),
-        curves: fitted.curves,
-        disparities: fitted.disparities,
+        fitted,
         warnings,
-        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
     })
 }
 
-/// The smallest anchor: [`MIN_ANCHOR_ROWS`], or more so that every (group, label) cell holds
+/// The smallest anchor for the training rows `train`: [`MIN_ANCHOR_ROWS`], or more so that every (group, label) cell holds
 /// [`MIN_CELL_ROWS`] rows in a proportional sample, unless `--smallest` says otherwise.
-fn smallest_size(
+pub fn smallest_size(
     data: &Dataset,
     train: &[usize],
     asked: Option<usize>,
@@ -589,6 +688,7 @@ pub fn fit_curves(
         disparities,
         held_back,
         warnings,
+        fits,
     }
 }
 

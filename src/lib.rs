@@ -4,6 +4,7 @@
 //! and never prints; the binary parses flags, calls it and renders.
 
 pub mod baseline;
+pub mod costs;
 pub mod curve;
 pub mod data;
 pub mod demo;

@@ -2,7 +2,7 @@
 //! statistics (tests, intervals) they are reported with. Knows nothing of data frames or files.
 
 use serde::{Deserialize, Serialize};
-use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
+use statrs::distribution::{ChiSquared, ContinuousCDF, FisherSnedecor, Normal, StudentsT};
 use statrs::function::factorial::ln_binomial;
 
 /// Counts for one group on one set of rows: labels, predictions and their crossing.
@@ -392,6 +392,81 @@ pub fn estimate(
     })
 }
 
+/// Welch's t-test of equal means for two samples with unequal variances: (t, degrees of
+/// freedom, two-sided p). `None` with fewer than two values in a sample or no variance at all.
+pub fn welch_t_test(a: &[f64], b: &[f64]) -> Option<(f64, f64, f64)> {
+    let moments = |x: &[f64]| {
+        let n = x.len() as f64;
+        let mean = x.iter().sum::<f64>() / n;
+        let var = x.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0);
+        (n, mean, var)
+    };
+    if a.len() < 2 || b.len() < 2 {
+        return None;
+    }
+    let (na, ma, va) = moments(a);
+    let (nb, mb, vb) = moments(b);
+    let (sa, sb) = (va / na, vb / nb);
+    if sa + sb <= 0.0 {
+        return None;
+    }
+    let t = (ma - mb) / (sa + sb).sqrt();
+    let df = (sa + sb).powi(2) / (sa * sa / (na - 1.0) + sb * sb / (nb - 1.0));
+    let dist = StudentsT::new(0.0, 1.0, df).ok()?;
+    Some((t, df, 2.0 * dist.sf(t.abs())))
+}
+
+/// One-way analysis of variance across groups of values: (F, p). `None` with fewer than two
+/// groups, too few values, or no variance within groups.
+pub fn one_way_anova(groups: &[Vec<f64>]) -> Option<(f64, f64)> {
+    let k = groups.iter().filter(|g| !g.is_empty()).count();
+    let n: usize = groups.iter().map(Vec::len).sum();
+    if k < 2 || n <= k {
+        return None;
+    }
+    let grand = groups.iter().flatten().sum::<f64>() / n as f64;
+    let mut between = 0.0;
+    let mut within = 0.0;
+    for g in groups.iter().filter(|g| !g.is_empty()) {
+        let mean = g.iter().sum::<f64>() / g.len() as f64;
+        between += g.len() as f64 * (mean - grand).powi(2);
+        within += g.iter().map(|v| (v - mean).powi(2)).sum::<f64>();
+    }
+    let (df1, df2) = ((k - 1) as f64, (n - k) as f64);
+    if within <= 0.0 {
+        return None;
+    }
+    let f = (between / df1) / (within / df2);
+    let dist = FisherSnedecor::new(df1, df2).ok()?;
+    Some((f, dist.sf(f)))
+}
+
+/// Pearson's chi-square test of independence on a table of counts (no continuity correction):
+/// (statistic, degrees of freedom, p). Columns with no counts are left out.
+pub fn chi_square_independence(table: &[Vec<u64>]) -> Option<(f64, usize, f64)> {
+    let rows = table.len();
+    let columns = table.first()?.len();
+    let row_totals: Vec<f64> = table.iter().map(|r| r.iter().sum::<u64>() as f64).collect();
+    let column_totals: Vec<f64> = (0..columns)
+        .map(|c| table.iter().map(|r| r[c]).sum::<u64>() as f64)
+        .collect();
+    let total: f64 = row_totals.iter().sum();
+    let used: Vec<usize> = (0..columns).filter(|&c| column_totals[c] > 0.0).collect();
+    if rows < 2 || used.len() < 2 || row_totals.contains(&0.0) {
+        return None;
+    }
+    let mut statistic = 0.0;
+    for (r, row) in table.iter().enumerate() {
+        for &c in &used {
+            let expected = row_totals[r] * column_totals[c] / total;
+            statistic += (row[c] as f64 - expected).powi(2) / expected;
+        }
+    }
+    let df = (rows - 1) * (used.len() - 1);
+    let dist = ChiSquared::new(df as f64).ok()?;
+    Some((statistic, df, dist.sf(statistic)))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -500,6 +575,34 @@ mod tests {
         assert!(close(e.high.unwrap() - e.mean, half, 1e-9));
         // scipy 1.17.1, scipy.stats.ttest_1samp([1,2,3,4,5], 0).pvalue = 0.01323559956368269.
         assert!(close(e.p_value.unwrap(), 0.01323559956368269, 1e-9));
+    }
+
+    #[test]
+    fn welch_anova_and_chi_square_match_scipy() {
+        // scipy 1.17.1 (tests/reference/reference.py): ttest_ind(a, b, equal_var=False):
+        // t = 3.3626912299068348, p = 0.008367380152792049, df = 8.989361702127658.
+        let a = [0.81, 0.83, 0.80, 0.84, 0.82, 0.85];
+        let b = [0.78, 0.80, 0.79, 0.77, 0.81];
+        let (t, df, p) = welch_t_test(&a, &b).unwrap();
+        assert!(close(t, 3.3626912299068348, 1e-9));
+        assert!(close(df, 8.989361702127658, 1e-9));
+        assert!(close(p, 0.008367380152792049, 1e-9));
+        // f_oneway(g1, g2, g3): F = 6.971428571428571, p = 0.014831242580448382.
+        let groups = vec![
+            vec![0.01, 0.02, 0.015, 0.03],
+            vec![0.02, 0.025, 0.03, 0.04],
+            vec![0.05, 0.03, 0.045, 0.04],
+        ];
+        let (f, p) = one_way_anova(&groups).unwrap();
+        assert!(close(f, 6.971428571428571, 1e-9));
+        assert!(close(p, 0.014831242580448382, 1e-9));
+        // chi2_contingency([[30, 70, 12, 28], [300, 560, 110, 290]], correction=False):
+        // statistic 1.6754130992712295, p 0.6424137890405377, 3 degrees of freedom.
+        let (x, df, p) =
+            chi_square_independence(&[vec![30, 70, 12, 28], vec![300, 560, 110, 290]]).unwrap();
+        assert!(close(x, 1.6754130992712295, 1e-9));
+        assert_eq!(df, 3);
+        assert!(close(p, 0.6424137890405377, 1e-9));
     }
 
     #[test]

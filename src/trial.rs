@@ -8,7 +8,7 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
-use crate::data::Dataset;
+use crate::data::{Column, Dataset};
 use crate::encode::Encoder;
 use crate::error::Result;
 use crate::metrics::{self, GroupCounts};
@@ -63,12 +63,25 @@ pub fn stratified_split(
     test_fraction: f64,
     rng: &mut impl rand::Rng,
 ) -> (Vec<usize>, Vec<usize>) {
+    let all: Vec<usize> = (0..labels.len()).collect();
+    stratified_split_of(&all, labels, groups, group_count, test_fraction, rng)
+}
+
+/// [`stratified_split`] of the listed rows only (a pilot, say).
+pub fn stratified_split_of(
+    rows: &[usize],
+    labels: &[bool],
+    groups: &[u32],
+    group_count: usize,
+    test_fraction: f64,
+    rng: &mut impl rand::Rng,
+) -> (Vec<usize>, Vec<usize>) {
     let mut cells: Vec<Vec<usize>> = vec![Vec::new(); group_count * 2];
-    for (i, (&l, &g)) in labels.iter().zip(groups).enumerate() {
-        cells[g as usize * 2 + usize::from(l)].push(i);
+    for &i in rows {
+        cells[groups[i] as usize * 2 + usize::from(labels[i])].push(i);
     }
-    let mut train = Vec::with_capacity(labels.len());
-    let mut test = Vec::with_capacity(labels.len());
+    let mut train = Vec::with_capacity(rows.len());
+    let mut test = Vec::with_capacity(rows.len());
     for mut cell in cells {
         cell.shuffle(rng);
         let size = cell.len();
@@ -167,54 +180,89 @@ pub fn nested_order(
     keyed.into_iter().map(|(_, _, i)| i).collect()
 }
 
-/// Learning-curve trials: for each repeat, one stratified split, one nested order of its
-/// training part, one encoding fitted on that whole training part, then a model per size fitted
-/// on the first `size` rows of the order (warm-started from the size before) and measured on the
-/// repeat's fixed test part. Returns outcomes as `[repeat][size]`.
+/// What a set of nested trials varies.
+#[derive(Debug, Clone)]
+pub struct Schedule<'a> {
+    /// Rows taking part: all rows, or a pilot.
+    pub rows: &'a [usize],
+    /// Feature columns (indexed by row, like the dataset's).
+    pub columns: &'a [Column],
+    /// `None`: the whole training part is subsampled. `Some(g)`: only group g's training rows
+    /// are, while every other training row is always used.
+    pub vary_group: Option<u32>,
+    /// Sizes of the subsampled part (all training rows, or group g's).
+    pub sizes: &'a [usize],
+    /// Random stream of the splits and orders.
+    pub stream: u64,
+    /// Name of the stage in progress events.
+    pub stage: &'static str,
+}
+
+/// Learning-curve trials: for each repeat, one stratified split of the schedule's rows, one
+/// nested order of the varied part of its training rows, one encoding fitted on the whole
+/// training part, then a model per size fitted on the fixed rows plus the first `size` rows of
+/// the order (warm-started from the size before) and measured on the repeat's fixed test part.
+/// Two schedules that differ only in their columns get the same splits and orders (paired).
+/// Returns outcomes as `[repeat][size]`.
 pub fn nested_trials(
     data: &Dataset,
     family: &dyn ModelFamily,
-    sizes: &[usize],
+    schedule: &Schedule,
     repeats: usize,
     test_fraction: f64,
     seed: u64,
     progress: ProgressSink,
 ) -> Result<Vec<Vec<TrialOutcome>>> {
+    let sizes = schedule.sizes;
     let total = repeats * sizes.len();
     let done = AtomicUsize::new(0);
+    let stage = schedule.stage;
     progress(Progress {
-        stage: "learning curves",
+        stage,
         done: 0,
         total,
     });
     (0..repeats)
         .into_par_iter()
         .map(|repeat| {
-            let mut rng = stream_rng(seed, CURVE_STREAM, repeat as u64);
+            let mut rng = stream_rng(seed, schedule.stream, repeat as u64);
             let group_count = data.group_list.len();
-            let (train, test) = stratified_split(
+            let (train, test) = stratified_split_of(
+                schedule.rows,
                 &data.labels,
                 &data.groups,
                 group_count,
                 test_fraction,
                 &mut rng,
             );
-            let order = nested_order(&train, &data.labels, &data.groups, group_count, &mut rng);
-            let encoder = Encoder::fit(&data.features, &order);
-            let x_pool = encoder.transform(&data.features, &order);
+            let (fixed, varied): (Vec<usize>, Vec<usize>) = match schedule.vary_group {
+                None => (Vec::new(), train),
+                Some(g) => train.into_iter().partition(|&i| data.groups[i] != g),
+            };
+            let mut order = fixed;
+            let fixed_rows = order.len();
+            order.extend(nested_order(
+                &varied,
+                &data.labels,
+                &data.groups,
+                group_count,
+                &mut rng,
+            ));
+            let encoder = Encoder::fit(schedule.columns, &order);
+            let x_pool = encoder.transform(schedule.columns, &order);
             let y_pool: Vec<bool> = order.iter().map(|&i| data.labels[i]).collect();
-            let x_test = encoder.transform(&data.features, &test);
+            let x_test = encoder.transform(schedule.columns, &test);
             let mut start: Option<Vec<f64>> = None;
             let mut outcomes = Vec::with_capacity(sizes.len());
             for &size in sizes {
-                let size = size.min(order.len());
-                let x = x_pool.slice(ndarray::s![..size, ..]);
-                let model = family.fit_from(x, &y_pool[..size], start.as_deref())?;
+                let rows = (fixed_rows + size).min(order.len());
+                let x = x_pool.slice(ndarray::s![..rows, ..]);
+                let model = family.fit_from(x, &y_pool[..rows], start.as_deref())?;
                 start = model.warm_start();
                 let scores = model.scores(x_test.view());
-                outcomes.push(measure(data, family, &test, &scores, size));
+                outcomes.push(measure(data, family, &test, &scores, rows));
                 progress(Progress {
-                    stage: "learning curves",
+                    stage,
                     done: done.fetch_add(1, Ordering::Relaxed) + 1,
                     total,
                 });

@@ -53,3 +53,15 @@ for name, (f, p0) in families.items():
                      xtol=1e-15, ftol=1e-15, gtol=1e-15)
     rss = float(np.sum(w * (y - f(n, *p)) ** 2))
     print(f"curve_fit {name}:", repr(p.tolist()), "rss", repr(rss))
+
+# Welch's t-test, one-way ANOVA, chi-square test of independence.
+a = [0.81, 0.83, 0.80, 0.84, 0.82, 0.85]
+b = [0.78, 0.80, 0.79, 0.77, 0.81]
+r = stats.ttest_ind(a, b, equal_var=False)
+print("welch:", repr(r.statistic), repr(r.pvalue), "df", repr(r.df))
+g1, g2, g3 = [0.01, 0.02, 0.015, 0.03], [0.02, 0.025, 0.03, 0.04], [0.05, 0.03, 0.045, 0.04]
+r = stats.f_oneway(g1, g2, g3)
+print("anova:", repr(r.statistic), repr(r.pvalue))
+table = [[30, 70, 12, 28], [300, 560, 110, 290]]
+r = stats.chi2_contingency(table, correction=False)
+print("chi2:", repr(r.statistic), repr(r.pvalue), r.dof)

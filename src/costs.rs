@@ -1,0 +1,542 @@
+//! The cost sheet: acquisition options read from CSV or JSON, checked against the data, and the
+//! cost rule (a feature bought with new rows is collected for those rows too).
+
+use std::path::Path;
+
+use serde::{Deserialize, Serialize};
+
+use crate::data::{Dataset, Values};
+use crate::error::{nearest_hint, Error, Result};
+
+/// What an option buys.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Acquisition {
+    /// A new attribute for every row: the candidate column, filled today on a pilot.
+    Feature { column: String },
+    /// More rows: of any case, or of one group (`column = value` of the protected attribute).
+    Rows { filter: Option<(String, String)> },
+}
+
+/// One line of the cost sheet, checked.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CostOption {
+    pub name: String,
+    pub acquisition: Acquisition,
+    /// Cost per row acquired (per row covered, for a feature).
+    pub per_row: f64,
+    /// One-off cost.
+    pub fixed: f64,
+    /// For rows: how many can be had at most.
+    pub max_rows: Option<usize>,
+    /// For rows: the purchase granularity.
+    pub step: Option<usize>,
+    /// Needs a privacy or legal review.
+    pub sensitive: bool,
+    pub note: String,
+}
+
+impl CostOption {
+    /// Cost of buying this feature for `rows` rows (all rows held plus any new ones).
+    pub fn feature_cost(&self, rows: usize) -> f64 {
+        self.fixed + self.per_row * rows as f64
+    }
+
+    /// Cost of `rows` new rows of this option (nothing when none are bought).
+    pub fn rows_cost(&self, rows: usize) -> f64 {
+        if rows == 0 {
+            0.0
+        } else {
+            self.fixed + self.per_row * rows as f64
+        }
+    }
+
+    /// The row counts this rows option can be bought in: step, 2·step, … up to max_rows.
+    pub fn row_steps(&self) -> Vec<usize> {
+        match (&self.acquisition, self.max_rows) {
+            (Acquisition::Rows { .. }, Some(max)) => {
+                let step = self.step.unwrap_or(max).max(1);
+                let mut steps: Vec<usize> = (1..=max / step).map(|k| k * step).collect();
+                if steps.last() != Some(&max) {
+                    steps.push(max);
+                }
+                steps
+            }
+            _ => Vec::new(),
+        }
+    }
+}
+
+/// One raw line, as in the file.
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawLine {
+    name: Option<String>,
+    kind: Option<String>,
+    column: Option<String>,
+    per_row: Option<serde_json::Value>,
+    fixed: Option<serde_json::Value>,
+    max_rows: Option<serde_json::Value>,
+    step: Option<serde_json::Value>,
+    sensitive: Option<serde_json::Value>,
+    note: Option<String>,
+}
+
+const FIELDS: [&str; 9] = [
+    "name",
+    "kind",
+    "column",
+    "per_row",
+    "fixed",
+    "max_rows",
+    "step",
+    "sensitive",
+    "note",
+];
+
+/// Reads a cost sheet: JSON (an array of options, or an object with an `options` array) when
+/// the file starts with `[` or `{`, CSV otherwise.
+pub fn read_cost_sheet(path: &Path) -> Result<Vec<(usize, RawOption)>> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::File {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    })?;
+    let format_error = |reason: String| Error::Format {
+        path: path.to_path_buf(),
+        reason,
+    };
+    let trimmed = text.trim_start();
+    let lines: Vec<(usize, RawLine)> = if trimmed.starts_with('[') || trimmed.starts_with('{') {
+        let value: serde_json::Value = serde_json::from_str(&text)
+            .map_err(|e| format_error(format!("not valid JSON: {e}")))?;
+        let items = match value {
+            serde_json::Value::Array(items) => items,
+            serde_json::Value::Object(mut map) => match map.remove("options") {
+                Some(serde_json::Value::Array(items)) => items,
+                _ => return Err(format_error("a JSON cost sheet is an array of options, or an object with an \"options\" array".into())),
+            },
+            _ => return Err(format_error("a JSON cost sheet is an array of options".into())),
+        };
+        items
+            .into_iter()
+            .enumerate()
+            .map(|(i, item)| {
+                serde_json::from_value::<RawLine>(item)
+                    .map(|l| (i + 1, l))
+                    .map_err(|e| {
+                        format_error(format!(
+                            "option {}: {e} (fields: {})",
+                            i + 1,
+                            FIELDS.join(", ")
+                        ))
+                    })
+            })
+            .collect::<Result<_>>()?
+    } else {
+        parse_csv(&text).map_err(format_error)?
+    };
+    if lines.is_empty() {
+        return Err(format_error("lists no options".into()));
+    }
+    lines
+        .into_iter()
+        .map(|(line, raw)| {
+            RawOption::from_line(raw)
+                .map(|o| (line, o))
+                .map_err(|(field, reason)| {
+                    format_error(format!(
+                        "{} {line}, field {field}: {reason}",
+                        if trimmed.starts_with('[') || trimmed.starts_with('{') {
+                            "option"
+                        } else {
+                            "line"
+                        }
+                    ))
+                })
+        })
+        .collect()
+}
+
+/// Splits a CSV line on commas, honouring double quotes.
+fn split_csv(line: &str) -> Vec<String> {
+    let mut fields = Vec::new();
+    let mut current = String::new();
+    let mut quoted = false;
+    let mut chars = line.chars().peekable();
+    while let Some(ch) = chars.next() {
+        match ch {
+            '"' if quoted && chars.peek() == Some(&'"') => {
+                current.push('"');
+                chars.next();
+            }
+            '"' => quoted = !quoted,
+            ',' if !quoted => fields.push(std::mem::take(&mut current)),
+            c => current.push(c),
+        }
+    }
+    fields.push(current);
+    fields.into_iter().map(|f| f.trim().to_string()).collect()
+}
+
+fn parse_csv(text: &str) -> std::result::Result<Vec<(usize, RawLine)>, String> {
+    let mut lines = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| !l.trim().is_empty());
+    let Some((_, header)) = lines.next() else {
+        return Ok(Vec::new());
+    };
+    let names = split_csv(header);
+    for name in &names {
+        if !FIELDS.contains(&name.as_str()) {
+            return Err(format!(
+                "line 1 names an unknown field '{name}'{} (fields: {})",
+                nearest_hint(name, FIELDS),
+                FIELDS.join(", ")
+            ));
+        }
+    }
+    for required in ["name", "kind"] {
+        if !names.iter().any(|n| n == required) {
+            return Err(format!("line 1 has no '{required}' field"));
+        }
+    }
+    let mut out = Vec::new();
+    for (index, line) in lines {
+        let cells = split_csv(line);
+        if cells.len() > names.len() {
+            return Err(format!(
+                "line {} has {} fields where the header has {} (quote a note that holds a comma)",
+                index + 1,
+                cells.len(),
+                names.len()
+            ));
+        }
+        let mut raw = RawLine::default();
+        for (name, cell) in names.iter().zip(cells) {
+            if cell.is_empty() {
+                continue;
+            }
+            let value = serde_json::Value::String(cell.clone());
+            match name.as_str() {
+                "name" => raw.name = Some(cell),
+                "kind" => raw.kind = Some(cell),
+                "column" => raw.column = Some(cell),
+                "per_row" => raw.per_row = Some(value),
+                "fixed" => raw.fixed = Some(value),
+                "max_rows" => raw.max_rows = Some(value),
+                "step" => raw.step = Some(value),
+                "sensitive" => raw.sensitive = Some(value),
+                _ => raw.note = Some(cell),
+            }
+        }
+        out.push((index + 1, raw));
+    }
+    Ok(out)
+}
+
+/// An option with its fields typed but not yet checked against the data.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RawOption {
+    pub name: String,
+    pub kind: String,
+    pub column: Option<String>,
+    pub per_row: f64,
+    pub fixed: f64,
+    pub max_rows: Option<usize>,
+    pub step: Option<usize>,
+    pub sensitive: bool,
+    pub note: String,
+}
+
+type FieldError = (&'static str, String);
+
+fn number(
+    value: &Option<serde_json::Value>,
+    field: &'static str,
+) -> std::result::Result<Option<f64>, FieldError> {
+    let Some(value) = value else { return Ok(None) };
+    let parsed = match value {
+        serde_json::Value::Number(n) => n.as_f64(),
+        serde_json::Value::String(s) => s.trim().replace('_', "").parse::<f64>().ok(),
+        _ => None,
+    };
+    match parsed {
+        Some(x) if x.is_finite() && x >= 0.0 => Ok(Some(x)),
+        Some(x) if x.is_finite() => Err((field, format!("{x} is negative"))),
+        _ => Err((
+            field,
+            format!(
+                "'{}' is not a number",
+                value.as_str().map_or(value.to_string(), String::from)
+            ),
+        )),
+    }
+}
+
+fn count(
+    value: &Option<serde_json::Value>,
+    field: &'static str,
+) -> std::result::Result<Option<usize>, FieldError> {
+    match number(value, field)? {
+        None => Ok(None),
+        Some(x) if x.fract() == 0.0 && x >= 1.0 => Ok(Some(x as usize)),
+        Some(x) => Err((
+            field,
+            format!("{x} is not a whole number of rows (1 or more)"),
+        )),
+    }
+}
+
+impl RawOption {
+    fn from_line(raw: RawLine) -> std::result::Result<Self, FieldError> {
+        let name = raw
+            .name
+            .filter(|n| !n.trim().is_empty())
+            .ok_or(("name", "is empty".to_string()))?;
+        let kind = raw
+            .kind
+            .ok_or(("kind", "is empty (feature or rows)".to_string()))?;
+        let sensitive = match &raw.sensitive {
+            None => false,
+            Some(serde_json::Value::Bool(b)) => *b,
+            Some(v) => match v.as_str().map(|s| s.trim().to_ascii_lowercase()).as_deref() {
+                Some("yes" | "y" | "true" | "1") => true,
+                Some("no" | "n" | "false" | "0" | "") => false,
+                _ => return Err(("sensitive", format!("'{v}' is not yes or no"))),
+            },
+        };
+        Ok(RawOption {
+            name: name.trim().to_string(),
+            kind: kind.trim().to_ascii_lowercase(),
+            column: raw
+                .column
+                .map(|c| c.trim().to_string())
+                .filter(|c| !c.is_empty()),
+            per_row: number(&raw.per_row, "per_row")?.unwrap_or(0.0),
+            fixed: number(&raw.fixed, "fixed")?.unwrap_or(0.0),
+            max_rows: count(&raw.max_rows, "max_rows")?,
+            step: count(&raw.step, "step")?,
+            sensitive,
+            note: raw.note.unwrap_or_default(),
+        })
+    }
+}
+
+/// Checks every option against the data and returns them in the sheet's order.
+pub fn check_options(
+    path: &Path,
+    raw: Vec<(usize, RawOption)>,
+    data: &Dataset,
+    protected: &str,
+) -> Result<Vec<CostOption>> {
+    let error = |line: usize, field: &str, reason: String| Error::Format {
+        path: path.to_path_buf(),
+        reason: format!("line {line}, field {field}: {reason}"),
+    };
+    let mut options: Vec<CostOption> = Vec::new();
+    for (line, o) in raw {
+        if options.iter().any(|x| x.name == o.name) {
+            return Err(error(
+                line,
+                "name",
+                format!("'{}' names two options", o.name),
+            ));
+        }
+        let acquisition = match o.kind.as_str() {
+            "feature" => {
+                let column = o.column.clone().ok_or_else(|| {
+                    error(
+                        line,
+                        "column",
+                        "a feature option names its candidate column".into(),
+                    )
+                })?;
+                let Some(candidate) = data.candidates.iter().find(|c| c.name == column) else {
+                    let is_feature = data.features.iter().any(|c| c.name == column);
+                    let reason = if is_feature {
+                        format!("'{column}' is already a current feature, filled on most rows; a candidate is filled only on a pilot")
+                    } else {
+                        format!(
+                            "no candidate column '{column}'{}",
+                            nearest_hint(&column, data.candidates.iter().map(|c| c.name.as_str()))
+                        )
+                    };
+                    return Err(error(line, "column", reason));
+                };
+                if candidate.missing_count() == candidate.len() {
+                    return Err(error(
+                        line,
+                        "column",
+                        format!("'{column}' has no pilot rows: it is empty everywhere"),
+                    ));
+                }
+                Acquisition::Feature { column }
+            }
+            "rows" => {
+                if o.max_rows.is_none() {
+                    return Err(error(
+                        line,
+                        "max_rows",
+                        "a rows option says how many rows can be had".into(),
+                    ));
+                }
+                let filter = match &o.column {
+                    None => None,
+                    Some(text) => {
+                        let (column, value) = text
+                            .split_once('=')
+                            .map(|(c, v)| (c.trim().to_string(), v.trim().to_string()))
+                            .ok_or_else(|| {
+                                error(
+                                    line,
+                                    "column",
+                                    format!(
+                                        "'{text}' should read column=value, e.g. {protected}=value"
+                                    ),
+                                )
+                            })?;
+                        if column != protected {
+                            return Err(error(
+                                line,
+                                "column",
+                                format!("rows can be targeted at a group of the protected column '{protected}', not at '{column}'"),
+                            ));
+                        }
+                        if !data.group_list.iter().any(|g| g.name == value) {
+                            return Err(error(
+                                line,
+                                "column",
+                                format!(
+                                    "'{column}' has no group '{value}'{}",
+                                    nearest_hint(
+                                        &value,
+                                        data.group_list.iter().map(|g| g.name.as_str())
+                                    )
+                                ),
+                            ));
+                        }
+                        Some((column, value))
+                    }
+                };
+                Acquisition::Rows { filter }
+            }
+            other => {
+                return Err(error(
+                    line,
+                    "kind",
+                    format!("'{other}' is not feature or rows"),
+                ))
+            }
+        };
+        options.push(CostOption {
+            name: o.name,
+            acquisition,
+            per_row: o.per_row,
+            fixed: o.fixed,
+            max_rows: o.max_rows,
+            step: o.step,
+            sensitive: o.sensitive,
+            note: o.note,
+        });
+    }
+    Ok(options)
+}
+
+/// Rows of a column that carry a value: a candidate's pilot.
+pub fn pilot_rows(data: &Dataset, column: &str) -> Vec<usize> {
+    data.candidates
+        .iter()
+        .find(|c| c.name == column)
+        .map(|c| (0..c.len()).filter(|&i| !c.is_missing(i)).collect())
+        .unwrap_or_default()
+}
+
+/// Whether a candidate column is numeric (for reporting).
+pub fn is_numeric(data: &Dataset, column: &str) -> bool {
+    data.candidates
+        .iter()
+        .any(|c| c.name == column && matches!(c.values, Values::Numeric(_)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn option(
+        kind: Acquisition,
+        per_row: f64,
+        fixed: f64,
+        max_rows: Option<usize>,
+        step: Option<usize>,
+    ) -> CostOption {
+        CostOption {
+            name: "x".into(),
+            acquisition: kind,
+            per_row,
+            fixed,
+            max_rows,
+            step,
+            sensitive: false,
+            note: String::new(),
+        }
+    }
+
+    #[test]
+    fn hand_worked_costs() {
+        // Worked by hand: a feature at 4.50 a row and 2,000 fixed, on 3,000 rows held and 500 new
+        // ones: 2,000 + 4.50 × 3,500 = 17,750. Rows at 12 a row, 500 of them: 6,000.
+        let feature = option(
+            Acquisition::Feature { column: "f".into() },
+            4.5,
+            2000.0,
+            None,
+            None,
+        );
+        assert_eq!(feature.feature_cost(3_500), 17_750.0);
+        let rows = option(
+            Acquisition::Rows { filter: None },
+            12.0,
+            0.0,
+            Some(3000),
+            Some(500),
+        );
+        assert_eq!(rows.rows_cost(500), 6_000.0);
+        assert_eq!(rows.rows_cost(0), 0.0);
+        assert_eq!(rows.row_steps(), vec![500, 1000, 1500, 2000, 2500, 3000]);
+        let odd = option(
+            Acquisition::Rows { filter: None },
+            30.0,
+            1500.0,
+            Some(250),
+            Some(100),
+        );
+        assert_eq!(odd.row_steps(), vec![100, 200, 250]);
+        // 1,500 + 30 × 200 = 7,500.
+        assert_eq!(odd.rows_cost(200), 7_500.0);
+    }
+
+    #[test]
+    fn csv_lines_and_their_errors() {
+        let sheet = "name,kind,column,per_row,fixed,max_rows,step,sensitive,note\n\
+                     a,feature,f,1.5,10,,,no,\"a note, with a comma\"\n\
+                     b,rows,,2,0,100,10,yes,\n";
+        let lines = parse_csv(sheet).unwrap();
+        let a = RawOption::from_line(lines[0].1.clone()).unwrap();
+        assert_eq!(a.note, "a note, with a comma");
+        let b = RawOption::from_line(lines[1].1.clone()).unwrap();
+        assert!(b.sensitive);
+        assert_eq!(b.max_rows, Some(100));
+        let bad = parse_csv("name,kind,per_row\nc,rows,-3\n").unwrap();
+        let e = RawOption::from_line(bad[0].1.clone()).unwrap_err();
+        assert_eq!(e.0, "per_row");
+        let bad = parse_csv("name,kind,per_row\nc,rows,abc\n").unwrap();
+        assert!(RawOption::from_line(bad[0].1.clone())
+            .unwrap_err()
+            .1
+            .contains("not a number"));
+        assert!(parse_csv("name,kind,cost\n")
+            .unwrap_err()
+            .contains("unknown field 'cost'"));
+    }
+}
