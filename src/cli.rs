@@ -10,7 +10,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use acquest::settings::{Choices, CurveSettings, Settings, PROJECT_FILE};
 use acquest::trial::Progress;
-use acquest::{baseline, demo, learning, render};
+use acquest::{appraise, baseline, demo, learning, render};
 
 #[derive(Parser)]
 #[command(
@@ -33,8 +33,36 @@ enum Command {
     /// Learning curves of accuracy and of each group's rates, fitted and extrapolated, with the
     /// disparities they imply.
     Curves(Box<CurvesArgs>),
+    /// Every option of a cost sheet valued: accuracy and fairness gains with intervals, cost,
+    /// gain per 1,000; and what each feature already held does.
+    Appraise(Box<AppraiseArgs>),
     /// Write the invented demo scenario to a folder and run it.
     Demo(DemoArgs),
+}
+
+#[derive(Args)]
+struct AppraiseArgs {
+    #[command(flatten)]
+    data: DataArgs,
+    #[command(flatten)]
+    trials: TrialArgs,
+    /// The cost sheet: CSV or JSON, one acquisition option a line.
+    #[arg(long, value_name = "FILE")]
+    costs: Option<PathBuf>,
+    /// Name of the currency the costs are in.
+    #[arg(long, value_name = "NAME")]
+    currency: Option<String>,
+    /// Fairness measure the utility counts: spd, di, eod or aod [default: eod].
+    #[arg(long, value_name = "MEASURE")]
+    fairness: Option<String>,
+    /// Weight of the accuracy gain in the utility [default: 1].
+    #[arg(long, value_name = "W")]
+    weigh_accuracy: Option<f64>,
+    /// Weight of the unfairness reduction in the utility [default: 1].
+    #[arg(long, value_name = "W")]
+    weigh_fairness: Option<f64>,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 #[derive(Args)]
@@ -238,6 +266,20 @@ fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     write_outputs(&report, render::baseline_text(&report), output)
 }
 
+fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
+    let settings = Settings::from_choices(choices.clone())?;
+    let appraisal = appraise::AppraisalSettings::from_choices(&choices)?;
+    let bar = progress_bar(output.quiet);
+    let show = |p: Progress| {
+        bar.set_message(p.stage);
+        bar.set_length(p.total as u64);
+        bar.set_position(p.done as u64);
+    };
+    let report = appraise::run(&settings, &appraisal, &show)?;
+    bar.finish_and_clear();
+    write_outputs(&report, render::appraisal_text(&report), output)
+}
+
 fn run_curves(choices: Choices, svg: Option<&Path>, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
     let curve_settings = CurveSettings::from_choices(&choices)?;
@@ -290,6 +332,16 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             choices.at = args.at.or(choices.at.take());
             choices.smallest = args.smallest.or(choices.smallest);
             run_curves(choices, args.svg.as_deref(), &args.output)
+        }
+        Command::Appraise(args) => {
+            let args = *args;
+            let mut choices = args.data.choices(args.trials)?;
+            choices.costs = args.costs.or(choices.costs.take());
+            choices.currency = args.currency.or(choices.currency.take());
+            choices.fairness = args.fairness.or(choices.fairness.take());
+            choices.weigh_accuracy = args.weigh_accuracy.or(choices.weigh_accuracy);
+            choices.weigh_fairness = args.weigh_fairness.or(choices.weigh_fairness);
+            run_appraise(choices, &args.output)
         }
         Command::Demo(args) => {
             let folder = args

@@ -291,6 +291,18 @@ impl Choice {
 /// others, and chooses the best forecaster. Anchors must be sorted by size. `None` with fewer
 /// than `hold_back + 2` anchors.
 pub fn choose(sizes: &[f64], values: &[f64], hold_back: usize) -> Option<Choice> {
+    choose_with_noise(sizes, values, hold_back, 0.0)
+}
+
+/// [`choose`], with the one-standard-error rule: the family with the fewest parameters whose
+/// forecast error is within `noise` (the standard error of the held-back anchors' means) of the
+/// best one's is chosen, so that noise alone does not buy a curve a trend it has not shown.
+pub fn choose_with_noise(
+    sizes: &[f64],
+    values: &[f64],
+    hold_back: usize,
+    noise: f64,
+) -> Option<Choice> {
     if sizes.len() < hold_back + 2 {
         return None;
     }
@@ -319,13 +331,26 @@ pub fn choose(sizes: &[f64], values: &[f64], hold_back: usize) -> Option<Choice>
             )
         })
         .collect();
-    let chosen = (0..candidates.len())
+    let usable: Vec<usize> = (0..candidates.len())
         .filter(|&i| candidates[i].0.status != FitStatus::Failed && candidates[i].1.is_some())
+        .collect();
+    let error = |i: usize| candidates[i].1.unwrap_or(f64::INFINITY);
+    let best = usable
+        .iter()
+        .copied()
+        .min_by(|&a, &b| error(a).total_cmp(&error(b)))?;
+    let limit = error(best) + noise.max(0.0);
+    let chosen = usable
+        .iter()
+        .copied()
+        .filter(|&i| error(i) <= limit)
         .min_by(|&a, &b| {
-            let ea = candidates[a].1.unwrap_or(f64::INFINITY);
-            let eb = candidates[b].1.unwrap_or(f64::INFINITY);
-            ea.total_cmp(&eb)
-        })?;
+            let (fa, fb) = (candidates[a].0.family, candidates[b].0.family);
+            fa.parameters()
+                .cmp(&fb.parameters())
+                .then(error(a).total_cmp(&error(b)))
+        })
+        .unwrap_or(best);
     Some(Choice { candidates, chosen })
 }
 
@@ -521,6 +546,24 @@ mod tests {
         }
         let share = covered as f64 / seeds as f64;
         assert!((0.65..=0.92).contains(&share), "coverage {share}");
+    }
+
+    #[test]
+    fn within_noise_the_simplest_family_wins() {
+        let n = sizes();
+        // A faint trend buried in noise of 0.01: with that noise declared, flat is chosen.
+        let y: Vec<f64> = n
+            .iter()
+            .enumerate()
+            .map(|(i, &n)| 0.5 + 0.002 * n.ln() + if i % 2 == 0 { 0.004 } else { -0.004 })
+            .collect();
+        let noisy = choose_with_noise(&n, &y, 2, 0.01).unwrap();
+        assert_eq!(noisy.fit().family, Family::Flat);
+        let exact: Vec<f64> = n.iter().map(|&n| 0.9 - 2.0 * n.powf(-0.45)).collect();
+        assert_eq!(
+            choose_with_noise(&exact, &exact, 2, 1e-9).map(|c| c.fit().family),
+            choose(&exact, &exact, 2).map(|c| c.fit().family)
+        );
     }
 
     #[test]

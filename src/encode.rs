@@ -36,6 +36,8 @@ enum Part {
 pub struct Encoder {
     parts: Vec<Part>,
     names: Vec<String>,
+    /// The encoded columns of each input column, as a range of output indices.
+    spans: Vec<std::ops::Range<usize>>,
 }
 
 impl Encoder {
@@ -43,7 +45,9 @@ impl Encoder {
     pub fn fit(columns: &[Column], rows: &[usize]) -> Encoder {
         let mut parts = Vec::with_capacity(columns.len());
         let mut names = Vec::new();
+        let mut spans = Vec::with_capacity(columns.len());
         for (c, column) in columns.iter().enumerate() {
+            let start = names.len();
             match &column.values {
                 Values::Numeric(values) => {
                     let mut present: Vec<f64> = rows.iter().filter_map(|&i| values[i]).collect();
@@ -117,8 +121,18 @@ impl Encoder {
                     });
                 }
             }
+            spans.push(start..names.len());
         }
-        Encoder { parts, names }
+        Encoder {
+            parts,
+            names,
+            spans,
+        }
+    }
+
+    /// The encoded columns that input column `c` became.
+    pub fn span(&self, c: usize) -> std::ops::Range<usize> {
+        self.spans.get(c).cloned().unwrap_or(0..0)
     }
 
     /// Number of encoded columns.

@@ -153,22 +153,13 @@ impl FittedCurves {
         let point = self
             .fits
             .iter()
-            .map(|f| {
-                f.choice
-                    .as_ref()
-                    .map_or(f64::NAN, |c| c.fit().predict(n).clamp(0.0, 1.0))
-            })
+            .map(|f| f.value(n).clamp(0.0, 1.0))
             .collect();
         let draws = (0..BOOTSTRAP_DRAWS)
             .map(|b| {
                 self.fits
                     .iter()
-                    .map(|f| {
-                        f.replicates
-                            .get(b)
-                            .and_then(|r| r.as_ref())
-                            .map_or(f64::NAN, |r| r.predict(n).clamp(0.0, 1.0))
-                    })
+                    .map(|f| f.draw_value(b, n).clamp(0.0, 1.0))
                     .collect()
             })
             .collect();
@@ -250,6 +241,8 @@ pub struct MeasuredCurves {
     pub fitted: FittedCurves,
     pub schedule: CurveSchedule,
     pub warnings: Vec<String>,
+    /// The trials behind the curves, `[repeat][size]`.
+    pub outcomes: Vec<Vec<TrialOutcome>>,
 }
 
 /// Runs the nested trials of a plan and fits the curves; `requested` gives the sizes to read
@@ -328,6 +321,7 @@ pub fn measure_curves(
         },
         fitted,
         warnings,
+        outcomes,
     })
 }
 
@@ -431,6 +425,144 @@ struct QuantityFit {
     replicates: Vec<Option<Fit>>,
 }
 
+impl QuantityFit {
+    /// The chosen fit's value at n (NaN without a curve).
+    fn value(&self, n: f64) -> f64 {
+        self.choice
+            .as_ref()
+            .map_or(f64::NAN, |c| c.fit().predict(n))
+    }
+
+    /// Draw b's value at n (NaN where the draw could not be fitted).
+    fn draw_value(&self, b: usize, n: f64) -> f64 {
+        self.replicates
+            .get(b)
+            .and_then(|r| r.as_ref())
+            .map_or(f64::NAN, |r| r.predict(n))
+    }
+}
+
+/// Bootstrap draws of repeat indices, seeded from the master seed.
+fn bootstrap_draws(seed: u64, repeats: usize) -> Vec<Vec<usize>> {
+    let mut rng = stream_rng(seed, BOOTSTRAP_STREAM, 0);
+    (0..BOOTSTRAP_DRAWS)
+        .map(|_| (0..repeats).map(|_| rng.gen_range(0..repeats)).collect())
+        .collect()
+}
+
+/// Chooses a family for one quantity's per-repeat values by forecast, and refits it on every
+/// bootstrap draw.
+fn fit_quantity(
+    per_repeat: Vec<Vec<Option<f64>>>,
+    sizes: &[f64],
+    held_back: usize,
+    draws: &[Vec<usize>],
+) -> QuantityFit {
+    let all: Vec<usize> = (0..per_repeat.len()).collect();
+    let (kept, means) = curve::means_over(&per_repeat, &all, sizes.len());
+    let kept_sizes: Vec<f64> = kept.iter().map(|&i| sizes[i]).collect();
+    // Standard error of the held-back anchors' means over repeats: the noise within which a
+    // simpler family is preferred.
+    let noise = {
+        let errors: Vec<f64> = kept
+            .iter()
+            .rev()
+            .take(held_back)
+            .filter_map(|&i| {
+                let v: Vec<f64> = per_repeat.iter().filter_map(|r| r[i]).collect();
+                (v.len() > 1).then(|| {
+                    let m = v.iter().sum::<f64>() / v.len() as f64;
+                    let var = v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (v.len() - 1) as f64;
+                    (var / v.len() as f64).sqrt()
+                })
+            })
+            .collect();
+        if errors.is_empty() {
+            0.0
+        } else {
+            errors.iter().sum::<f64>() / errors.len() as f64
+        }
+    };
+    let choice = curve::choose_with_noise(&kept_sizes, &means, held_back, noise);
+    let replicates = match &choice {
+        None => Vec::new(),
+        Some(choice) => draws
+            .iter()
+            .map(|draw| {
+                // Each draw chooses its family afresh, so the band carries the uncertainty of
+                // the choice as well as of the fit (a flat choice alone would claim no change
+                // with no doubt).
+                let (kept, means) = curve::means_over(&per_repeat, draw, sizes.len());
+                let s: Vec<f64> = kept.iter().map(|&i| sizes[i]).collect();
+                let family = curve::choose_with_noise(&s, &means, held_back, noise)
+                    .map_or(choice.fit().family, |c| c.fit().family);
+                let f = curve::fit(family, &s, &means, &curve::size_weights(&s));
+                (f.status != curve::FitStatus::Failed).then_some(f)
+            })
+            .collect(),
+    };
+    QuantityFit {
+        per_repeat,
+        choice,
+        replicates,
+    }
+}
+
+/// Curves of paired differences (with − without, repeat by repeat and size by size) of every
+/// quantity, from two sets of trials on the same splits and orders. Fitting the paired
+/// difference keeps the split-to-split noise the two share out of the curve.
+pub struct DifferenceCurves {
+    fits: Vec<QuantityFit>,
+    /// The families chosen, per quantity.
+    pub families: Vec<Option<curve::Family>>,
+}
+
+impl DifferenceCurves {
+    /// Fits the differences of `with` over `without` (both `[repeat][size]`, same sizes).
+    pub fn fit(
+        with: &[Vec<TrialOutcome>],
+        without: &[Vec<TrialOutcome>],
+        sizes: &[usize],
+        group_count: usize,
+        seed: u64,
+    ) -> DifferenceCurves {
+        let sizes_f: Vec<f64> = sizes.iter().map(|&n| n as f64).collect();
+        let held_back = if sizes.len() >= 9 { 3 } else { 2 };
+        let draws = bootstrap_draws(seed, with.len());
+        let fits: Vec<QuantityFit> = Quantity::all(group_count)
+            .into_iter()
+            .map(|q| {
+                let per_repeat = with
+                    .iter()
+                    .zip(without)
+                    .map(|(a, b)| {
+                        a.iter()
+                            .zip(b)
+                            .map(|(x, y)| Some(q.read(x)? - q.read(y)?))
+                            .collect()
+                    })
+                    .collect();
+                fit_quantity(per_repeat, &sizes_f, held_back, &draws)
+            })
+            .collect();
+        let families = fits
+            .iter()
+            .map(|f| f.choice.as_ref().map(|c| c.fit().family))
+            .collect();
+        DifferenceCurves { fits, families }
+    }
+
+    /// Every quantity's difference at size n, laid out as a [`Reading`] (not clipped).
+    pub fn read(&self, n: f64) -> Reading {
+        Reading {
+            point: self.fits.iter().map(|f| f.value(n)).collect(),
+            draws: (0..BOOTSTRAP_DRAWS)
+                .map(|b| self.fits.iter().map(|f| f.draw_value(b, n)).collect())
+                .collect(),
+        }
+    }
+}
+
 /// Fits every quantity, derives the disparities, and reads all curves at the grid and at the
 /// requested sizes.
 pub fn fit_curves(
@@ -450,11 +582,7 @@ pub fn fit_curves(
 
     // The same bootstrap draws serve every quantity, so derived measures keep the rates'
     // correlation.
-    let mut rng = stream_rng(seed, BOOTSTRAP_STREAM, 0);
-    let draws: Vec<Vec<usize>> = (0..BOOTSTRAP_DRAWS)
-        .map(|_| (0..repeats).map(|_| rng.gen_range(0..repeats)).collect())
-        .collect();
-    let all: Vec<usize> = (0..repeats).collect();
+    let draws = bootstrap_draws(seed, repeats);
 
     let quantities = Quantity::all(group_count);
     let fits: Vec<QuantityFit> = quantities
@@ -464,27 +592,7 @@ pub fn fit_curves(
                 .iter()
                 .map(|row| row.iter().map(|o| q.read(o)).collect())
                 .collect();
-            let (kept, means) = curve::means_over(&per_repeat, &all, sizes.len());
-            let kept_sizes: Vec<f64> = kept.iter().map(|&i| sizes_f[i]).collect();
-            let choice = curve::choose(&kept_sizes, &means, held_back);
-            let replicates = match &choice {
-                None => Vec::new(),
-                Some(choice) => draws
-                    .iter()
-                    .map(|draw| {
-                        let (kept, means) = curve::means_over(&per_repeat, draw, sizes.len());
-                        let s: Vec<f64> = kept.iter().map(|&i| sizes_f[i]).collect();
-                        let f =
-                            curve::fit(choice.fit().family, &s, &means, &curve::size_weights(&s));
-                        (f.status != curve::FitStatus::Failed).then_some(f)
-                    })
-                    .collect(),
-            };
-            QuantityFit {
-                per_repeat,
-                choice,
-                replicates,
-            }
+            fit_quantity(per_repeat, &sizes_f, held_back, &draws)
         })
         .collect();
 

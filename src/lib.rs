@@ -3,6 +3,7 @@
 //! fairness over repeated seeded trials and reports them with intervals. The library computes
 //! and never prints; the binary parses flags, calls it and renders.
 
+pub mod appraise;
 pub mod baseline;
 pub mod costs;
 pub mod curve;

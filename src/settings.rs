@@ -40,6 +40,9 @@ pub struct Choices {
     pub currency: Option<String>,
     pub at: Option<Vec<String>>,
     pub smallest: Option<usize>,
+    pub fairness: Option<String>,
+    pub weigh_accuracy: Option<f64>,
+    pub weigh_fairness: Option<f64>,
 }
 
 macro_rules! overlay {
@@ -102,7 +105,10 @@ impl Choices {
             budget,
             currency,
             at,
-            smallest
+            smallest,
+            fairness,
+            weigh_accuracy,
+            weigh_fairness
         )
     }
 }

@@ -768,3 +768,51 @@ fn a_rare_group_gets_the_documented_fallback_and_a_warning() {
     assert!(report.warnings.iter().any(|w| w.contains("too small")));
     assert!(!text.contains("NaN"));
 }
+
+#[test]
+fn appraise_ranks_the_demo_options() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(dir.path())
+        .arg("--no-run")
+        .assert()
+        .success();
+    let output = acquest()
+        .current_dir(dir.path())
+        .args(["appraise", "--repeats", "5", "--quiet", "--json", "-"])
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let report: acquest::report::AppraisalReport = serde_json::from_slice(&output.stdout).unwrap();
+    assert_eq!(report.options.len(), 5);
+    assert_eq!(report.ranking.len(), 5);
+    let names: Vec<&str> = report.options.iter().map(|o| o.name.as_str()).collect();
+    assert_eq!(
+        names,
+        [
+            "work-sample",
+            "references",
+            "postcode",
+            "more-applications",
+            "more-disabled-applicants"
+        ]
+    );
+    // Cost rule (SPEC 2.2), demo-data/costs.csv: work-sample 2,000 + 4.50 × 3,000 rows = 15,500;
+    // with 500 new rows, 2,000 + 4.50 × 3,500 = 17,750; 3,000 applications at 12 = 36,000.
+    let work = &report.options[0];
+    assert_eq!(work.estimate.cost, 15_500.0);
+    assert_eq!(work.steps[0].new_rows, 500);
+    assert_eq!(work.steps[0].cost, 17_750.0);
+    assert_eq!(report.options[3].estimate.cost, 36_000.0);
+    assert!(report.options[2]
+        .flags
+        .iter()
+        .any(|f| f.contains("sensitive")));
+    assert_eq!(report.held_features.len(), 4);
+}

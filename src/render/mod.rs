@@ -6,7 +6,7 @@ pub mod svg;
 use std::fmt::Write as _;
 
 use crate::metrics::Estimate;
-use crate::report::{BaselineReport, CurvePoint, CurvesReport};
+use crate::report::{AppraisalReport, BaselineReport, Change, CurvePoint, CurvesReport};
 
 /// The report as pretty-printed JSON, ending in a newline.
 pub fn json<T: serde::Serialize>(report: &T) -> String {
@@ -474,6 +474,218 @@ Disparities against '{}', derived from the fitted rates",
             "  ! beyond {} rows, 4x the largest fitted size: extrapolated too far to be relied on",
             thousands(s.reliable_up_to.round() as usize)
         );
+    }
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// "+0.0123 [+0.0050, +0.0190]" for a change, with "*" when it differs from zero.
+fn change_cell(c: &Change, confidence: f64) -> String {
+    let star = if c.p_value.is_some_and(|p| p < 1.0 - confidence) {
+        " *"
+    } else {
+        ""
+    };
+    match (c.low, c.high) {
+        (Some(l), Some(h)) => format!("{:+.4} [{:+.4}, {:+.4}]{star}", c.mean, l, h),
+        _ => format!("{:+.4}{star}", c.mean),
+    }
+}
+
+fn money(x: f64) -> String {
+    thousands(x.round().max(0.0) as usize)
+}
+
+/// The appraisal report as terminal text.
+pub fn appraisal_text(report: &AppraisalReport) -> String {
+    let mut out = String::new();
+    let inputs = &report.inputs;
+    let c = &report.costs;
+    let confidence = inputs.confidence;
+    let _ = writeln!(
+        out,
+        "acquest appraise: {} ({} rows) with cost sheet {}; model {}, {} repeats, seed {}",
+        inputs.data.path,
+        thousands(report.today.rows),
+        c.path,
+        inputs.model,
+        inputs.repeats,
+        inputs.seed
+    );
+    let _ = writeln!(
+        out,
+        "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' against '{}'), at {} training rows",
+        report.today.accuracy,
+        report.today.unfairness,
+        c.fairness.to_uppercase(),
+        report.today.worst_group,
+        report.reference.name,
+        thousands(report.today.training_rows)
+    );
+    let _ = writeln!(
+        out,
+        "utility = {} x accuracy gain + {} x unfairness reduction; costs in {}; gains per 1,000 {}",
+        c.weigh_accuracy, c.weigh_fairness, c.currency, c.currency
+    );
+
+    let level = (confidence * 100.0).round();
+    let _ = writeln!(
+        out,
+        "\nOptions, ranked by utility per 1,000 (mean [{level}% interval]; * differs from zero)"
+    );
+    let mut t = Table::new(&[
+        "rank",
+        "option",
+        "buys",
+        "cost",
+        "accuracy gain",
+        "unfairness reduction",
+        "utility/1000",
+        "cautious/1000",
+        "cautious rank",
+    ]);
+    for r in &report.ranking {
+        let Some(o) = report.options.iter().find(|o| o.name == r.name) else {
+            continue;
+        };
+        let e = &o.estimate;
+        let buys = match o.kind.as_str() {
+            "feature" => format!("feature {}", o.target.as_deref().unwrap_or("")),
+            "group rows" => format!(
+                "{} rows of {}",
+                thousands(e.new_rows),
+                o.target.as_deref().unwrap_or("")
+            ),
+            _ => format!("{} rows", thousands(e.new_rows)),
+        };
+        t.row(vec![
+            r.rank.to_string(),
+            o.name.clone(),
+            buys,
+            money(e.cost),
+            change_cell(&e.accuracy_gain, confidence),
+            change_cell(&e.unfairness_reduction, confidence),
+            format!("{:+.5}", r.utility_per_1000),
+            r.cautious_per_1000
+                .map_or("n/a".into(), |v| format!("{v:+.5}")),
+            r.cautious_rank.to_string(),
+        ]);
+    }
+    t.render(&mut out);
+    for o in &report.options {
+        if !o.flags.is_empty() {
+            let _ = writeln!(out, "  {}: {}", o.name, o.flags.join("; "));
+        }
+    }
+
+    for o in report.options.iter().filter(|o| o.kind == "feature") {
+        let Some(p) = &o.pilot else { continue };
+        let _ = writeln!(
+            out,
+            "\nFeature '{}' ({}): pilot of {} rows ({} training){}",
+            o.name,
+            o.target.as_deref().unwrap_or(""),
+            thousands(p.rows),
+            thousands(p.training_rows),
+            p.mix_p_value.map_or(String::new(), |v| format!(
+                ", group and label mix against the rest: chi-square p = {v:.3}"
+            ))
+        );
+        let _ = writeln!(
+            out,
+            "  on the pilot at its size, with minus without: accuracy {} (Welch p {}), unfairness {} (Welch p {}; negative is fairer)",
+            p.accuracy_difference.as_ref().map_or("n/a".into(), |e| with_interval(Some(e))),
+            p_value(p.accuracy_welch_p),
+            p.unfairness_difference.as_ref().map_or("n/a".into(), |e| with_interval(Some(e))),
+            p_value(p.unfairness_welch_p)
+        );
+        if let Some(d) = &o.direct {
+            let _ = writeln!(
+                out,
+                "  at full size, anchored on today's curve: accuracy {}, unfairness reduction {}; the pilot curve extrapolated directly: accuracy {}, unfairness reduction {}",
+                change_cell(&o.estimate.accuracy_gain, confidence),
+                change_cell(&o.estimate.unfairness_reduction, confidence),
+                change_cell(&d.accuracy_gain, confidence),
+                change_cell(&d.unfairness_reduction, confidence)
+            );
+        }
+        if !o.steps.is_empty() {
+            let steps: Vec<String> = o
+                .steps
+                .iter()
+                .map(|s| {
+                    format!(
+                        "+{} rows: {} / {}",
+                        thousands(s.new_rows),
+                        change_cell(&s.accuracy_gain, confidence),
+                        change_cell(&s.unfairness_reduction, confidence)
+                    )
+                })
+                .collect();
+            let _ = writeln!(
+                out,
+                "  with new rows (accuracy / unfairness reduction): {}",
+                steps.join("; ")
+            );
+        }
+    }
+    for o in report.options.iter().filter(|o| o.kind == "group rows") {
+        let _ = writeln!(
+            out,
+            "\nRows option '{}' ({}): every group's rates move",
+            o.name,
+            o.target.as_deref().unwrap_or("")
+        );
+        let mut t = Table::new(&[
+            "group",
+            "selection rate",
+            "true positive rate",
+            "false positive rate",
+        ]);
+        for g in &o.estimate.groups {
+            t.row(vec![
+                g.group.clone(),
+                change_cell(&g.selection_rate, confidence),
+                change_cell(&g.true_positive_rate, confidence),
+                change_cell(&g.false_positive_rate, confidence),
+            ]);
+        }
+        t.render(&mut out);
+    }
+
+    if !report.held_features.is_empty() {
+        let _ = writeln!(
+            out,
+            "\nFeatures held today: change when dropped (retrained without) or scrambled (permuted on test rows); unfairness on {}",
+            c.fairness.to_uppercase()
+        );
+        let mut t = Table::new(&[
+            "feature",
+            "accuracy if dropped",
+            "unfairness if dropped",
+            "accuracy if scrambled",
+            "unfairness if scrambled",
+        ]);
+        for h in &report.held_features {
+            let cell = |e: &Option<crate::metrics::Estimate>| {
+                e.as_ref().map_or("n/a".into(), |e| {
+                    format!(
+                        "{}{}",
+                        with_interval(Some(e)),
+                        significance(Some(e), confidence)
+                    )
+                })
+            };
+            t.row(vec![
+                h.feature.clone(),
+                cell(&h.ablation_accuracy),
+                cell(&h.ablation_unfairness),
+                cell(&h.permutation_accuracy),
+                cell(&h.permutation_unfairness),
+            ]);
+        }
+        t.render(&mut out);
+        out.push_str("  a fall in accuracy when dropped is what the feature earns; a rise in unfairness when dropped means it makes the model fairer\n");
     }
     warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
     out

@@ -1,0 +1,1167 @@
+//! `acquest appraise`: every option of the cost sheet valued: more rows read off the learning
+//! curves, more rows of one group off curves in which only that group grows, a new feature from
+//! paired pilot curves anchored on the full data, and the features already held by ablation and
+//! permutation. Each with an interval, a test against no change, its cost and its gain per 1,000.
+
+use std::path::PathBuf;
+
+use rand::seq::SliceRandom;
+use rayon::prelude::*;
+use serde::Serialize;
+
+use crate::baseline;
+use crate::costs::{self, Acquisition, CostOption};
+use crate::curve;
+use crate::data::{Column, Dataset};
+use crate::encode::Encoder;
+use crate::error::{Error, Result};
+use crate::learning::{self, CurvePlan, FittedCurves, Reading};
+use crate::metrics::{self, estimate, Estimate, GroupCounts};
+use crate::model;
+use crate::report::*;
+use crate::settings::{Choices, Settings};
+use crate::trial::{self, stream_rng, ProgressSink, TrialOutcome};
+
+/// The fairness measure whose unfairness the utility counts.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum FairnessMeasure {
+    Spd,
+    Di,
+    Eod,
+    Aod,
+}
+
+impl FairnessMeasure {
+    /// Reads `spd`, `di`, `eod` or `aod`.
+    pub fn parse(text: &str) -> Result<Self> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "spd" => Ok(FairnessMeasure::Spd),
+            "di" => Ok(FairnessMeasure::Di),
+            "eod" => Ok(FairnessMeasure::Eod),
+            "aod" => Ok(FairnessMeasure::Aod),
+            other => Err(Error::setting(
+                "--fairness",
+                format!("unknown measure '{other}' (choose spd, di, eod or aod)"),
+            )),
+        }
+    }
+
+    /// The short name.
+    pub fn name(self) -> &'static str {
+        match self {
+            FairnessMeasure::Spd => "spd",
+            FairnessMeasure::Di => "di",
+            FairnessMeasure::Eod => "eod",
+            FairnessMeasure::Aod => "aod",
+        }
+    }
+
+    /// Unfairness of u against r from their (selection, TPR, FPR) rates, on a 0-is-fair scale.
+    pub fn unfairness(self, u: [f64; 3], r: [f64; 3]) -> Option<f64> {
+        let value = match self {
+            FairnessMeasure::Spd => (u[0] - r[0]).abs(),
+            FairnessMeasure::Di => {
+                if r[0] <= 0.0 {
+                    return None;
+                }
+                metrics::impact_unfairness(u[0] / r[0])
+            }
+            FairnessMeasure::Eod => (u[1] - r[1]).abs(),
+            FairnessMeasure::Aod => (((u[2] - r[2]) + (u[1] - r[1])) / 2.0).abs(),
+        };
+        value.is_finite().then_some(value)
+    }
+
+    /// The same from counts of one trial.
+    fn unfairness_of_counts(self, u: &GroupCounts, r: &GroupCounts) -> Option<f64> {
+        let rates = |c: &GroupCounts| -> Option<[f64; 3]> {
+            Some([
+                c.selection_rate()?,
+                c.true_positive_rate()?,
+                c.false_positive_rate()?,
+            ])
+        };
+        self.unfairness(rates(u)?, rates(r)?)
+    }
+}
+
+/// Settings of `acquest appraise`, beyond those of the trials.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AppraisalSettings {
+    pub costs: PathBuf,
+    pub currency: String,
+    pub fairness: FairnessMeasure,
+    pub weigh_accuracy: f64,
+    pub weigh_fairness: f64,
+}
+
+impl AppraisalSettings {
+    /// Checks `--costs`, `--currency`, `--fairness` and the weights.
+    pub fn from_choices(choices: &Choices) -> Result<Self> {
+        let costs = choices
+            .costs
+            .clone()
+            .ok_or_else(|| Error::setting("--costs", "no cost sheet given"))?;
+        let weight = |value: Option<f64>, flag: &str| -> Result<f64> {
+            let w = value.unwrap_or(1.0);
+            if w.is_finite() && w >= 0.0 {
+                Ok(w)
+            } else {
+                Err(Error::setting(flag, format!("must be 0 or more, not {w}")))
+            }
+        };
+        let weigh_accuracy = weight(choices.weigh_accuracy, "--weigh-accuracy")?;
+        let weigh_fairness = weight(choices.weigh_fairness, "--weigh-fairness")?;
+        if weigh_accuracy == 0.0 && weigh_fairness == 0.0 {
+            return Err(Error::setting(
+                "--weigh-fairness",
+                "accuracy and fairness cannot both weigh 0",
+            ));
+        }
+        Ok(AppraisalSettings {
+            costs,
+            currency: choices
+                .currency
+                .clone()
+                .unwrap_or_else(|| "currency units".into()),
+            fairness: FairnessMeasure::parse(choices.fairness.as_deref().unwrap_or("eod"))?,
+            weigh_accuracy,
+            weigh_fairness,
+        })
+    }
+}
+
+/// A pilot smaller than this many training rows is flagged as small.
+pub const SMALL_PILOT_ROWS: usize = 300;
+/// Permutations of each held feature per trial.
+pub const PERMUTATIONS: usize = 5;
+/// Random streams of the pilot curves and group curves: this plus the option's index.
+const PILOT_STREAM: u64 = 1_000;
+const GROUP_STREAM: u64 = 2_000;
+const PERMUTATION_STREAM: u64 = 3_000;
+
+/// Trial outcomes as `[repeat][size]`.
+type Outcomes = Vec<Vec<TrialOutcome>>;
+
+/// A gain computed from the quantity vectors before and after.
+type GainOf<'a> = &'a dyn Fn(&[f64], &[f64]) -> Option<f64>;
+
+/// Quantity vector layout (see [`Reading`]): accuracy, then per group selection, TPR, FPR.
+fn rates_of(v: &[f64], g: usize) -> [f64; 3] {
+    [v[1 + 3 * g], v[2 + 3 * g], v[3 + 3 * g]]
+}
+
+/// Everything the valuation needs to turn readings into gains.
+struct Scorer<'a> {
+    data: &'a Dataset,
+    measure: FairnessMeasure,
+    weigh_accuracy: f64,
+    weigh_fairness: f64,
+    confidence: f64,
+}
+
+impl Scorer<'_> {
+    /// Unfairness of the worst compared group, and that group.
+    fn unfairness(&self, v: &[f64]) -> Option<(f64, usize)> {
+        let r = self.data.reference;
+        (0..self.data.group_list.len())
+            .filter(|&g| g != r)
+            .filter_map(|g| {
+                self.measure
+                    .unfairness(rates_of(v, g), rates_of(v, r))
+                    .map(|u| (u, g))
+            })
+            .max_by(|a, b| a.0.total_cmp(&b.0))
+    }
+
+    fn change(&self, point: f64, draws: Vec<f64>) -> Change {
+        let mut finite: Vec<f64> = draws.into_iter().filter(|d| d.is_finite()).collect();
+        let tail = (1.0 - self.confidence) / 2.0;
+        let (low, high) = if finite.len() >= 10 {
+            (
+                curve::quantile(&mut finite, tail),
+                curve::quantile(&mut finite, 1.0 - tail),
+            )
+        } else {
+            (None, None)
+        };
+        let p_value = (finite.len() >= 10).then(|| {
+            let below = finite.iter().filter(|&&d| d <= 0.0).count() as f64;
+            let above = finite.iter().filter(|&&d| d >= 0.0).count() as f64;
+            (2.0 * below.min(above) / finite.len() as f64).min(1.0)
+        });
+        Change {
+            mean: if point.is_finite() { point } else { 0.0 },
+            low,
+            high,
+            p_value,
+        }
+    }
+
+    /// Values a purchase from the readings now and after.
+    fn purchase(
+        &self,
+        now: &Reading,
+        after: &Reading,
+        new_rows: usize,
+        cost: f64,
+        training_rows: f64,
+        largest: f64,
+    ) -> Purchase {
+        let per_draw = |f: GainOf| -> Vec<f64> {
+            now.draws
+                .iter()
+                .zip(&after.draws)
+                .map(|(n, a)| f(n, a).unwrap_or(f64::NAN))
+                .collect()
+        };
+        let accuracy = |n: &[f64], a: &[f64]| Some(a[0] - n[0]);
+        let fairness = |n: &[f64], a: &[f64]| Some(self.unfairness(n)?.0 - self.unfairness(a)?.0);
+        let utility = |n: &[f64], a: &[f64]| {
+            Some(self.weigh_accuracy * accuracy(n, a)? + self.weigh_fairness * fairness(n, a)?)
+        };
+        let accuracy_gain = self.change(
+            accuracy(&now.point, &after.point).unwrap_or(f64::NAN),
+            per_draw(&accuracy),
+        );
+        let unfairness_reduction = self.change(
+            fairness(&now.point, &after.point).unwrap_or(f64::NAN),
+            per_draw(&fairness),
+        );
+        let utility_change = self.change(
+            utility(&now.point, &after.point).unwrap_or(f64::NAN),
+            per_draw(&utility),
+        );
+        let per_1000 = |x: f64| if cost > 0.0 { x / cost * 1000.0 } else { 0.0 };
+        let groups = self
+            .data
+            .group_list
+            .iter()
+            .enumerate()
+            .map(|(g, group)| {
+                let rate = |k: usize| {
+                    let draws = per_draw(&|n: &[f64], a: &[f64]| {
+                        Some(rates_of(a, g)[k] - rates_of(n, g)[k])
+                    });
+                    self.change(
+                        rates_of(&after.point, g)[k] - rates_of(&now.point, g)[k],
+                        draws,
+                    )
+                };
+                GroupChange {
+                    group: group.name.clone(),
+                    selection_rate: rate(0),
+                    true_positive_rate: rate(1),
+                    false_positive_rate: rate(2),
+                }
+            })
+            .collect();
+        Purchase {
+            new_rows,
+            cost,
+            training_rows,
+            accuracy_per_1000: per_1000(accuracy_gain.mean),
+            fairness_per_1000: per_1000(unfairness_reduction.mean),
+            utility_per_1000: per_1000(utility_change.mean),
+            cautious_per_1000: utility_change.low.map(per_1000),
+            accuracy_gain,
+            unfairness_reduction,
+            utility: utility_change,
+            extrapolated_too_far: training_rows > learning::RELIABLE_MULTIPLE * largest,
+            groups,
+        }
+    }
+}
+
+/// `full + difference`, quantity by quantity and draw by draw, clipped to [0, 1]: the
+/// full-data curve moved by the pilot's with-feature difference.
+fn anchored(full: &Reading, difference: &Reading) -> Reading {
+    let combine = |f: &[f64], d: &[f64]| -> Vec<f64> {
+        f.iter()
+            .zip(d)
+            .map(|(f, d)| (f + d).clamp(0.0, 1.0))
+            .collect()
+    };
+    Reading {
+        point: combine(&full.point, &difference.point),
+        draws: full
+            .draws
+            .iter()
+            .zip(&difference.draws)
+            .map(|(f, d)| combine(f, d))
+            .collect(),
+    }
+}
+
+/// `with − without` of two readings.
+fn difference_of(with: &Reading, without: &Reading) -> Reading {
+    let minus =
+        |a: &[f64], b: &[f64]| -> Vec<f64> { a.iter().zip(b).map(|(a, b)| a - b).collect() };
+    Reading {
+        point: minus(&with.point, &without.point),
+        draws: with
+            .draws
+            .iter()
+            .zip(&without.draws)
+            .map(|(a, b)| minus(a, b))
+            .collect(),
+    }
+}
+
+/// Runs `acquest appraise`.
+pub fn run(
+    settings: &Settings,
+    appraisal: &AppraisalSettings,
+    progress: ProgressSink,
+) -> Result<AppraisalReport> {
+    let (table, data) = Dataset::load(settings)?;
+    let raw = costs::read_cost_sheet(&appraisal.costs)?;
+    let options = costs::check_options(&appraisal.costs, raw, &data, &settings.schema.protected)?;
+    let sha256 = {
+        use sha2::{Digest, Sha256};
+        let bytes = std::fs::read(&appraisal.costs).map_err(|e| Error::File {
+            path: appraisal.costs.clone(),
+            reason: e.to_string(),
+        })?;
+        Sha256::digest(&bytes)
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect::<String>()
+    };
+    let trials = &settings.trials;
+    let rows = data.rows();
+    let all_rows: Vec<usize> = (0..rows).collect();
+    let mut warnings: Vec<String> = data.warnings.clone();
+
+    // Curves of today's features on all rows.
+    let main = learning::measure_curves(
+        &data,
+        settings,
+        &CurvePlan {
+            rows: &all_rows,
+            columns: &data.features,
+            stream: trial::CURVE_STREAM,
+            stage: "learning curves",
+            smallest: None,
+        },
+        &|_| Vec::new(),
+        progress,
+    )?;
+    warnings.extend(main.warnings.iter().cloned());
+    warnings.extend(main.fitted.warnings.iter().cloned());
+    let training_now = main.schedule.training_rows as f64;
+    let training_at = |new_rows: usize| training_now * (rows + new_rows) as f64 / rows as f64;
+    let now = main.fitted.read(training_now);
+    let scorer = Scorer {
+        data: &data,
+        measure: appraisal.fairness,
+        weigh_accuracy: appraisal.weigh_accuracy,
+        weigh_fairness: appraisal.weigh_fairness,
+        confidence: trials.confidence,
+    };
+    let (today_unfairness, worst) = scorer
+        .unfairness(&now.point)
+        .unwrap_or((f64::NAN, data.reference));
+    let largest = main.fitted.largest() as f64;
+
+    // Row counts the rows options for any case can be bought in, for feature-with-rows readings.
+    let overall_steps: Vec<usize> = {
+        let mut steps: Vec<usize> = options
+            .iter()
+            .filter(|o| matches!(o.acquisition, Acquisition::Rows { filter: None }))
+            .flat_map(|o| o.row_steps())
+            .collect();
+        steps.sort_unstable();
+        steps.dedup();
+        steps
+    };
+
+    let mut values = Vec::new();
+    for (index, option) in options.iter().enumerate() {
+        let value = match &option.acquisition {
+            Acquisition::Rows { filter: None } => {
+                let steps: Vec<Purchase> = option
+                    .row_steps()
+                    .into_iter()
+                    .map(|delta| {
+                        let at = training_at(delta);
+                        scorer.purchase(
+                            &now,
+                            &main.fitted.read(at),
+                            delta,
+                            option.rows_cost(delta),
+                            at,
+                            largest,
+                        )
+                    })
+                    .collect();
+                rows_value(option, "rows", None, steps, trials.confidence)
+            }
+            Acquisition::Rows {
+                filter: Some((column, value)),
+            } => {
+                let g = data
+                    .group_list
+                    .iter()
+                    .position(|x| &x.name == value)
+                    .unwrap_or(0);
+                let (group_curves, group_largest, m_now) = group_curves(
+                    &data,
+                    settings,
+                    g,
+                    GROUP_STREAM + index as u64,
+                    progress,
+                    &mut warnings,
+                )?;
+                let group_rows = data.groups.iter().filter(|&&x| x as usize == g).count() as f64;
+                let now_g = group_curves.read(m_now);
+                let steps: Vec<Purchase> = option
+                    .row_steps()
+                    .into_iter()
+                    .map(|delta| {
+                        let m = m_now * (group_rows + delta as f64) / group_rows;
+                        let mut p = scorer.purchase(
+                            &now_g,
+                            &group_curves.read(m),
+                            delta,
+                            option.rows_cost(delta),
+                            m,
+                            group_largest,
+                        );
+                        p.training_rows = training_now + (m - m_now);
+                        p
+                    })
+                    .collect();
+                rows_value(
+                    option,
+                    "group rows",
+                    Some(format!("{column}={value}")),
+                    steps,
+                    trials.confidence,
+                )
+            }
+            Acquisition::Feature { column } => feature_value(
+                &data,
+                settings,
+                &scorer,
+                option,
+                column,
+                index,
+                &main.fitted,
+                &now,
+                &overall_steps,
+                training_at,
+                progress,
+                &mut warnings,
+            )?,
+        };
+        values.push(value);
+    }
+
+    let held_features = held_features(&data, settings, appraisal.fairness, progress)?;
+    let ranking = rank(&values);
+    Ok(AppraisalReport {
+        format: FORMAT.into(),
+        format_version: FORMAT_VERSION,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
+        command: "appraise".into(),
+        inputs: baseline::inputs(settings, &table, &data),
+        costs: CostInputs {
+            path: appraisal.costs.display().to_string(),
+            sha256,
+            currency: appraisal.currency.clone(),
+            fairness: appraisal.fairness.name().into(),
+            weigh_accuracy: appraisal.weigh_accuracy,
+            weigh_fairness: appraisal.weigh_fairness,
+        },
+        groups: baseline::group_summaries(&data),
+        reference: baseline::reference_group(&data),
+        today: Today {
+            rows,
+            training_rows: main.schedule.training_rows,
+            accuracy: now.point[0],
+            unfairness: if today_unfairness.is_finite() {
+                today_unfairness
+            } else {
+                0.0
+            },
+            worst_group: data.group_list[worst].name.clone(),
+        },
+        schedule: main.schedule,
+        options: values,
+        ranking,
+        held_features,
+        warnings,
+        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+fn option_flags(option: &CostOption, headline: &Purchase, confidence: f64) -> Vec<String> {
+    let mut flags = Vec::new();
+    if headline.extrapolated_too_far {
+        flags.push("extrapolated beyond 4x the largest size measured".into());
+    }
+    let significant = |c: &Change| c.p_value.is_some_and(|p| p < 1.0 - confidence);
+    if !significant(&headline.accuracy_gain) && !significant(&headline.unfairness_reduction) {
+        flags.push("neither gain differs significantly from zero".into());
+    }
+    let flat = |c: &Change| matches!((c.low, c.high), (Some(l), Some(h)) if (h - l).abs() < 1e-12);
+    if flat(&headline.accuracy_gain) && flat(&headline.unfairness_reduction) {
+        flags.push("no trend: the curves are flat here, so no change is estimated (which does not show the change is zero)".into());
+    }
+    if option.sensitive {
+        flags.push("sensitive: needs a privacy or legal review".into());
+    }
+    flags
+}
+
+fn rows_value(
+    option: &CostOption,
+    kind: &str,
+    target: Option<String>,
+    steps: Vec<Purchase>,
+    confidence: f64,
+) -> OptionValue {
+    let estimate = steps.last().cloned().unwrap_or_else(empty_purchase);
+    OptionValue {
+        flags: option_flags(option, &estimate, confidence),
+        name: option.name.clone(),
+        kind: kind.into(),
+        target,
+        sensitive: option.sensitive,
+        note: option.note.clone(),
+        estimate,
+        steps,
+        direct: None,
+        pilot: None,
+    }
+}
+
+fn empty_purchase() -> Purchase {
+    let zero = Change {
+        mean: 0.0,
+        low: None,
+        high: None,
+        p_value: None,
+    };
+    Purchase {
+        new_rows: 0,
+        cost: 0.0,
+        training_rows: 0.0,
+        accuracy_gain: zero.clone(),
+        unfairness_reduction: zero.clone(),
+        utility: zero,
+        accuracy_per_1000: 0.0,
+        fairness_per_1000: 0.0,
+        utility_per_1000: 0.0,
+        cautious_per_1000: None,
+        extrapolated_too_far: false,
+        groups: Vec::new(),
+    }
+}
+
+/// Curves in which only group `g`'s training rows grow. Returns the curves (over g's training
+/// count), their largest size, and g's training count today.
+fn group_curves(
+    data: &Dataset,
+    settings: &Settings,
+    g: usize,
+    stream: u64,
+    progress: ProgressSink,
+    warnings: &mut Vec<String>,
+) -> Result<(FittedCurves, f64, f64)> {
+    let trials = &settings.trials;
+    let all_rows: Vec<usize> = (0..data.rows()).collect();
+    let (train, _) = trial::stratified_split_of(
+        &all_rows,
+        &data.labels,
+        &data.groups,
+        data.group_list.len(),
+        trials.test_fraction,
+        &mut stream_rng(trials.seed, stream, 0),
+    );
+    let in_group: Vec<usize> = train
+        .iter()
+        .copied()
+        .filter(|&i| data.groups[i] as usize == g)
+        .collect();
+    let m_all = in_group.len();
+    let favourable = in_group.iter().filter(|&&i| data.labels[i]).count();
+    let rarest = favourable.min(m_all - favourable).max(1);
+    let by_rule = (learning::MIN_CELL_ROWS as f64 * m_all as f64 / rarest as f64).ceil() as usize;
+    let smallest = by_rule.max(20);
+    let sizes = match learning::anchor_sizes(smallest, m_all) {
+        Some(sizes) => sizes,
+        None => {
+            warnings.push(format!(
+                "group '{}' has {m_all} training rows: its own curve starts at a quarter of them, \
+                 where its rarer label has fewer than {} rows",
+                data.group_list[g].name,
+                learning::MIN_CELL_ROWS
+            ));
+            learning::anchor_sizes((m_all / 4).max(2), m_all).ok_or_else(|| {
+                Error::NotEnoughData(format!(
+                    "group '{}' is too small for a learning curve of its own",
+                    data.group_list[g].name
+                ))
+            })?
+        }
+    };
+    let family = model::family(trials.model);
+    let schedule = trial::Schedule {
+        rows: &all_rows,
+        columns: &data.features,
+        vary_group: Some(g as u32),
+        sizes: &sizes,
+        stream,
+        stage: "group curves",
+    };
+    let outcomes = trial::nested_trials(
+        data,
+        family.as_ref(),
+        &schedule,
+        trials.repeats,
+        trials.test_fraction,
+        trials.seed,
+        progress,
+    )?;
+    let fitted = learning::fit_curves(
+        data,
+        &outcomes,
+        &sizes,
+        &[],
+        trials.confidence,
+        trials.seed,
+        &baseline::label_counts(data),
+    );
+    let largest = fitted.largest() as f64;
+    Ok((fitted, largest, m_all as f64))
+}
+
+#[allow(clippy::too_many_arguments)]
+fn feature_value(
+    data: &Dataset,
+    settings: &Settings,
+    scorer: &Scorer,
+    option: &CostOption,
+    column: &str,
+    index: usize,
+    full: &FittedCurves,
+    now: &Reading,
+    overall_steps: &[usize],
+    training_at: impl Fn(usize) -> f64,
+    progress: ProgressSink,
+    warnings: &mut Vec<String>,
+) -> Result<OptionValue> {
+    let trials = &settings.trials;
+    let rows = data.rows();
+    let pilot = costs::pilot_rows(data, column);
+    let candidate = data
+        .candidates
+        .iter()
+        .find(|c| c.name == column)
+        .ok_or_else(|| Error::Internal(format!("candidate '{column}' vanished")))?;
+    let mut with_columns: Vec<Column> = data.features.clone();
+    with_columns.push(candidate.clone());
+    let stream = PILOT_STREAM + index as u64;
+
+    // Is the pilot like the rest? Compare its group × label mix with the other rows.
+    let cells = data.group_list.len() * 2;
+    let mut table = vec![vec![0u64; cells], vec![0u64; cells]];
+    let mut in_pilot = vec![false; rows];
+    for &i in &pilot {
+        in_pilot[i] = true;
+    }
+    for i in 0..rows {
+        table[usize::from(!in_pilot[i])]
+            [data.groups[i] as usize * 2 + usize::from(data.labels[i])] += 1;
+    }
+    let mix = metrics::chi_square_independence(&table);
+
+    let plan = |columns| CurvePlan {
+        rows: &pilot,
+        columns,
+        stream,
+        stage: "pilot curves",
+        smallest: None,
+    };
+    let without = learning::measure_curves(
+        data,
+        settings,
+        &plan(&data.features),
+        &|_| Vec::new(),
+        progress,
+    );
+    let with = learning::measure_curves(
+        data,
+        settings,
+        &plan(&with_columns),
+        &|_| Vec::new(),
+        progress,
+    );
+    let training_now = training_at(0);
+    let mut flags = Vec::new();
+    let (estimate, steps, direct, pilot_summary) = match (without, with) {
+        (Ok(without), Ok(with)) => {
+            let difference = learning::DifferenceCurves::fit(
+                &with.outcomes,
+                &without.outcomes,
+                &with.schedule.sizes,
+                data.group_list.len(),
+                trials.seed,
+            );
+            let pilot_largest = with.fitted.largest() as f64;
+            let read = |new_rows: usize| {
+                let at = training_at(new_rows);
+                (at, anchored(&full.read(at), &difference.read(at)))
+            };
+            let purchase = |new_rows: usize| {
+                let (at, after) = read(new_rows);
+                scorer.purchase(
+                    now,
+                    &after,
+                    new_rows,
+                    option.feature_cost(rows + new_rows),
+                    at,
+                    pilot_largest,
+                )
+            };
+            let estimate = purchase(0);
+            let steps = overall_steps.iter().map(|&d| purchase(d)).collect();
+            let direct = scorer.purchase(
+                now,
+                &with.fitted.read(training_now),
+                0,
+                option.feature_cost(rows),
+                training_now,
+                pilot_largest,
+            );
+            let summary = pilot_summary(
+                data,
+                scorer,
+                &pilot,
+                &without.outcomes,
+                &with.outcomes,
+                mix,
+                true,
+                trials.confidence,
+            );
+            (estimate, steps, Some(direct), summary)
+        }
+        (without, with) => {
+            // Too small for a curve: measure at the pilot's own size and carry the difference
+            // over unchanged.
+            let reason = without
+                .err()
+                .or(with.err())
+                .map(|e| e.to_string())
+                .unwrap_or_default();
+            warnings.push(format!(
+                "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
+                option.name,
+                pilot.len()
+            ));
+            flags.push("pilot too small for a curve: gain measured at pilot size".into());
+            let (without_outcomes, with_outcomes) =
+                pilot_at_full_size(data, settings, &pilot, &with_columns, stream, progress)?;
+            let mean_reading = |outcomes: &[Vec<TrialOutcome>]| -> Reading {
+                reading_from_outcomes(data, outcomes)
+            };
+            let (w, o) = (
+                mean_reading(&with_outcomes),
+                mean_reading(&without_outcomes),
+            );
+            let read = |new_rows: usize| {
+                let at = training_at(new_rows);
+                (at, anchored(&full.read(at), &difference_of(&w, &o)))
+            };
+            let purchase = |new_rows: usize| {
+                let (at, after) = read(new_rows);
+                scorer.purchase(
+                    now,
+                    &after,
+                    new_rows,
+                    option.feature_cost(rows + new_rows),
+                    at,
+                    f64::INFINITY,
+                )
+            };
+            let summary = pilot_summary(
+                data,
+                scorer,
+                &pilot,
+                &without_outcomes,
+                &with_outcomes,
+                mix,
+                false,
+                trials.confidence,
+            );
+            (
+                purchase(0),
+                overall_steps.iter().map(|&d| purchase(d)).collect(),
+                None,
+                summary,
+            )
+        }
+    };
+    if pilot_summary.training_rows < SMALL_PILOT_ROWS {
+        flags.push(format!(
+            "small pilot ({} training rows)",
+            pilot_summary.training_rows
+        ));
+    }
+    if pilot_summary.mix_p_value.is_some_and(|p| p < 0.05) {
+        flags.push(
+            "pilot unlike the rest (its group and label mix differs, chi-square p < 0.05)".into(),
+        );
+    }
+    flags.extend(option_flags(option, &estimate, trials.confidence));
+    Ok(OptionValue {
+        name: option.name.clone(),
+        kind: "feature".into(),
+        target: Some(column.to_string()),
+        sensitive: option.sensitive,
+        note: option.note.clone(),
+        estimate,
+        steps,
+        direct,
+        pilot: Some(pilot_summary),
+        flags,
+    })
+}
+
+/// Trials on the pilot at its full size only, without and with the candidate (paired).
+fn pilot_at_full_size(
+    data: &Dataset,
+    settings: &Settings,
+    pilot: &[usize],
+    with_columns: &[Column],
+    stream: u64,
+    progress: ProgressSink,
+) -> Result<(Outcomes, Outcomes)> {
+    let trials = &settings.trials;
+    let (train, _) = trial::stratified_split_of(
+        pilot,
+        &data.labels,
+        &data.groups,
+        data.group_list.len(),
+        trials.test_fraction,
+        &mut stream_rng(trials.seed, stream, 0),
+    );
+    if train.len() < 10 {
+        return Err(Error::NotEnoughData(format!(
+            "a pilot of {} rows is too small to train on",
+            pilot.len()
+        )));
+    }
+    let sizes = [train.len()];
+    let family = model::family(trials.model);
+    let run = |columns: &[Column]| {
+        let schedule = trial::Schedule {
+            rows: pilot,
+            columns,
+            vary_group: None,
+            sizes: &sizes,
+            stream,
+            stage: "pilot trials",
+        };
+        trial::nested_trials(
+            data,
+            family.as_ref(),
+            &schedule,
+            trials.repeats,
+            trials.test_fraction,
+            trials.seed,
+            progress,
+        )
+    };
+    Ok((run(&data.features)?, run(with_columns)?))
+}
+
+/// A reading from measured outcomes at one size: the mean over repeats, and bootstrap draws of
+/// it over repeats.
+fn reading_from_outcomes(data: &Dataset, outcomes: &[Vec<TrialOutcome>]) -> Reading {
+    let vector = |draw: &[usize]| -> Vec<f64> {
+        let mut v = Vec::with_capacity(1 + 3 * data.group_list.len());
+        let mean = |f: &dyn Fn(&TrialOutcome) -> Option<f64>| {
+            let values: Vec<f64> = draw
+                .iter()
+                .filter_map(|&r| f(outcomes[r].last()?))
+                .collect();
+            if values.is_empty() {
+                f64::NAN
+            } else {
+                values.iter().sum::<f64>() / values.len() as f64
+            }
+        };
+        v.push(mean(&|o| Some(o.accuracy)));
+        for g in 0..data.group_list.len() {
+            v.push(mean(&|o| o.counts[g].selection_rate()));
+            v.push(mean(&|o| o.counts[g].true_positive_rate()));
+            v.push(mean(&|o| o.counts[g].false_positive_rate()));
+        }
+        v
+    };
+    let repeats = outcomes.len();
+    let all: Vec<usize> = (0..repeats).collect();
+    let mut rng = stream_rng(0, 4, 0);
+    use rand::Rng;
+    let draws = (0..learning::BOOTSTRAP_DRAWS)
+        .map(|_| {
+            vector(
+                &(0..repeats)
+                    .map(|_| rng.gen_range(0..repeats))
+                    .collect::<Vec<_>>(),
+            )
+        })
+        .collect();
+    Reading {
+        point: vector(&all),
+        draws,
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn pilot_summary(
+    data: &Dataset,
+    scorer: &Scorer,
+    pilot: &[usize],
+    without: &[Vec<TrialOutcome>],
+    with: &[Vec<TrialOutcome>],
+    mix: Option<(f64, usize, f64)>,
+    extrapolated: bool,
+    confidence: f64,
+) -> PilotSummary {
+    let last = |o: &[Vec<TrialOutcome>]| -> Vec<TrialOutcome> {
+        o.iter().filter_map(|r| r.last().cloned()).collect()
+    };
+    let (w, o) = (last(with), last(without));
+    let test_to_train = w
+        .first()
+        .map_or(0.0, |t| t.test_rows as f64 / t.train_rows.max(1) as f64);
+    let r = data.reference;
+    let unfairness = |t: &TrialOutcome| {
+        (0..data.group_list.len())
+            .filter(|&g| g != r)
+            .filter_map(|g| {
+                scorer
+                    .measure
+                    .unfairness_of_counts(&t.counts[g], &t.counts[r])
+            })
+            .fold(None, |m: Option<f64>, u| Some(m.map_or(u, |m| m.max(u))))
+    };
+    let accuracy_with: Vec<f64> = w.iter().map(|t| t.accuracy).collect();
+    let accuracy_without: Vec<f64> = o.iter().map(|t| t.accuracy).collect();
+    let accuracy_diff: Vec<f64> = accuracy_with
+        .iter()
+        .zip(&accuracy_without)
+        .map(|(a, b)| a - b)
+        .collect();
+    let unfair_with: Vec<f64> = w.iter().filter_map(unfairness).collect();
+    let unfair_without: Vec<f64> = o.iter().filter_map(unfairness).collect();
+    let unfair_diff: Vec<f64> = w
+        .iter()
+        .zip(&o)
+        .filter_map(|(a, b)| Some(unfairness(a)? - unfairness(b)?))
+        .collect();
+    let sizes = with.first().map_or(0, Vec::len);
+    let per_size: Vec<Vec<f64>> = (0..sizes)
+        .map(|i| {
+            with.iter()
+                .zip(without)
+                .map(|(a, b)| a[i].accuracy - b[i].accuracy)
+                .collect()
+        })
+        .collect();
+    PilotSummary {
+        rows: pilot.len(),
+        training_rows: w.first().map_or(0, |t| t.train_rows),
+        mix_chi_square: mix.map(|m| m.0),
+        mix_p_value: mix.map(|m| m.2),
+        accuracy_difference: estimate(&accuracy_diff, confidence, test_to_train, Some(0.0)),
+        accuracy_welch_p: metrics::welch_t_test(&accuracy_with, &accuracy_without).map(|t| t.2),
+        unfairness_difference: estimate(&unfair_diff, confidence, test_to_train, Some(0.0)),
+        unfairness_welch_p: metrics::welch_t_test(&unfair_with, &unfair_without).map(|t| t.2),
+        size_anova_p: metrics::one_way_anova(&per_size).map(|a| a.1),
+        extrapolated,
+    }
+}
+
+/// Ablation (retrain without each feature) and permutation (scramble it on the test rows), over
+/// the baseline's trials.
+fn held_features(
+    data: &Dataset,
+    settings: &Settings,
+    measure: FairnessMeasure,
+    progress: ProgressSink,
+) -> Result<Vec<HeldFeature>> {
+    let trials = &settings.trials;
+    let family = model::family(trials.model);
+    let features = data.features.len();
+    let r = data.reference;
+    let unfairness = |counts: &[GroupCounts]| {
+        (0..data.group_list.len())
+            .filter(|&g| g != r)
+            .filter_map(|g| measure.unfairness_of_counts(&counts[g], &counts[r]))
+            .fold(None, |m: Option<f64>, u| Some(m.map_or(u, |m| m.max(u))))
+    };
+    let done = std::sync::atomic::AtomicUsize::new(0);
+    let total = trials.repeats;
+    progress(trial::Progress {
+        stage: "held features",
+        done: 0,
+        total,
+    });
+    // Per trial: for each feature, (ablation Δaccuracy, Δunfairness, permutation Δaccuracy, Δunfairness).
+    type Changes = Vec<[Option<f64>; 4]>;
+    let per_trial: Vec<(Changes, f64)> = (0..trials.repeats)
+        .into_par_iter()
+        .map(|repeat| -> Result<(Changes, f64)> {
+            let mut rng = stream_rng(trials.seed, trial::BASELINE_STREAM, repeat as u64);
+            let (train, test) = trial::stratified_split(
+                &data.labels,
+                &data.groups,
+                data.group_list.len(),
+                trials.test_fraction,
+                &mut rng,
+            );
+            let labels: Vec<bool> = test.iter().map(|&i| data.labels[i]).collect();
+            let groups: Vec<u32> = test.iter().map(|&i| data.groups[i]).collect();
+            let y_train: Vec<bool> = train.iter().map(|&i| data.labels[i]).collect();
+            let score = |scores: &[f64]| -> (f64, Option<f64>) {
+                let predicted: Vec<bool> = scores.iter().map(|&s| s >= 0.5).collect();
+                let counts =
+                    metrics::group_counts(&labels, &predicted, &groups, data.group_list.len());
+                (metrics::accuracy(&labels, &predicted), unfairness(&counts))
+            };
+            let encoder = Encoder::fit(&data.features, &train);
+            let x_train = encoder.transform(&data.features, &train);
+            let x_test = encoder.transform(&data.features, &test);
+            let model = family.fit(x_train.view(), &y_train)?;
+            let (base_accuracy, base_unfairness) = score(&model.scores(x_test.view()));
+            let diff = |a: f64, u: Option<f64>| {
+                [
+                    Some(a - base_accuracy),
+                    u.zip(base_unfairness).map(|(u, b)| u - b),
+                ]
+            };
+            let mut perm_rng = stream_rng(trials.seed, PERMUTATION_STREAM, repeat as u64);
+            let mut changes = Vec::with_capacity(features);
+            for f in 0..features {
+                let mut ablation = [None, None];
+                if features > 1 {
+                    let kept: Vec<Column> = data
+                        .features
+                        .iter()
+                        .enumerate()
+                        .filter(|&(k, _)| k != f)
+                        .map(|(_, c)| c.clone())
+                        .collect();
+                    let encoder = Encoder::fit(&kept, &train);
+                    let model = family.fit(encoder.transform(&kept, &train).view(), &y_train)?;
+                    let (a, u) = score(&model.scores(encoder.transform(&kept, &test).view()));
+                    ablation = diff(a, u);
+                }
+                let span = encoder.span(f);
+                let (mut sum_a, mut sum_u, mut count_u) = (0.0, 0.0, 0usize);
+                for _ in 0..PERMUTATIONS {
+                    let mut order: Vec<usize> = (0..test.len()).collect();
+                    order.shuffle(&mut perm_rng);
+                    let mut x = x_test.clone();
+                    for j in span.clone() {
+                        let column = x_test.column(j);
+                        for (row, &from) in order.iter().enumerate() {
+                            x[(row, j)] = column[from];
+                        }
+                    }
+                    let (a, u) = score(&model.scores(x.view()));
+                    let [da, du] = diff(a, u);
+                    sum_a += da.unwrap_or(0.0);
+                    if let Some(du) = du {
+                        sum_u += du;
+                        count_u += 1;
+                    }
+                }
+                let permutation = [
+                    Some(sum_a / PERMUTATIONS as f64),
+                    (count_u > 0).then(|| sum_u / count_u as f64),
+                ];
+                changes.push([ablation[0], ablation[1], permutation[0], permutation[1]]);
+            }
+            progress(trial::Progress {
+                stage: "held features",
+                done: done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1,
+                total,
+            });
+            Ok((changes, test.len() as f64 / train.len() as f64))
+        })
+        .collect::<Result<_>>()?;
+    let test_to_train = per_trial.first().map_or(0.0, |t| t.1);
+    Ok((0..features)
+        .map(|f| {
+            let pick = |k: usize| -> Option<Estimate> {
+                let values: Vec<f64> = per_trial.iter().filter_map(|(c, _)| c[f][k]).collect();
+                estimate(&values, trials.confidence, test_to_train, Some(0.0))
+            };
+            HeldFeature {
+                feature: data.features[f].name.clone(),
+                ablation_accuracy: pick(0),
+                ablation_unfairness: pick(1),
+                permutation_accuracy: pick(2),
+                permutation_unfairness: pick(3),
+            }
+        })
+        .collect())
+}
+
+/// Ranks by utility per 1,000 and by its cautious lower end (highest first; ties by name).
+fn rank(values: &[OptionValue]) -> Vec<Ranked> {
+    let mut by_utility: Vec<usize> = (0..values.len()).collect();
+    by_utility.sort_by(|&a, &b| {
+        values[b]
+            .estimate
+            .utility_per_1000
+            .total_cmp(&values[a].estimate.utility_per_1000)
+            .then(values[a].name.cmp(&values[b].name))
+    });
+    let mut by_caution: Vec<usize> = (0..values.len()).collect();
+    let cautious = |i: usize| {
+        values[i]
+            .estimate
+            .cautious_per_1000
+            .unwrap_or(f64::NEG_INFINITY)
+    };
+    by_caution.sort_by(|&a, &b| {
+        cautious(b)
+            .total_cmp(&cautious(a))
+            .then(values[a].name.cmp(&values[b].name))
+    });
+    by_utility
+        .iter()
+        .enumerate()
+        .map(|(rank, &i)| Ranked {
+            name: values[i].name.clone(),
+            utility_per_1000: values[i].estimate.utility_per_1000,
+            rank: rank + 1,
+            cautious_per_1000: values[i].estimate.cautious_per_1000,
+            cautious_rank: by_caution.iter().position(|&x| x == i).unwrap_or(0) + 1,
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unfairness_on_each_measure() {
+        let u = [0.2, 0.5, 0.1];
+        let r = [0.4, 0.7, 0.2];
+        assert!((FairnessMeasure::Spd.unfairness(u, r).unwrap() - 0.2).abs() < 1e-12);
+        assert!((FairnessMeasure::Di.unfairness(u, r).unwrap() - 0.5).abs() < 1e-12);
+        assert!((FairnessMeasure::Eod.unfairness(u, r).unwrap() - 0.2).abs() < 1e-12);
+        assert!((FairnessMeasure::Aod.unfairness(u, r).unwrap() - 0.15).abs() < 1e-12);
+        assert!(FairnessMeasure::parse("xyz").is_err());
+    }
+}
