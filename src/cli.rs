@@ -356,7 +356,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             if args.no_run {
                 return Ok(());
             }
-            println!("Running the baseline and the learning curves on it (option appraisal and the plan are not built yet).\n");
+            println!("Running the baseline, the learning curves and the appraisal of the cost sheet on it (the budgeted plan is not built yet).\n");
             let choices = Choices::from_project_file(&folder.join(PROJECT_FILE))?;
             let output = |name: &str| OutputArgs {
                 json: Some(folder.join(name)),
@@ -365,10 +365,12 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             run_baseline(choices.clone(), &output("baseline.json"))?;
             println!();
             run_curves(
-                choices,
+                choices.clone(),
                 Some(&folder.join("curves.svg")),
                 &output("curves.json"),
-            )
+            )?;
+            println!();
+            run_appraise(choices, &output("appraise.json"))
         }
     }
 }

@@ -141,6 +141,30 @@ pub fn applications_csv(applicants: &[Applicant], seed: u64) -> String {
     out
 }
 
+/// A data file with every column filled on every row (no pilots): what the fund would hold
+/// after buying every feature, used to measure the options' true effects.
+pub fn complete_csv(applicants: &[Applicant]) -> String {
+    let mut out = String::from(
+        "disability,test_score,years_experience,region,prior_course,work_sample,reference_rating,postcode_digit,shortlisted\n",
+    );
+    let yes_no = |b: bool| if b { "yes" } else { "no" };
+    for a in applicants {
+        out.push_str(&format!(
+            "{},{:.0},{:.1},{},{},{:.1},{:.0},{},{}\n",
+            if a.disabled { "declared" } else { "none" },
+            a.test_score,
+            a.years_experience,
+            a.region,
+            yes_no(a.prior_course),
+            a.work_sample,
+            a.reference_rating,
+            a.postcode_digit,
+            yes_no(a.shortlisted),
+        ));
+    }
+    out
+}
+
 /// The cost sheet of the scenario, in euros.
 pub const COSTS_CSV: &str = "\
 name,kind,column,per_row,fixed,max_rows,step,sensitive,note

@@ -65,3 +65,33 @@ print("anova:", repr(r.statistic), repr(r.pvalue))
 table = [[30, 70, 12, 28], [300, 560, 110, 290]]
 r = stats.chi2_contingency(table, correction=False)
 print("chi2:", repr(r.statistic), repr(r.pvalue), r.dof)
+
+# Permutation importance and drop-column importance, logistic regression on standardised columns.
+from sklearn.inspection import permutation_importance
+from sklearn.preprocessing import StandardScaler
+import os
+rng = np.random.default_rng(5)
+n = 240
+xs = rng.normal(size=(n, 3))
+logit = 1.5 * xs[:, 0] - 0.8 * xs[:, 1] + 0.0 * xs[:, 2]
+ys = rng.random(n) < 1 / (1 + np.exp(-logit))
+here = os.path.dirname(os.path.abspath(__file__))
+with open(os.path.join(here, "importance.csv"), "w") as f:
+    f.write("a,b,c,y\n")
+    for row, label in zip(xs, ys):
+        f.write(f"{row[0]:.6f},{row[1]:.6f},{row[2]:.6f},{int(label)}\n")
+xs = np.loadtxt(os.path.join(here, "importance.csv"), delimiter=",", skiprows=1)
+x, y = xs[:, :3], xs[:, 3].astype(bool)
+train, test = slice(0, 180), slice(180, n)
+scaler = StandardScaler().fit(x[train])
+model = LogisticRegression(C=1.0, tol=1e-10, max_iter=10000).fit(scaler.transform(x[train]), y[train])
+base = model.score(scaler.transform(x[test]), y[test])
+pi = permutation_importance(model, scaler.transform(x[test]), y[test], n_repeats=2000, random_state=0, scoring="accuracy")
+print("importance base accuracy:", repr(base), "permutation means:", repr(pi.importances_mean.tolist()))
+drops = []
+for j in range(3):
+    keep = [k for k in range(3) if k != j]
+    s = StandardScaler().fit(x[train][:, keep])
+    m = LogisticRegression(C=1.0, tol=1e-10, max_iter=10000).fit(s.transform(x[train][:, keep]), y[train])
+    drops.append(base - m.score(s.transform(x[test][:, keep]), y[test]))
+print("drop-column importances:", repr(drops))

@@ -1,0 +1,32 @@
+#!/usr/bin/env bash
+# Benchmark: `acquest appraise` on Adult train with 3 feature options (occupation, relationship,
+# education, each blanked outside a random 20% pilot) and 2 rows options (any, women), 5 repeats.
+# Prints wall time and peak memory against the targets (60 s, 1.5 GiB on 2 cores).
+# Usage: bash tests/bench/appraise.sh
+set -euo pipefail
+cd "$(dirname "$0")/../.."
+data=../shared/data/adult/adult.data
+[ -f "$data" ] || { echo "skipped: $data is absent"; exit 0; }
+cargo build --release --quiet
+work=$(mktemp -d)
+awk -v seed=11 'BEGIN { srand(seed); FS = ", "; OFS = ", " }
+  NF >= 15 { if (rand() >= 0.2) $7 = "?"; if (rand() >= 0.2) $8 = "?"; if (rand() >= 0.2) $4 = "?"; print }' \
+  "$data" > "$work/adult-pilot.csv"
+cat > "$work/costs.csv" <<'SHEET'
+name,kind,column,per_row,fixed,max_rows,step,sensitive,note
+occupation,feature,occupation,0.40,1000,,,no,Occupation from the employer survey
+relationship,feature,relationship,0.30,500,,,yes,Household relationship
+education,feature,education,0.20,500,,,no,Highest education level
+more-records,rows,,1.50,0,30000,10000,no,Another census extract
+more-women,rows,sex=Female,2.50,2000,10000,2500,no,Targeted sample of women
+SHEET
+columns=age,workclass,fnlwgt,education,education-num,marital-status,occupation,relationship,race,sex,capital-gain,capital-loss,hours-per-week,native-country,income
+echo "machine: $(nproc) cores"
+/usr/bin/time -f "%e %M" -o "$work/time" ./target/release/acquest appraise --data "$work/adult-pilot.csv" \
+  --no-header --columns "$columns" --target income --favourable '>50K' --protected sex \
+  --costs "$work/costs.csv" --repeats 5 --quiet --no-project --json "$work/appraise.json" > /dev/null
+read -r wall kb < "$work/time"
+awk -v w="$wall" -v k="$kb" 'BEGIN {
+  printf "appraise: wall %.2f s (%.2f of the 60 s target), peak memory %.0f MiB (%.3f of 1.5 GiB)\n",
+    w, w / 60, k / 1024, k / 1572864 }'
+rm -rf "$work"
