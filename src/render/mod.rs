@@ -514,7 +514,7 @@ pub fn appraisal_text(report: &AppraisalReport) -> String {
     );
     let _ = writeln!(
         out,
-        "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' against '{}'), at {} training rows",
+        "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' against '{}'), read off the learning curve at {} training rows",
         report.today.accuracy,
         report.today.unfairness,
         c.fairness.to_uppercase(),
@@ -602,31 +602,31 @@ pub fn appraisal_text(report: &AppraisalReport) -> String {
         if let Some(d) = &o.direct {
             let _ = writeln!(
                 out,
-                "  at full size, anchored on today's curve: accuracy {}, unfairness reduction {}; the pilot curve extrapolated directly: accuracy {}, unfairness reduction {}",
+                "  at full size, anchored on today's curve: accuracy {}, unfairness reduction {}\n  the pilot curve extrapolated directly, for comparison: accuracy {}, unfairness reduction {}",
                 change_cell(&o.estimate.accuracy_gain, confidence),
                 change_cell(&o.estimate.unfairness_reduction, confidence),
                 change_cell(&d.accuracy_gain, confidence),
                 change_cell(&d.unfairness_reduction, confidence)
             );
         }
-        if !o.steps.is_empty() {
-            let steps: Vec<String> = o
-                .steps
-                .iter()
-                .map(|s| {
-                    format!(
-                        "+{} rows: {} / {}",
-                        thousands(s.new_rows),
-                        change_cell(&s.accuracy_gain, confidence),
-                        change_cell(&s.unfairness_reduction, confidence)
-                    )
-                })
-                .collect();
-            let _ = writeln!(
-                out,
-                "  with new rows (accuracy / unfairness reduction): {}",
-                steps.join("; ")
-            );
+        if let (Some(first), Some(last)) = (o.steps.first(), o.steps.last()) {
+            let step = |s: &crate::report::Purchase| {
+                format!(
+                    "+{} rows (cost {}): accuracy {}, unfairness reduction {}",
+                    thousands(s.new_rows),
+                    money(s.cost),
+                    change_cell(&s.accuracy_gain, confidence),
+                    change_cell(&s.unfairness_reduction, confidence)
+                )
+            };
+            let _ = writeln!(out, "  bought with new rows: {}", step(first));
+            if o.steps.len() > 1 {
+                let _ = writeln!(
+                    out,
+                    "                       {} (every step in the JSON report)",
+                    step(last)
+                );
+            }
         }
     }
     for o in report.options.iter().filter(|o| o.kind == "group rows") {
