@@ -316,6 +316,15 @@ pub fn run(
     appraisal: &AppraisalSettings,
     progress: ProgressSink,
 ) -> Result<AppraisalReport> {
+    run_with_options(settings, appraisal, progress).map(|(report, _)| report)
+}
+
+/// Runs the appraisal and returns the checked cost-sheet options beside the report.
+pub fn run_with_options(
+    settings: &Settings,
+    appraisal: &AppraisalSettings,
+    progress: ProgressSink,
+) -> Result<(AppraisalReport, Vec<CostOption>)> {
     let (table, data) = Dataset::load(settings)?;
     let raw = costs::read_cost_sheet(&appraisal.costs)?;
     let options = costs::check_options(&appraisal.costs, raw, &data, &settings.schema.protected)?;
@@ -462,7 +471,7 @@ pub fn run(
 
     let held_features = held_features(&data, settings, appraisal.fairness, progress)?;
     let ranking = rank(&values);
-    Ok(AppraisalReport {
+    let report = AppraisalReport {
         format: FORMAT.into(),
         format_version: FORMAT_VERSION,
         tool_version: env!("CARGO_PKG_VERSION").into(),
@@ -495,7 +504,8 @@ pub fn run(
         held_features,
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
-    })
+    };
+    Ok((report, options))
 }
 
 fn option_flags(option: &CostOption, headline: &Purchase, confidence: f64) -> Vec<String> {

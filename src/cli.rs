@@ -10,7 +10,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use acquest::settings::{Choices, CurveSettings, Settings, PROJECT_FILE};
 use acquest::trial::Progress;
-use acquest::{appraise, baseline, demo, learning, render};
+use acquest::{appraise, baseline, demo, learning, plan, render};
 
 #[derive(Parser)]
 #[command(
@@ -36,8 +36,29 @@ enum Command {
     /// Every option of a cost sheet valued: accuracy and fairness gains with intervals, cost,
     /// gain per 1,000; and what each feature already held does.
     Appraise(Box<AppraiseArgs>),
+    /// The budgeted plan: which options to buy within the budget, and the best plan at other
+    /// budgets.
+    Plan(Box<PlanArgs>),
     /// Write the invented demo scenario to a folder and run it.
     Demo(DemoArgs),
+}
+
+#[derive(Args)]
+struct PlanArgs {
+    #[command(flatten)]
+    appraise: AppraiseArgs,
+    /// The budget, in the cost sheet's currency.
+    #[arg(long, value_name = "AMOUNT")]
+    budget: Option<f64>,
+    /// Score plans by the lower end of each utility interval.
+    #[arg(long)]
+    cautious: bool,
+    /// Only plans whose accuracy gain is not negative.
+    #[arg(long)]
+    keep_accuracy: bool,
+    /// Write the plan as Markdown to FILE, to paste into a proposal.
+    #[arg(long, value_name = "FILE")]
+    markdown: Option<PathBuf>,
 }
 
 #[derive(Args)]
@@ -108,7 +129,7 @@ struct DemoArgs {
     quiet: bool,
 }
 
-#[derive(Args)]
+#[derive(Args, Default)]
 struct DataArgs {
     /// Data file: CSV (any common separator) or Parquet.
     #[arg(long, value_name = "FILE")]
@@ -168,7 +189,7 @@ struct DataArgs {
     no_project: bool,
 }
 
-#[derive(Args)]
+#[derive(Args, Default)]
 struct TrialArgs {
     /// Model family: logistic or tree [default: logistic].
     #[arg(long, value_name = "FAMILY")]
@@ -266,6 +287,67 @@ fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     write_outputs(&report, render::baseline_text(&report), output)
 }
 
+impl AppraiseArgs {
+    fn choices(&mut self) -> anyhow::Result<Choices> {
+        let data = std::mem::take(&mut self.data);
+        let trials = std::mem::take(&mut self.trials);
+        let mut choices = data.choices(trials)?;
+        choices.costs = self.costs.take().or(choices.costs.take());
+        choices.currency = self.currency.take().or(choices.currency.take());
+        choices.fairness = self.fairness.take().or(choices.fairness.take());
+        choices.weigh_accuracy = self.weigh_accuracy.or(choices.weigh_accuracy);
+        choices.weigh_fairness = self.weigh_fairness.or(choices.weigh_fairness);
+        Ok(choices)
+    }
+}
+
+fn run_plan(
+    choices: Choices,
+    budget: Option<f64>,
+    cautious: bool,
+    keep_accuracy: bool,
+    markdown: Option<&Path>,
+    output: &OutputArgs,
+) -> anyhow::Result<()> {
+    let settings = Settings::from_choices(choices.clone())?;
+    let appraisal = appraise::AppraisalSettings::from_choices(&choices)?;
+    let budget = budget.or(choices.budget).ok_or_else(|| {
+        acquest::Error::setting("--budget", "is required (or budget = ... in acquest.toml)")
+    })?;
+    if !(budget.is_finite() && budget >= 0.0) {
+        return Err(acquest::Error::setting(
+            "--budget",
+            format!("must be 0 or more, not {budget}"),
+        )
+        .into());
+    }
+    let rules = plan::PlanRules {
+        budget,
+        cautious,
+        keep_accuracy,
+    };
+    let bar = progress_bar(output.quiet);
+    let show = |p: Progress| {
+        bar.set_message(p.stage);
+        bar.set_length(p.total as u64);
+        bar.set_position(p.done as u64);
+    };
+    let report = plan::run(&settings, &appraisal, &rules, &show)?;
+    bar.finish_and_clear();
+    if let Some(path) = markdown {
+        std::fs::write(path, render::plan_markdown(&report))
+            .with_context(|| format!("cannot write the Markdown report to {}", path.display()))?;
+    }
+    write_outputs(&report, render::plan_text(&report), output)?;
+    if let Some(path) = markdown {
+        status(
+            output,
+            &format!("Markdown report written to {}", path.display()),
+        );
+    }
+    Ok(())
+}
+
 fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
     let appraisal = appraise::AppraisalSettings::from_choices(&choices)?;
@@ -297,9 +379,18 @@ fn run_curves(choices: Choices, svg: Option<&Path>, output: &OutputArgs) -> anyh
     }
     write_outputs(&report, render::curves_text(&report), output)?;
     if let Some(path) = svg {
-        println!("Chart written to {}", path.display());
+        status(output, &format!("Chart written to {}", path.display()));
     }
     Ok(())
+}
+
+/// A line about files written: on stdout, unless the JSON report goes there.
+fn status(output: &OutputArgs, line: &str) {
+    if output.json.as_deref() == Some(Path::new("-")) {
+        eprintln!("{line}");
+    } else {
+        println!("{line}");
+    }
 }
 
 fn write_outputs<T: serde::Serialize>(
@@ -334,14 +425,22 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             run_curves(choices, args.svg.as_deref(), &args.output)
         }
         Command::Appraise(args) => {
-            let args = *args;
-            let mut choices = args.data.choices(args.trials)?;
-            choices.costs = args.costs.or(choices.costs.take());
-            choices.currency = args.currency.or(choices.currency.take());
-            choices.fairness = args.fairness.or(choices.fairness.take());
-            choices.weigh_accuracy = args.weigh_accuracy.or(choices.weigh_accuracy);
-            choices.weigh_fairness = args.weigh_fairness.or(choices.weigh_fairness);
+            let mut args = *args;
+            let choices = args.choices()?;
             run_appraise(choices, &args.output)
+        }
+        Command::Plan(args) => {
+            let mut args = *args;
+            let choices = args.appraise.choices()?;
+            let output = args.appraise.output;
+            run_plan(
+                choices,
+                args.budget,
+                args.cautious,
+                args.keep_accuracy,
+                args.markdown.as_deref(),
+                &output,
+            )
         }
         Command::Demo(args) => {
             let folder = args
@@ -356,7 +455,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             if args.no_run {
                 return Ok(());
             }
-            println!("Running the baseline, the learning curves and the appraisal of the cost sheet on it (the budgeted plan is not built yet).\n");
+            println!("Running the baseline, the learning curves, and the appraisal and budgeted plan of the cost sheet on it.\n");
             let choices = Choices::from_project_file(&folder.join(PROJECT_FILE))?;
             let output = |name: &str| OutputArgs {
                 json: Some(folder.join(name)),
@@ -370,7 +469,14 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 &output("curves.json"),
             )?;
             println!();
-            run_appraise(choices, &output("appraise.json"))
+            run_plan(
+                choices,
+                None,
+                false,
+                false,
+                Some(&folder.join("plan.md")),
+                &output("plan.json"),
+            )
         }
     }
 }

@@ -14,6 +14,7 @@ pub mod error;
 pub mod learning;
 pub mod metrics;
 pub mod model;
+pub mod plan;
 pub mod render;
 pub mod report;
 pub mod settings;

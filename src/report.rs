@@ -464,3 +464,23 @@ pub struct HeldFeature {
     pub permutation_accuracy: Option<Estimate>,
     pub permutation_unfairness: Option<Estimate>,
 }
+
+/// The report of `acquest plan`: the appraisal it rests on, the plan for the budget, and the
+/// frontier of plans at other budgets.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanReport {
+    pub format: String,
+    pub format_version: u32,
+    pub tool_version: String,
+    pub command: String,
+    pub rules: crate::plan::PlanRules,
+    /// How gains are combined: the sum of the options' gains (each read at the plan's rows).
+    pub gain_model: String,
+    pub plan: crate::plan::Plan,
+    /// Why the plan is empty, when it is.
+    pub explanation: Option<String>,
+    pub frontier: Vec<crate::plan::FrontierPoint>,
+    pub appraisal: AppraisalReport,
+    pub warnings: Vec<String>,
+    pub cautions: Vec<String>,
+}

@@ -1163,3 +1163,74 @@ fn a_pilot_too_small_for_a_curve_is_measured_at_its_size() {
         "read with each step of the rows option"
     );
 }
+
+#[test]
+fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(dir.path())
+        .arg("--no-run")
+        .assert()
+        .success();
+    let plan_for = |budget: &str| -> acquest::report::PlanReport {
+        let output = acquest()
+            .current_dir(dir.path())
+            .args([
+                "plan",
+                "--budget",
+                budget,
+                "--repeats",
+                "4",
+                "--quiet",
+                "--json",
+                "-",
+                "--markdown",
+                "plan.md",
+            ])
+            .output()
+            .unwrap();
+        assert!(
+            output.status.success(),
+            "{}",
+            String::from_utf8_lossy(&output.stderr)
+        );
+        serde_json::from_slice(&output.stdout).unwrap()
+    };
+    // demo-data/costs.csv: cheapest purchase postcode, 100 + 0.05 × 3,000 = 250.
+    let report = plan_for("20000");
+    let plan = &report.plan;
+    assert!(plan.total_cost <= 20_000.0);
+    assert!(!plan.items.is_empty());
+    // Cost rule (SPEC 2.2): each item's cost as the sheet gives it, features paid on new rows too.
+    let new_rows: usize = plan.items.iter().map(|i| i.new_rows).sum();
+    for item in &plan.items {
+        let expected = match item.option.as_str() {
+            "work-sample" => 2_000.0 + 4.5 * (3_000 + new_rows) as f64,
+            "references" => 500.0 + 2.0 * (3_000 + new_rows) as f64,
+            "postcode" => 100.0 + 0.05 * (3_000 + new_rows) as f64,
+            "more-applications" => 12.0 * item.new_rows as f64,
+            _ => 1_500.0 + 30.0 * item.new_rows as f64,
+        };
+        assert!(
+            (item.cost - expected).abs() < 1e-6,
+            "{}: {} vs {expected}",
+            item.option,
+            item.cost
+        );
+    }
+    let sum: f64 = plan.items.iter().map(|i| i.cost).sum();
+    assert!((plan.total_cost - sum).abs() < 1e-6);
+    assert!(!report.frontier.is_empty());
+    assert!(report
+        .frontier
+        .windows(2)
+        .all(|w| w[1].plan.score >= w[0].plan.score - 1e-12));
+    let markdown = std::fs::read_to_string(dir.path().join("plan.md")).unwrap();
+    assert!(markdown.contains("## Recommendation") && markdown.contains("## Cautions"));
+
+    let poor = plan_for("200");
+    assert!(poor.plan.items.is_empty());
+    assert!(poor.explanation.unwrap().contains("below the cheapest"));
+}

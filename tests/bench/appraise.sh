@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
-# Benchmark: `acquest appraise` on Adult train with 3 feature options (occupation, relationship,
-# education, each blanked outside a random 20% pilot) and 2 rows options (any, women), 5 repeats.
-# Prints wall time and peak memory against the targets (60 s, 1.5 GiB on 2 cores).
+# Benchmark: `acquest appraise` and `acquest plan` on Adult train with 3 feature options
+# (occupation, relationship, education, each blanked outside a random 20% pilot) and 2 rows
+# options (any, women), 5 repeats; and `acquest demo` end to end. Prints wall time and peak memory
+# against the targets (appraise 60 s, plan 90 s, demo 30 s, 1.5 GiB, on 2 cores).
 # Usage: bash tests/bench/appraise.sh
 set -euo pipefail
 cd "$(dirname "$0")/../.."
@@ -29,4 +30,16 @@ read -r wall kb < "$work/time"
 awk -v w="$wall" -v k="$kb" 'BEGIN {
   printf "appraise: wall %.2f s (%.2f of the 60 s target), peak memory %.0f MiB (%.3f of 1.5 GiB)\n",
     w, w / 60, k / 1024, k / 1572864 }'
+/usr/bin/time -f "%e %M" -o "$work/time" ./target/release/acquest plan --data "$work/adult-pilot.csv" \
+  --no-header --columns "$columns" --target income --favourable '>50K' --protected sex \
+  --costs "$work/costs.csv" --budget 40000 --repeats 5 --quiet --no-project --json "$work/plan.json" > /dev/null
+read -r wall kb < "$work/time"
+awk -v w="$wall" -v k="$kb" 'BEGIN {
+  printf "plan:     wall %.2f s (%.2f of the 90 s target), peak memory %.0f MiB (%.3f of 1.5 GiB)\n",
+    w, w / 90, k / 1024, k / 1572864 }'
+/usr/bin/time -f "%e %M" -o "$work/time" ./target/release/acquest demo --out "$work/demo" --quiet > /dev/null
+read -r wall kb < "$work/time"
+awk -v w="$wall" -v k="$kb" 'BEGIN {
+  printf "demo:     wall %.2f s (%.2f of the 30 s target), peak memory %.0f MiB (%.3f of 1.5 GiB)\n",
+    w, w / 30, k / 1024, k / 1572864 }'
 rm -rf "$work"

@@ -1,0 +1,633 @@
+//! The budgeted selection: which feature options to buy and how many steps of each rows option,
+//! maximising utility within the budget (optionally under floors), exact for the additive model
+//! of gains used; and the frontier of best plans as the budget grows.
+
+use serde::{Deserialize, Serialize};
+
+use crate::costs::{Acquisition, CostOption};
+use crate::error::{Error, Result};
+use crate::report::{AppraisalReport, OptionValue, Purchase};
+
+/// How plans are scored and constrained.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct PlanRules {
+    pub budget: f64,
+    /// Score by the lower end of each utility interval instead of its mean.
+    pub cautious: bool,
+    /// The plan's accuracy gain may not be negative.
+    pub keep_accuracy: bool,
+}
+
+/// One choice within a plan.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanItem {
+    pub option: String,
+    pub kind: String,
+    /// New rows bought (rows options) or 0 (features).
+    pub new_rows: usize,
+    pub cost: f64,
+    pub accuracy_gain: f64,
+    pub unfairness_reduction: f64,
+    pub utility: f64,
+}
+
+/// A plan: what to buy, its cost, and its gains as the sum of the items' (the additive model).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Plan {
+    pub items: Vec<PlanItem>,
+    pub total_cost: f64,
+    pub accuracy_gain: f64,
+    pub unfairness_reduction: f64,
+    /// The score maximised: summed utility, or summed lower ends with `cautious`.
+    pub score: f64,
+}
+
+impl Plan {
+    fn empty() -> Plan {
+        Plan {
+            items: Vec::new(),
+            total_cost: 0.0,
+            accuracy_gain: 0.0,
+            unfairness_reduction: 0.0,
+            score: 0.0,
+        }
+    }
+}
+
+/// The values the solver works with for one choice of one option.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Value {
+    accuracy: f64,
+    fairness: f64,
+    score: f64,
+}
+
+fn value_of(p: &Purchase, cautious: bool) -> Value {
+    Value {
+        accuracy: p.accuracy_gain.mean,
+        fairness: p.unfairness_reduction.mean,
+        score: if cautious {
+            p.utility.low.unwrap_or(p.utility.mean)
+        } else {
+            p.utility.mean
+        },
+    }
+}
+
+/// A rows option's choices: (new rows, cost, value), starting with buying nothing.
+struct RowsChoices {
+    name: String,
+    kind: String,
+    any_case: bool,
+    choices: Vec<(usize, f64, Value)>,
+}
+
+/// A feature option: its cost rule and its value as a function of new rows of any case.
+struct FeatureChoice {
+    name: String,
+    fixed: f64,
+    per_row: f64,
+    /// (new rows of any case, value), sorted by rows; read by linear interpolation.
+    by_rows: Vec<(usize, Value)>,
+}
+
+impl FeatureChoice {
+    fn cost(&self, rows_held: usize, new_rows: usize) -> f64 {
+        self.fixed + self.per_row * (rows_held + new_rows) as f64
+    }
+
+    fn value(&self, new_rows_any: usize) -> Value {
+        let points = &self.by_rows;
+        let Some(first) = points.first() else {
+            return Value {
+                accuracy: 0.0,
+                fairness: 0.0,
+                score: 0.0,
+            };
+        };
+        if new_rows_any <= first.0 {
+            return first.1;
+        }
+        for pair in points.windows(2) {
+            let ((r0, v0), (r1, v1)) = (pair[0], pair[1]);
+            if new_rows_any <= r1 {
+                let t = (new_rows_any - r0) as f64 / (r1 - r0).max(1) as f64;
+                let mix = |a: f64, b: f64| a + t * (b - a);
+                return Value {
+                    accuracy: mix(v0.accuracy, v1.accuracy),
+                    fairness: mix(v0.fairness, v1.fairness),
+                    score: mix(v0.score, v1.score),
+                };
+            }
+        }
+        points[points.len() - 1].1
+    }
+}
+
+/// The problem: rows options, feature options, and the rows held today.
+pub struct Problem {
+    rows: Vec<RowsChoices>,
+    features: Vec<FeatureChoice>,
+    rows_held: usize,
+}
+
+/// Combinations of rows steps the solver will enumerate, at most.
+pub const MAX_ROW_COMBINATIONS: usize = 200_000;
+
+impl Problem {
+    /// Builds the problem from an appraisal and its cost sheet.
+    pub fn new(
+        report: &AppraisalReport,
+        options: &[CostOption],
+        cautious: bool,
+    ) -> Result<Problem> {
+        let mut rows = Vec::new();
+        let mut features = Vec::new();
+        for (value, option) in report.options.iter().zip(options) {
+            match &option.acquisition {
+                Acquisition::Rows { filter } => {
+                    rows.push(rows_choices(value, filter.is_none(), cautious))
+                }
+                Acquisition::Feature { .. } => {
+                    let mut by_rows = vec![(0, value_of(&value.estimate, cautious))];
+                    by_rows.extend(
+                        value
+                            .steps
+                            .iter()
+                            .map(|s| (s.new_rows, value_of(s, cautious))),
+                    );
+                    by_rows.sort_by_key(|p| p.0);
+                    by_rows.dedup_by_key(|p| p.0);
+                    features.push(FeatureChoice {
+                        name: value.name.clone(),
+                        fixed: option.fixed,
+                        per_row: option.per_row,
+                        by_rows,
+                    });
+                }
+            }
+        }
+        let combinations: usize = rows.iter().map(|r| r.choices.len()).product();
+        if combinations > MAX_ROW_COMBINATIONS {
+            return Err(Error::NotEnoughData(format!(
+                "the rows options can be combined in {combinations} ways, more than the {MAX_ROW_COMBINATIONS} the planner enumerates; use larger steps"
+            )));
+        }
+        Ok(Problem {
+            rows,
+            features,
+            rows_held: report.today.rows,
+        })
+    }
+
+    /// The cheapest single purchase on offer (a feature alone, or one step of a rows option).
+    pub fn cheapest(&self) -> Option<f64> {
+        let features = self.features.iter().map(|f| f.cost(self.rows_held, 0));
+        let rows = self
+            .rows
+            .iter()
+            .filter_map(|r| r.choices.get(1).map(|c| c.1));
+        features.chain(rows).min_by(f64::total_cmp)
+    }
+
+    /// The cost of buying everything at its largest.
+    pub fn everything(&self) -> f64 {
+        let new_rows: usize = self
+            .rows
+            .iter()
+            .filter_map(|r| r.choices.last().map(|c| c.0))
+            .sum();
+        let rows_cost: f64 = self
+            .rows
+            .iter()
+            .filter_map(|r| r.choices.last().map(|c| c.1))
+            .sum();
+        rows_cost
+            + self
+                .features
+                .iter()
+                .map(|f| f.cost(self.rows_held, new_rows))
+                .sum::<f64>()
+    }
+
+    /// The best plan within the rules: every combination of rows steps, and for each the best
+    /// subset of features by an exact Pareto (cost, score) search.
+    pub fn solve(&self, rules: &PlanRules) -> Plan {
+        self.search(rules, false)
+    }
+
+    /// The same by trying every subset of features too: the reference the solver is checked
+    /// against.
+    pub fn solve_by_brute_force(&self, rules: &PlanRules) -> Plan {
+        self.search(rules, true)
+    }
+
+    fn search(&self, rules: &PlanRules, brute_force: bool) -> Plan {
+        let mut best: Option<(f64, f64, Vec<usize>, Vec<usize>)> = None; // score, cost, row picks, features
+        let mut picks = vec![0usize; self.rows.len()];
+        loop {
+            let (mut cost, mut new_rows, mut any_rows) = (0.0, 0usize, 0usize);
+            let mut value = Value {
+                accuracy: 0.0,
+                fairness: 0.0,
+                score: 0.0,
+            };
+            for (r, &k) in self.rows.iter().zip(&picks) {
+                let (n, c, v) = r.choices[k];
+                cost += c;
+                new_rows += n;
+                if r.any_case {
+                    any_rows += n;
+                }
+                value.accuracy += v.accuracy;
+                value.fairness += v.fairness;
+                value.score += v.score;
+            }
+            if cost <= rules.budget + 1e-9 {
+                let items: Vec<(f64, Value)> = self
+                    .features
+                    .iter()
+                    .map(|f| (f.cost(self.rows_held, new_rows), f.value(any_rows)))
+                    .collect();
+                let capacity = rules.budget - cost;
+                let chosen = if brute_force || rules.keep_accuracy {
+                    best_subset_by_enumeration(
+                        &items,
+                        capacity,
+                        rules.keep_accuracy,
+                        value.accuracy,
+                    )
+                } else {
+                    best_subset_pareto(&items, capacity)
+                };
+                if let Some((subset_cost, subset_score, subset)) = chosen {
+                    let score = value.score + subset_score;
+                    let total = cost + subset_cost;
+                    let accuracy_ok = !rules.keep_accuracy
+                        || value.accuracy
+                            + subset.iter().map(|&i| items[i].1.accuracy).sum::<f64>()
+                            >= -1e-12;
+                    let better = match &best {
+                        None => true,
+                        Some((s, c, _, _)) => {
+                            score > s + 1e-12 || ((score - s).abs() <= 1e-12 && total < c - 1e-9)
+                        }
+                    };
+                    if accuracy_ok && better {
+                        best = Some((score, total, picks.clone(), subset));
+                    }
+                }
+            }
+            // Next combination of rows steps.
+            let mut r = 0;
+            while r < picks.len() {
+                picks[r] += 1;
+                if picks[r] < self.rows[r].choices.len() {
+                    break;
+                }
+                picks[r] = 0;
+                r += 1;
+            }
+            if r == picks.len() {
+                break;
+            }
+        }
+        let Some((_, _, row_picks, subset)) = best else {
+            return Plan::empty();
+        };
+        self.plan_of(&row_picks, &subset)
+    }
+
+    fn plan_of(&self, row_picks: &[usize], subset: &[usize]) -> Plan {
+        let mut items = Vec::new();
+        let (mut new_rows, mut any_rows) = (0, 0);
+        for (r, &k) in self.rows.iter().zip(row_picks) {
+            let (n, c, v) = r.choices[k];
+            new_rows += n;
+            if r.any_case {
+                any_rows += n;
+            }
+            if n > 0 {
+                items.push(PlanItem {
+                    option: r.name.clone(),
+                    kind: r.kind.clone(),
+                    new_rows: n,
+                    cost: c,
+                    accuracy_gain: v.accuracy,
+                    unfairness_reduction: v.fairness,
+                    utility: v.score,
+                });
+            }
+        }
+        for &i in subset {
+            let f = &self.features[i];
+            let v = f.value(any_rows);
+            items.push(PlanItem {
+                option: f.name.clone(),
+                kind: "feature".into(),
+                new_rows: 0,
+                cost: f.cost(self.rows_held, new_rows),
+                accuracy_gain: v.accuracy,
+                unfairness_reduction: v.fairness,
+                utility: v.score,
+            });
+        }
+        // `+ 0.0` turns the empty sum's −0.0 into 0.0.
+        Plan {
+            total_cost: items.iter().map(|i| i.cost).sum::<f64>() + 0.0,
+            accuracy_gain: items.iter().map(|i| i.accuracy_gain).sum::<f64>() + 0.0,
+            unfairness_reduction: items.iter().map(|i| i.unfairness_reduction).sum::<f64>() + 0.0,
+            score: items.iter().map(|i| i.utility).sum::<f64>() + 0.0,
+            items,
+        }
+    }
+}
+
+fn rows_choices(value: &OptionValue, any_case: bool, cautious: bool) -> RowsChoices {
+    let mut choices = vec![(
+        0,
+        0.0,
+        Value {
+            accuracy: 0.0,
+            fairness: 0.0,
+            score: 0.0,
+        },
+    )];
+    choices.extend(
+        value
+            .steps
+            .iter()
+            .map(|s| (s.new_rows, s.cost, value_of(s, cautious))),
+    );
+    RowsChoices {
+        name: value.name.clone(),
+        kind: value.kind.clone(),
+        any_case,
+        choices,
+    }
+}
+
+/// Best subset of (cost, value) items within `capacity`: (cost, score, chosen indices). Exact:
+/// keeps every (cost, score) state not dominated by a cheaper one with at least its score.
+fn best_subset_pareto(items: &[(f64, Value)], capacity: f64) -> Option<(f64, f64, Vec<usize>)> {
+    let mut states: Vec<(f64, f64, Vec<usize>)> = vec![(0.0, 0.0, Vec::new())];
+    for (i, (cost, value)) in items.iter().enumerate() {
+        let mut next = states.clone();
+        for (c, s, chosen) in &states {
+            if c + cost <= capacity + 1e-9 {
+                let mut with = chosen.clone();
+                with.push(i);
+                next.push((c + cost, s + value.score, with));
+            }
+        }
+        next.sort_by(|a, b| a.0.total_cmp(&b.0).then(b.1.total_cmp(&a.1)));
+        let mut kept: Vec<(f64, f64, Vec<usize>)> = Vec::with_capacity(next.len());
+        for state in next {
+            if kept.last().is_none_or(|k| state.1 > k.1 + 1e-12) {
+                kept.push(state);
+            }
+        }
+        states = kept;
+    }
+    states
+        .into_iter()
+        .max_by(|a, b| a.1.total_cmp(&b.1).then(b.0.total_cmp(&a.0)))
+}
+
+/// Best subset by trying them all (and the accuracy floor, when asked).
+fn best_subset_by_enumeration(
+    items: &[(f64, Value)],
+    capacity: f64,
+    keep_accuracy: bool,
+    accuracy_so_far: f64,
+) -> Option<(f64, f64, Vec<usize>)> {
+    let mut best: Option<(f64, f64, Vec<usize>)> = None;
+    for mask in 0u64..(1u64 << items.len()) {
+        let chosen: Vec<usize> = (0..items.len()).filter(|&i| mask >> i & 1 == 1).collect();
+        let cost: f64 = chosen.iter().map(|&i| items[i].0).sum();
+        if cost > capacity + 1e-9 {
+            continue;
+        }
+        let accuracy: f64 =
+            accuracy_so_far + chosen.iter().map(|&i| items[i].1.accuracy).sum::<f64>();
+        if keep_accuracy && accuracy < -1e-12 {
+            continue;
+        }
+        let score: f64 = chosen.iter().map(|&i| items[i].1.score).sum();
+        let better = match &best {
+            None => true,
+            Some((c, s, _)) => score > s + 1e-12 || ((score - s).abs() <= 1e-12 && cost < c - 1e-9),
+        };
+        if better {
+            best = Some((cost, score, chosen));
+        }
+    }
+    best
+}
+
+/// Points of the budget frontier.
+pub const FRONTIER_POINTS: usize = 24;
+
+/// Runs `acquest plan`: the appraisal, then the best plan for the budget and the frontier.
+pub fn run(
+    settings: &crate::settings::Settings,
+    appraisal: &crate::appraise::AppraisalSettings,
+    rules: &PlanRules,
+    progress: crate::trial::ProgressSink,
+) -> Result<crate::report::PlanReport> {
+    let (report, options) = crate::appraise::run_with_options(settings, appraisal, progress)?;
+    let problem = Problem::new(&report, &options, rules.cautious)?;
+    let plan = problem.solve(rules);
+    let explanation = if !plan.items.is_empty() {
+        None
+    } else {
+        Some(match problem.cheapest() {
+            Some(cheapest) if cheapest > rules.budget => format!(
+                "the budget of {:.0} is below the cheapest purchase on offer ({cheapest:.0}): nothing can be bought",
+                rules.budget
+            ),
+            _ => "no purchase within the budget is expected to raise the utility (every option's estimated utility is zero or negative, or breaks a floor)".to_string(),
+        })
+    };
+    let mut warnings = report.warnings.clone();
+    warnings.push(
+        "the plan adds the options' estimated gains; options bought together were not yet re-scored jointly, and gains need not add".into(),
+    );
+    Ok(crate::report::PlanReport {
+        format: crate::report::FORMAT.into(),
+        format_version: crate::report::FORMAT_VERSION,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
+        command: "plan".into(),
+        rules: *rules,
+        gain_model: "sum of the options' gains; a feature bought with rows of any case is read at the plan's row count and paid for on the new rows too".into(),
+        frontier: frontier(&problem, rules, FRONTIER_POINTS),
+        plan,
+        explanation,
+        cautions: report.cautions.clone(),
+        appraisal: report,
+        warnings,
+    })
+}
+
+/// One point of the budget frontier.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FrontierPoint {
+    pub budget: f64,
+    pub plan: Plan,
+}
+
+/// The best plan at budgets from the cheapest purchase to everything (log-spaced, `points` of
+/// them).
+pub fn frontier(problem: &Problem, rules: &PlanRules, points: usize) -> Vec<FrontierPoint> {
+    let (Some(low), high) = (problem.cheapest(), problem.everything()) else {
+        return Vec::new();
+    };
+    let low = low.max(1e-6);
+    let high = high.max(low);
+    (0..points)
+        .map(|k| {
+            let t = if points > 1 {
+                k as f64 / (points - 1) as f64
+            } else {
+                1.0
+            };
+            let budget = low * (high / low).powf(t);
+            FrontierPoint {
+                budget,
+                plan: problem.solve(&PlanRules { budget, ..*rules }),
+            }
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::Rng;
+
+    fn value(score: f64) -> Value {
+        Value {
+            accuracy: score / 2.0,
+            fairness: score / 2.0,
+            score,
+        }
+    }
+
+    /// A random small problem: up to 2 rows options with up to 3 steps, up to 5 features.
+    fn random_problem(rng: &mut impl Rng) -> Problem {
+        let rows = (0..rng.gen_range(0..3))
+            .map(|r| {
+                let mut choices = vec![(0, 0.0, value(0.0))];
+                let step = rng.gen_range(50..500);
+                let per_row = rng.gen_range(0.5..5.0);
+                let fixed = rng.gen_range(0.0..500.0);
+                for k in 1..=rng.gen_range(1..4) {
+                    choices.push((
+                        k * step,
+                        fixed + per_row * (k * step) as f64,
+                        value(rng.gen_range(-0.01..0.03)),
+                    ));
+                }
+                RowsChoices {
+                    name: format!("r{r}"),
+                    kind: "rows".into(),
+                    any_case: r == 0,
+                    choices,
+                }
+            })
+            .collect();
+        let features = (0..rng.gen_range(0..6))
+            .map(|f| FeatureChoice {
+                name: format!("f{f}"),
+                fixed: rng.gen_range(0.0..2000.0),
+                per_row: rng.gen_range(0.0..2.0),
+                by_rows: vec![
+                    (0, value(rng.gen_range(-0.02..0.06))),
+                    (1000, value(rng.gen_range(-0.02..0.06))),
+                ],
+            })
+            .collect();
+        Problem {
+            rows,
+            features,
+            rows_held: 1000,
+        }
+    }
+
+    #[test]
+    fn the_solver_agrees_with_brute_force_on_random_small_problems() {
+        let mut rng = crate::trial::stream_rng(42, 700, 0);
+        for case in 0..500 {
+            let problem = random_problem(&mut rng);
+            let rules = PlanRules {
+                budget: rng.gen_range(0.0..8000.0),
+                cautious: false,
+                keep_accuracy: false,
+            };
+            let fast = problem.solve(&rules);
+            let slow = problem.solve_by_brute_force(&rules);
+            assert!(
+                (fast.score - slow.score).abs() < 1e-9,
+                "case {case}: {} vs {}",
+                fast.score,
+                slow.score
+            );
+            assert!(fast.total_cost <= rules.budget + 1e-6, "case {case}");
+        }
+    }
+
+    #[test]
+    fn a_budget_below_the_cheapest_option_buys_nothing() {
+        let problem = Problem {
+            rows: Vec::new(),
+            features: vec![FeatureChoice {
+                name: "f".into(),
+                fixed: 100.0,
+                per_row: 1.0,
+                by_rows: vec![(0, value(0.05))],
+            }],
+            rows_held: 1000,
+        };
+        assert_eq!(problem.cheapest(), Some(1100.0));
+        let plan = problem.solve(&PlanRules {
+            budget: 1000.0,
+            cautious: false,
+            keep_accuracy: false,
+        });
+        assert!(plan.items.is_empty());
+        let plan = problem.solve(&PlanRules {
+            budget: 1100.0,
+            cautious: false,
+            keep_accuracy: false,
+        });
+        assert_eq!(plan.items.len(), 1);
+    }
+
+    #[test]
+    fn a_feature_bought_with_rows_is_paid_for_on_the_new_rows() {
+        // Worked by hand (SPEC 2.2): feature 100 + 1 × (1,000 held + 500 new) = 1,600; rows
+        // 500 × 2 = 1,000; total 2,600.
+        let problem = Problem {
+            rows: vec![RowsChoices {
+                name: "r".into(),
+                kind: "rows".into(),
+                any_case: true,
+                choices: vec![(0, 0.0, value(0.0)), (500, 1000.0, value(0.01))],
+            }],
+            features: vec![FeatureChoice {
+                name: "f".into(),
+                fixed: 100.0,
+                per_row: 1.0,
+                by_rows: vec![(0, value(0.05)), (500, value(0.06))],
+            }],
+            rows_held: 1000,
+        };
+        let plan = problem.solve(&PlanRules {
+            budget: 10_000.0,
+            cautious: false,
+            keep_accuracy: false,
+        });
+        assert_eq!(plan.total_cost, 2_600.0);
+        assert!((plan.score - 0.07).abs() < 1e-12);
+    }
+}
