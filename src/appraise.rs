@@ -355,7 +355,15 @@ pub fn run_with_options(
             stage: "learning curves",
             smallest: None,
         },
-        &|_| Vec::new(),
+        &|training| {
+            // Read the curves (for charts) up to the largest rows purchase on offer.
+            let most: usize = options
+                .iter()
+                .filter(|o| matches!(o.acquisition, Acquisition::Rows { .. }))
+                .filter_map(|o| o.max_rows)
+                .sum();
+            vec![training as f64 * (rows + most) as f64 / rows as f64]
+        },
         progress,
     )?;
     warnings.extend(main.warnings.iter().cloned());
@@ -498,6 +506,8 @@ pub fn run_with_options(
             },
             worst_group: data.group_list[worst].name.clone(),
         },
+        curves: main.fitted.curves.clone(),
+        disparities: main.fitted.disparities.clone(),
         schedule: main.schedule,
         options: values,
         ranking,

@@ -41,6 +41,8 @@ enum Command {
     Plan(Box<PlanArgs>),
     /// Write the invented demo scenario to a folder and run it.
     Demo(DemoArgs),
+    /// Render a saved plan report (JSON) as Markdown or HTML.
+    Render(RenderArgs),
 }
 
 #[derive(Args)]
@@ -59,6 +61,21 @@ struct PlanArgs {
     /// Write the plan as Markdown to FILE, to paste into a proposal.
     #[arg(long, value_name = "FILE")]
     markdown: Option<PathBuf>,
+    /// Write the plan as one self-contained HTML file with charts.
+    #[arg(long, value_name = "FILE")]
+    html: Option<PathBuf>,
+}
+
+#[derive(Args)]
+struct RenderArgs {
+    /// A JSON report written by `acquest plan --json` (or by the demo).
+    report: PathBuf,
+    /// Write it as Markdown to FILE.
+    #[arg(long, value_name = "FILE")]
+    markdown: Option<PathBuf>,
+    /// Write it as self-contained HTML to FILE.
+    #[arg(long, value_name = "FILE")]
+    html: Option<PathBuf>,
 }
 
 #[derive(Args)]
@@ -301,12 +318,45 @@ impl AppraiseArgs {
     }
 }
 
+/// Documents to write beside the JSON report.
+struct Documents {
+    markdown: Option<PathBuf>,
+    html: Option<PathBuf>,
+}
+
+impl Documents {
+    fn write(
+        &self,
+        report: &acquest::report::PlanReport,
+        output: &OutputArgs,
+    ) -> anyhow::Result<()> {
+        if let Some(path) = &self.markdown {
+            std::fs::write(path, render::plan_markdown(report)).with_context(|| {
+                format!("cannot write the Markdown report to {}", path.display())
+            })?;
+            status(
+                output,
+                &format!("Markdown report written to {}", path.display()),
+            );
+        }
+        if let Some(path) = &self.html {
+            std::fs::write(path, render::html::plan_html(report))
+                .with_context(|| format!("cannot write the HTML report to {}", path.display()))?;
+            status(
+                output,
+                &format!("HTML report written to {}", path.display()),
+            );
+        }
+        Ok(())
+    }
+}
+
 fn run_plan(
     choices: Choices,
     budget: Option<f64>,
     cautious: bool,
     keep_accuracy: bool,
-    markdown: Option<&Path>,
+    documents: &Documents,
     output: &OutputArgs,
 ) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
@@ -334,18 +384,8 @@ fn run_plan(
     };
     let report = plan::run(&settings, &appraisal, &rules, &show)?;
     bar.finish_and_clear();
-    if let Some(path) = markdown {
-        std::fs::write(path, render::plan_markdown(&report))
-            .with_context(|| format!("cannot write the Markdown report to {}", path.display()))?;
-    }
     write_outputs(&report, render::plan_text(&report), output)?;
-    if let Some(path) = markdown {
-        status(
-            output,
-            &format!("Markdown report written to {}", path.display()),
-        );
-    }
-    Ok(())
+    documents.write(&report, output)
 }
 
 fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
@@ -438,8 +478,40 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 args.budget,
                 args.cautious,
                 args.keep_accuracy,
-                args.markdown.as_deref(),
+                &Documents {
+                    markdown: args.markdown,
+                    html: args.html,
+                },
                 &output,
+            )
+        }
+        Command::Render(args) => {
+            let text = std::fs::read_to_string(&args.report).map_err(|e| acquest::Error::File {
+                path: args.report.clone(),
+                reason: e.to_string(),
+            })?;
+            let report: acquest::report::PlanReport =
+                serde_json::from_str(&text).map_err(|e| acquest::Error::Format {
+                    path: args.report.clone(),
+                    reason: format!("not a plan report written by `acquest plan --json`: {e}"),
+                })?;
+            if args.markdown.is_none() && args.html.is_none() {
+                return Err(acquest::Error::setting(
+                    "--markdown",
+                    "name --markdown FILE or --html FILE (or both)",
+                )
+                .into());
+            }
+            let documents = Documents {
+                markdown: args.markdown,
+                html: args.html,
+            };
+            documents.write(
+                &report,
+                &OutputArgs {
+                    json: None,
+                    quiet: true,
+                },
             )
         }
         Command::Demo(args) => {
@@ -474,8 +546,11 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 None,
                 false,
                 false,
-                Some(&folder.join("plan.md")),
-                &output("plan.json"),
+                &Documents {
+                    markdown: Some(folder.join("report.md")),
+                    html: Some(folder.join("report.html")),
+                },
+                &output("report.json"),
             )
         }
     }

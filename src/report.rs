@@ -322,6 +322,9 @@ pub struct AppraisalReport {
     pub today: Today,
     /// The learning-curve schedule on all rows behind the rows options.
     pub schedule: CurveSchedule,
+    /// Today's learning curves (as in `curves`), read up to the largest rows purchase.
+    pub curves: Vec<CurveRecord>,
+    pub disparities: Vec<DisparityCurve>,
     /// Every option of the cost sheet, valued, in the sheet's order.
     pub options: Vec<OptionValue>,
     /// Options ranked by utility per unit of cost, and by the lower end of its interval.

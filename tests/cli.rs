@@ -1234,3 +1234,61 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
     assert!(poor.plan.items.is_empty());
     assert!(poor.explanation.unwrap().contains("below the cheapest"));
 }
+
+/// Loads the demo's HTML report in headless Chromium (Debian's package, installed by .ci/run)
+/// and checks that the browser built the charts. Skipped with a message where Chromium is
+/// absent outside CI; under CI its absence is a failure.
+#[test]
+fn html_report_renders_its_charts_in_a_real_browser() {
+    let chromium = ["/usr/bin/chromium", "/usr/bin/chromium-browser"]
+        .into_iter()
+        .find(|p| Path::new(p).exists());
+    let Some(chromium) = chromium else {
+        assert!(
+            std::env::var_os("CI").is_none(),
+            "CI must install chromium (see .ci/run)"
+        );
+        eprintln!("skipped: no chromium on this machine");
+        return;
+    };
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("demo");
+    acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .assert()
+        .success();
+    let html = out.join("report.html");
+    let profile = dir.path().join("profile");
+    let output = std::process::Command::new(chromium)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+        ])
+        .arg(format!("--user-data-dir={}", profile.display()))
+        .arg("--dump-dom")
+        .arg(format!("file://{}", html.display()))
+        .output()
+        .unwrap();
+    let dom = String::from_utf8_lossy(&output.stdout);
+    // The recommendation, the frontier, two option charts and the learning curves.
+    assert!(
+        dom.matches("<svg").count() >= 4,
+        "{}",
+        &dom[..dom.len().min(500)]
+    );
+    assert!(dom.contains("id=\"frontier\"") && dom.contains("class=\"chosen\""));
+    assert!(dom.contains("id=\"plan\"") && dom.contains("id=\"options\""));
+    assert!(dom.contains("polyline") && dom.contains("Cautions"));
+    for file in ["report.json", "report.md", "curves.svg", "baseline.json"] {
+        assert!(out.join(file).exists(), "{file}");
+    }
+}

@@ -1,6 +1,7 @@
 //! Renderers: each turns a report into one output format (terminal text, JSON) and computes
 //! nothing of its own.
 
+pub mod html;
 pub mod svg;
 
 use std::fmt::Write as _;

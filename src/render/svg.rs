@@ -3,7 +3,10 @@
 
 use std::fmt::Write as _;
 
-use crate::report::{AnchorPoint, CurvePoint, CurvesReport};
+use crate::report::{
+    AnchorPoint, CurvePoint, CurveRecord, CurveSchedule, CurvesReport, DisparityCurve,
+    GroupSummary, Inputs, ReferenceGroup,
+};
 
 const PALETTE: [&str; 6] = [
     "#1f5fa8", "#c8553d", "#2a9d8f", "#8e6bbf", "#b08d1a", "#555555",
@@ -305,6 +308,29 @@ fn format_tick(y: f64, step: f64) -> String {
 /// The learning curves of a report as one SVG document: accuracy, each rate by group, and the
 /// statistical parity and equal opportunity differences against the labels' own level.
 pub fn curves_svg(report: &CurvesReport) -> String {
+    curve_chart(&CurveSet {
+        inputs: &report.inputs,
+        schedule: &report.schedule,
+        groups: &report.groups,
+        reference: &report.reference,
+        curves: &report.curves,
+        disparities: &report.disparities,
+    })
+}
+
+/// What a learning-curve chart is drawn from (a curves report, or the curves inside a plan).
+pub struct CurveSet<'a> {
+    pub inputs: &'a Inputs,
+    pub schedule: &'a CurveSchedule,
+    pub groups: &'a [GroupSummary],
+    pub reference: &'a ReferenceGroup,
+    pub curves: &'a [CurveRecord],
+    pub disparities: &'a [DisparityCurve],
+}
+
+/// The learning-curve chart of a [`CurveSet`].
+pub fn curve_chart(set: &CurveSet) -> String {
+    let report = set;
     let colour_of = |group: Option<&str>| {
         group
             .and_then(|g| report.groups.iter().position(|x| x.name == g))

@@ -1,0 +1,397 @@
+//! The plan report as one self-contained HTML file with SVG charts: the recommendation, the
+//! options with their intervals, the budget frontier with the chosen plan marked, and the
+//! learning curves with each group's rates. Drawn from the report only.
+
+use std::fmt::Write as _;
+
+use super::svg::{curve_chart, CurveSet};
+use super::{change_cell, money, thousands};
+use crate::report::{Change, PlanReport};
+
+fn escape(text: &str) -> String {
+    text.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
+/// Dot-and-whisker chart of one gain for every option, ranked as in the report.
+fn options_chart(title: &str, rows: &[(String, Change)]) -> String {
+    let (width, row_height, left, right, top) = (460.0, 26.0, 190.0, 20.0, 40.0);
+    let height = top + row_height * rows.len() as f64 + 40.0;
+    let values: Vec<f64> = rows
+        .iter()
+        .flat_map(|(_, c)| {
+            [
+                c.mean,
+                c.low.unwrap_or(c.mean),
+                c.high.unwrap_or(c.mean),
+                0.0,
+            ]
+        })
+        .collect();
+    let mut low = values.iter().copied().fold(f64::INFINITY, f64::min);
+    let mut high = values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if high - low < 1e-6 {
+        low -= 0.01;
+        high += 0.01;
+    }
+    let pad = (high - low) * 0.08;
+    let (low, high) = (low - pad, high + pad);
+    let x = |v: f64| left + (v - low) / (high - low) * (width - left - right);
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        r#"<svg xmlns="http://www.w3.org/2000/svg" class="chart" width="{width:.0}" height="{height:.0}" viewBox="0 0 {width:.0} {height:.0}">"#
+    );
+    let _ = writeln!(
+        out,
+        r#"<text x="10" y="22" class="title">{}</text>"#,
+        escape(title)
+    );
+    let zero = x(0.0);
+    let bottom = top + row_height * rows.len() as f64;
+    let _ = writeln!(
+        out,
+        r##"<line x1="{zero:.1}" y1="{top:.1}" x2="{zero:.1}" y2="{bottom:.1}" stroke="#888" stroke-dasharray="3 3"/>"##
+    );
+    for (i, (name, c)) in rows.iter().enumerate() {
+        let y = top + row_height * (i as f64 + 0.5);
+        let _ = writeln!(
+            out,
+            r#"<text x="{:.1}" y="{:.1}" class="label" text-anchor="end">{}</text>"#,
+            left - 8.0,
+            y + 4.0,
+            escape(name)
+        );
+        if let (Some(l), Some(h)) = (c.low, c.high) {
+            let _ = writeln!(
+                out,
+                r##"<line x1="{:.1}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#1f5fa8" stroke-width="2"/>"##,
+                x(l),
+                x(h)
+            );
+        }
+        let _ = writeln!(
+            out,
+            r##"<circle cx="{:.1}" cy="{y:.1}" r="4" fill="#1f5fa8"/>"##,
+            x(c.mean)
+        );
+    }
+    let _ = writeln!(
+        out,
+        r#"<text x="{:.1}" y="{:.1}" class="tick" text-anchor="middle">{:+.3}</text>"#,
+        x(low),
+        bottom + 16.0,
+        low
+    );
+    let _ = writeln!(
+        out,
+        r#"<text x="{zero:.1}" y="{:.1}" class="tick" text-anchor="middle">0</text>"#,
+        bottom + 16.0
+    );
+    let _ = writeln!(
+        out,
+        r#"<text x="{:.1}" y="{:.1}" class="tick" text-anchor="middle">{:+.3}</text>"#,
+        x(high),
+        bottom + 16.0,
+        high
+    );
+    out.push_str("</svg>\n");
+    out
+}
+
+/// The budget frontier: best plan's accuracy gain and unfairness reduction against its cost,
+/// the chosen plan ringed.
+fn frontier_chart(report: &PlanReport) -> String {
+    let (width, height, left, right, top, bottom) = (700.0, 300.0, 70.0, 20.0, 40.0, 50.0);
+    let points: Vec<(f64, f64, f64)> = report
+        .frontier
+        .iter()
+        .map(|p| {
+            (
+                p.plan.total_cost,
+                p.plan.accuracy_gain,
+                p.plan.unfairness_reduction,
+            )
+        })
+        .chain(std::iter::once((
+            report.plan.total_cost,
+            report.plan.accuracy_gain,
+            report.plan.unfairness_reduction,
+        )))
+        .collect();
+    let max_cost = points.iter().map(|p| p.0).fold(1.0, f64::max);
+    let ys: Vec<f64> = points.iter().flat_map(|p| [p.1, p.2, 0.0]).collect();
+    let mut low = ys.iter().copied().fold(f64::INFINITY, f64::min);
+    let mut high = ys.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if high - low < 1e-6 {
+        low -= 0.01;
+        high += 0.01;
+    }
+    let pad = (high - low) * 0.08;
+    let (low, high) = (low - pad, high + pad);
+    let px = |c: f64| left + c / max_cost * (width - left - right);
+    let py = |v: f64| top + (high - v) / (high - low) * (height - top - bottom);
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        r#"<svg xmlns="http://www.w3.org/2000/svg" class="chart" id="frontier" width="{width:.0}" height="{height:.0}" viewBox="0 0 {width:.0} {height:.0}">"#
+    );
+    let _ = writeln!(
+        out,
+        r#"<text x="10" y="22" class="title">Best plan at each budget: gains against cost</text>"#
+    );
+    let _ = writeln!(
+        out,
+        r##"<rect x="{left}" y="{top}" width="{:.1}" height="{:.1}" fill="#fff" stroke="#999"/>"##,
+        width - left - right,
+        height - top - bottom
+    );
+    let _ = writeln!(
+        out,
+        r##"<line x1="{left}" y1="{:.1}" x2="{:.1}" y2="{:.1}" stroke="#888" stroke-dasharray="3 3"/>"##,
+        py(0.0),
+        width - right,
+        py(0.0)
+    );
+    let mut frontier: Vec<(f64, f64, f64)> = report
+        .frontier
+        .iter()
+        .map(|p| {
+            (
+                p.plan.total_cost,
+                p.plan.accuracy_gain,
+                p.plan.unfairness_reduction,
+            )
+        })
+        .collect();
+    frontier.sort_by(|a, b| a.0.total_cmp(&b.0));
+    frontier.dedup_by(|a, b| (a.0 - b.0).abs() < 1e-9);
+    for (k, (colour, name)) in [
+        ("#1f5fa8", "accuracy gain"),
+        ("#c8553d", "unfairness reduction"),
+    ]
+    .iter()
+    .enumerate()
+    {
+        let path: Vec<String> = frontier
+            .iter()
+            .map(|p| format!("{:.1},{:.1}", px(p.0), py(if k == 0 { p.1 } else { p.2 })))
+            .collect();
+        let _ = writeln!(
+            out,
+            r#"<polyline points="{}" fill="none" stroke="{colour}" stroke-width="2"/>"#,
+            path.join(" ")
+        );
+        for p in &frontier {
+            let _ = writeln!(
+                out,
+                r#"<circle cx="{:.1}" cy="{:.1}" r="3" fill="{colour}"/>"#,
+                px(p.0),
+                py(if k == 0 { p.1 } else { p.2 })
+            );
+        }
+        let _ = writeln!(
+            out,
+            r#"<line x1="{:.1}" y1="{:.1}" x2="{:.1}" y2="{:.1}" stroke="{colour}" stroke-width="2"/><text x="{:.1}" y="{:.1}" class="label">{name}</text>"#,
+            left + 10.0 + 180.0 * k as f64,
+            top - 10.0,
+            left + 28.0 + 180.0 * k as f64,
+            top - 10.0,
+            left + 33.0 + 180.0 * k as f64,
+            top - 6.0
+        );
+    }
+    let chosen = &report.plan;
+    for value in [chosen.accuracy_gain, chosen.unfairness_reduction] {
+        let _ = writeln!(
+            out,
+            r##"<circle cx="{:.1}" cy="{:.1}" r="8" fill="none" stroke="#222" stroke-width="2" class="chosen"/>"##,
+            px(chosen.total_cost),
+            py(value)
+        );
+    }
+    let _ = writeln!(
+        out,
+        r#"<text x="{:.1}" y="{:.1}" class="label">chosen plan ({})</text>"#,
+        px(chosen.total_cost) + 10.0,
+        py(chosen.accuracy_gain.max(chosen.unfairness_reduction)) - 10.0,
+        money(chosen.total_cost)
+    );
+    for k in 0..=4 {
+        let c = max_cost * k as f64 / 4.0;
+        let _ = writeln!(
+            out,
+            r#"<text x="{:.1}" y="{:.1}" class="tick" text-anchor="middle">{}</text>"#,
+            px(c),
+            height - bottom + 16.0,
+            money(c)
+        );
+    }
+    let _ = writeln!(
+        out,
+        r#"<text x="{:.1}" y="{:.1}" class="tick" text-anchor="end">{:+.3}</text><text x="{:.1}" y="{:.1}" class="tick" text-anchor="end">{:+.3}</text>"#,
+        left - 5.0,
+        py(high) + 10.0,
+        high,
+        left - 5.0,
+        py(low),
+        low
+    );
+    let _ = writeln!(
+        out,
+        r#"<text x="{:.1}" y="{:.1}" class="label" text-anchor="middle">cost of the plan ({})</text>"#,
+        left + (width - left - right) / 2.0,
+        height - 10.0,
+        escape(&report.appraisal.costs.currency)
+    );
+    out.push_str("</svg>\n");
+    out
+}
+
+/// The plan report as one self-contained HTML page.
+pub fn plan_html(report: &PlanReport) -> String {
+    let a = &report.appraisal;
+    let confidence = a.inputs.confidence;
+    let currency = escape(&a.costs.currency);
+    let mut out = String::new();
+    out.push_str("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n");
+    let _ = writeln!(
+        out,
+        "<title>acquest plan: {}</title>",
+        escape(&a.inputs.data.path)
+    );
+    out.push_str(
+        "<style>body{font-family:Helvetica,Arial,sans-serif;margin:2em auto;max-width:980px;color:#222}\
+         table{border-collapse:collapse;margin:1em 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:left;font-size:13px}\
+         th{background:#f2f2f2}.chart{display:block;margin:1em 0;background:#fafafa}.title{font-size:14px;font-weight:bold}\
+         .label{font-size:12px}.tick{font-size:10px;fill:#444}.caution{background:#fff7e6;border-left:4px solid #e0a030;padding:.5em 1em}\
+         .charts{display:flex;flex-wrap:wrap;gap:10px}</style>\n</head>\n<body>\n",
+    );
+    let _ = writeln!(out, "<h1>Data acquisition plan</h1>");
+    let _ = writeln!(
+        out,
+        "<p>Data <code>{}</code> ({} rows, sha256 <code>{}</code>), target <code>{}</code> (favourable: {}), protected attribute <code>{}</code>; cost sheet <code>{}</code>. Model {}, {} repeated trials, seed {}; acquest {}.</p>",
+        escape(&a.inputs.data.path),
+        thousands(a.today.rows),
+        escape(&a.inputs.data.sha256),
+        escape(&a.inputs.target),
+        escape(&a.inputs.favourable),
+        escape(&a.inputs.protected),
+        escape(&a.costs.path),
+        escape(&a.inputs.model),
+        a.inputs.repeats,
+        a.inputs.seed,
+        escape(&report.tool_version)
+    );
+    let _ = writeln!(out, "<h2>Recommendation</h2>");
+    match &report.explanation {
+        Some(why) => {
+            let _ = writeln!(
+                out,
+                "<p>With a budget of {} {currency}, buy nothing: {}.</p>",
+                money(report.rules.budget),
+                escape(why)
+            );
+        }
+        None => {
+            let _ = writeln!(out, "<p>With a budget of {} {currency}:</p>\n<table id=\"plan\"><tr><th>buy</th><th>rows</th><th>cost ({currency})</th><th>accuracy gain</th><th>unfairness reduction</th></tr>", money(report.rules.budget));
+            for i in &report.plan.items {
+                let _ = writeln!(
+                    out,
+                    "<tr><td>{}</td><td>{}</td><td>{}</td><td>{:+.4}</td><td>{:+.4}</td></tr>",
+                    escape(&i.option),
+                    if i.kind == "feature" {
+                        "all rows held".to_string()
+                    } else {
+                        thousands(i.new_rows)
+                    },
+                    money(i.cost),
+                    i.accuracy_gain,
+                    i.unfairness_reduction
+                );
+            }
+            let p = &report.plan;
+            let _ = writeln!(
+                out,
+                "<tr><th>total</th><th></th><th>{}</th><th>{:+.4}</th><th>{:+.4}</th></tr></table>",
+                money(p.total_cost),
+                p.accuracy_gain,
+                p.unfairness_reduction
+            );
+        }
+    }
+    let _ = writeln!(
+        out,
+        "<p>Today: accuracy {:.4}; unfairness ({} of '{}' against '{}') {:.4}. Gains: {}.</p>",
+        a.today.accuracy,
+        escape(&a.costs.fairness.to_uppercase()),
+        escape(&a.today.worst_group),
+        escape(&a.reference.name),
+        a.today.unfairness,
+        escape(&report.gain_model)
+    );
+    out.push_str(&frontier_chart(report));
+
+    let _ = writeln!(out, "<h2>Options considered</h2>");
+    let _ = writeln!(out, "<table id=\"options\"><tr><th>rank</th><th>option</th><th>cost ({currency})</th><th>accuracy gain</th><th>unfairness reduction</th><th>utility per 1,000</th><th>notes</th></tr>");
+    let mut ranked = Vec::new();
+    for r in &a.ranking {
+        let Some(o) = a.options.iter().find(|o| o.name == r.name) else {
+            continue;
+        };
+        ranked.push(o);
+        let _ = writeln!(
+            out,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{:+.5}</td><td>{}</td></tr>",
+            r.rank,
+            escape(&o.name),
+            money(o.estimate.cost),
+            change_cell(&o.estimate.accuracy_gain, confidence),
+            change_cell(&o.estimate.unfairness_reduction, confidence),
+            r.utility_per_1000,
+            escape(&o.flags.join("; "))
+        );
+    }
+    out.push_str("</table>\n<div class=\"charts\">\n");
+    let level = (confidence * 100.0).round();
+    out.push_str(&options_chart(
+        &format!("Accuracy gain ({level}% interval)"),
+        &ranked
+            .iter()
+            .map(|o| (o.name.clone(), o.estimate.accuracy_gain.clone()))
+            .collect::<Vec<_>>(),
+    ));
+    out.push_str(&options_chart(
+        &format!("Unfairness reduction ({level}% interval)"),
+        &ranked
+            .iter()
+            .map(|o| (o.name.clone(), o.estimate.unfairness_reduction.clone()))
+            .collect::<Vec<_>>(),
+    ));
+    out.push_str("</div>\n");
+
+    let _ = writeln!(out, "<h2>Learning curves and each group's rates</h2>");
+    out.push_str(&curve_chart(&CurveSet {
+        inputs: &a.inputs,
+        schedule: &a.schedule,
+        groups: &a.groups,
+        reference: &a.reference,
+        curves: &a.curves,
+        disparities: &a.disparities,
+    }));
+    if !report.warnings.is_empty() {
+        let _ = writeln!(out, "<h2>Warnings</h2>\n<ul>");
+        for w in &report.warnings {
+            let _ = writeln!(out, "<li>{}</li>", escape(w));
+        }
+        out.push_str("</ul>\n");
+    }
+    let _ = writeln!(out, "<h2>Cautions</h2>\n<div class=\"caution\"><ul>");
+    for c in &report.cautions {
+        let _ = writeln!(out, "<li>{}</li>", escape(c));
+    }
+    out.push_str("</ul></div>\n</body>\n</html>\n");
+    out
+}
