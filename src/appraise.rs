@@ -505,6 +505,9 @@ pub fn run_with_options(
                 0.0
             },
             worst_group: data.group_list[worst].name.clone(),
+            selection_rates: (0..data.group_list.len())
+                .map(|g| rates_of(&now.point, g)[0])
+                .collect(),
         },
         curves: main.fitted.curves.clone(),
         disparities: main.fitted.disparities.clone(),

@@ -58,6 +58,10 @@ struct PlanArgs {
     /// Only plans whose accuracy gain is not negative.
     #[arg(long)]
     keep_accuracy: bool,
+    /// Only plans after which no group's predicted selection rate is below four-fifths of the
+    /// highest group's.
+    #[arg(long)]
+    no_adverse_impact: bool,
     /// Write the plan as Markdown to FILE, to paste into a proposal.
     #[arg(long, value_name = "FILE")]
     markdown: Option<PathBuf>,
@@ -356,6 +360,7 @@ fn run_plan(
     budget: Option<f64>,
     cautious: bool,
     keep_accuracy: bool,
+    no_adverse_impact: bool,
     documents: &Documents,
     output: &OutputArgs,
 ) -> anyhow::Result<()> {
@@ -375,6 +380,7 @@ fn run_plan(
         budget,
         cautious,
         keep_accuracy,
+        no_adverse_impact,
     };
     let bar = progress_bar(output.quiet);
     let show = |p: Progress| {
@@ -478,6 +484,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 args.budget,
                 args.cautious,
                 args.keep_accuracy,
+                args.no_adverse_impact,
                 &Documents {
                     markdown: args.markdown,
                     html: args.html,
@@ -544,6 +551,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             run_plan(
                 choices,
                 None,
+                false,
                 false,
                 false,
                 &Documents {

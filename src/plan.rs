@@ -16,6 +16,10 @@ pub struct PlanRules {
     pub cautious: bool,
     /// The plan's accuracy gain may not be negative.
     pub keep_accuracy: bool,
+    /// No group may fall below four-fifths of the highest group's predicted selection rate
+    /// after the plan (today's rates plus the options' estimated changes).
+    #[serde(default)]
+    pub no_adverse_impact: bool,
 }
 
 /// One choice within a plan.
@@ -80,6 +84,8 @@ struct RowsChoices {
     kind: String,
     any_case: bool,
     choices: Vec<(usize, f64, Value)>,
+    /// Each group's change in selection rate, per choice.
+    selection: Vec<Vec<f64>>,
 }
 
 /// A feature option: its cost rule and its value as a function of new rows of any case.
@@ -89,11 +95,23 @@ struct FeatureChoice {
     per_row: f64,
     /// (new rows of any case, value), sorted by rows; read by linear interpolation.
     by_rows: Vec<(usize, Value)>,
+    /// Each group's change in selection rate, at the same rows as `by_rows`.
+    selection: Vec<Vec<f64>>,
 }
 
 impl FeatureChoice {
     fn cost(&self, rows_held: usize, new_rows: usize) -> f64 {
         self.fixed + self.per_row * (rows_held + new_rows) as f64
+    }
+
+    /// Each group's change in selection rate at `new_rows_any` (the nearest point at or below).
+    fn selection_at(&self, new_rows_any: usize) -> Vec<f64> {
+        let at = self
+            .by_rows
+            .iter()
+            .rposition(|p| p.0 <= new_rows_any)
+            .unwrap_or(0);
+        self.selection.get(at).cloned().unwrap_or_default()
     }
 
     fn value(&self, new_rows_any: usize) -> Value {
@@ -129,6 +147,18 @@ pub struct Problem {
     rows: Vec<RowsChoices>,
     features: Vec<FeatureChoice>,
     rows_held: usize,
+    /// Today's predicted selection rate of each group.
+    today_selection: Vec<f64>,
+}
+
+/// Whether every group's selection rate is at least four-fifths of the highest (29 CFR
+/// 1607.4(D): adverse impact only when strictly below).
+fn four_fifths_hold(rates: &[f64]) -> bool {
+    let top = rates.iter().copied().fold(0.0, f64::max);
+    top <= 0.0
+        || rates
+            .iter()
+            .all(|&r| r / top >= crate::metrics::FOUR_FIFTHS)
 }
 
 /// Combinations of rows steps the solver will enumerate, at most.
@@ -149,20 +179,19 @@ impl Problem {
                     rows.push(rows_choices(value, filter.is_none(), cautious))
                 }
                 Acquisition::Feature { .. } => {
-                    let mut by_rows = vec![(0, value_of(&value.estimate, cautious))];
-                    by_rows.extend(
-                        value
-                            .steps
-                            .iter()
-                            .map(|s| (s.new_rows, value_of(s, cautious))),
-                    );
-                    by_rows.sort_by_key(|p| p.0);
-                    by_rows.dedup_by_key(|p| p.0);
+                    let mut points: Vec<&Purchase> = vec![&value.estimate];
+                    points.extend(value.steps.iter());
+                    points.sort_by_key(|p| p.new_rows);
+                    points.dedup_by_key(|p| p.new_rows);
                     features.push(FeatureChoice {
                         name: value.name.clone(),
                         fixed: option.fixed,
                         per_row: option.per_row,
-                        by_rows,
+                        by_rows: points
+                            .iter()
+                            .map(|p| (p.new_rows, value_of(p, cautious)))
+                            .collect(),
+                        selection: points.iter().map(|p| selection_changes(p)).collect(),
                     });
                 }
             }
@@ -177,6 +206,7 @@ impl Problem {
             rows,
             features,
             rows_held: report.today.rows,
+            today_selection: report.today.selection_rates.clone(),
         })
     }
 
@@ -227,6 +257,7 @@ impl Problem {
         let mut picks = vec![0usize; self.rows.len()];
         loop {
             let (mut cost, mut new_rows, mut any_rows) = (0.0, 0usize, 0usize);
+            let mut selection = self.today_selection.clone();
             let mut value = Value {
                 accuracy: 0.0,
                 fairness: 0.0,
@@ -234,6 +265,12 @@ impl Problem {
             };
             for (r, &k) in self.rows.iter().zip(&picks) {
                 let (n, c, v) = r.choices[k];
+                for (rate, change) in selection
+                    .iter_mut()
+                    .zip(r.selection.get(k).into_iter().flatten())
+                {
+                    *rate += change;
+                }
                 cost += c;
                 new_rows += n;
                 if r.any_case {
@@ -250,30 +287,44 @@ impl Problem {
                     .map(|f| (f.cost(self.rows_held, new_rows), f.value(any_rows)))
                     .collect();
                 let capacity = rules.budget - cost;
-                let chosen = if brute_force || rules.keep_accuracy {
-                    best_subset_by_enumeration(
-                        &items,
-                        capacity,
-                        rules.keep_accuracy,
-                        value.accuracy,
-                    )
+                let feature_selection: Vec<Vec<f64>> = self
+                    .features
+                    .iter()
+                    .map(|f| f.selection_at(any_rows))
+                    .collect();
+                let feasible = |subset: &[usize]| -> bool {
+                    let accuracy =
+                        value.accuracy + subset.iter().map(|&i| items[i].1.accuracy).sum::<f64>();
+                    if rules.keep_accuracy && accuracy < -1e-12 {
+                        return false;
+                    }
+                    if rules.no_adverse_impact {
+                        let mut rates = selection.clone();
+                        for &i in subset {
+                            for (rate, change) in rates.iter_mut().zip(&feature_selection[i]) {
+                                *rate += change;
+                            }
+                        }
+                        return four_fifths_hold(&rates);
+                    }
+                    true
+                };
+                let floors = rules.keep_accuracy || rules.no_adverse_impact;
+                let chosen = if brute_force || floors {
+                    best_subset_by_enumeration(&items, capacity, &feasible)
                 } else {
                     best_subset_pareto(&items, capacity)
                 };
                 if let Some((subset_cost, subset_score, subset)) = chosen {
                     let score = value.score + subset_score;
                     let total = cost + subset_cost;
-                    let accuracy_ok = !rules.keep_accuracy
-                        || value.accuracy
-                            + subset.iter().map(|&i| items[i].1.accuracy).sum::<f64>()
-                            >= -1e-12;
                     let better = match &best {
                         None => true,
                         Some((s, c, _, _)) => {
                             score > s + 1e-12 || ((score - s).abs() <= 1e-12 && total < c - 1e-9)
                         }
                     };
-                    if accuracy_ok && better {
+                    if better {
                         best = Some((score, total, picks.clone(), subset));
                     }
                 }
@@ -343,16 +394,17 @@ impl Problem {
     }
 }
 
+fn selection_changes(p: &Purchase) -> Vec<f64> {
+    p.groups.iter().map(|g| g.selection_rate.mean).collect()
+}
+
 fn rows_choices(value: &OptionValue, any_case: bool, cautious: bool) -> RowsChoices {
-    let mut choices = vec![(
-        0,
-        0.0,
-        Value {
-            accuracy: 0.0,
-            fairness: 0.0,
-            score: 0.0,
-        },
-    )];
+    let nothing = Value {
+        accuracy: 0.0,
+        fairness: 0.0,
+        score: 0.0,
+    };
+    let mut choices = vec![(0, 0.0, nothing)];
     choices.extend(
         value
             .steps
@@ -364,6 +416,9 @@ fn rows_choices(value: &OptionValue, any_case: bool, cautious: bool) -> RowsChoi
         kind: value.kind.clone(),
         any_case,
         choices,
+        selection: std::iter::once(vec![0.0; value.estimate.groups.len()])
+            .chain(value.steps.iter().map(selection_changes))
+            .collect(),
     }
 }
 
@@ -394,23 +449,17 @@ fn best_subset_pareto(items: &[(f64, Value)], capacity: f64) -> Option<(f64, f64
         .max_by(|a, b| a.1.total_cmp(&b.1).then(b.0.total_cmp(&a.0)))
 }
 
-/// Best subset by trying them all (and the accuracy floor, when asked).
+/// Best subset by trying them all, keeping only those `feasible` allows (the floors).
 fn best_subset_by_enumeration(
     items: &[(f64, Value)],
     capacity: f64,
-    keep_accuracy: bool,
-    accuracy_so_far: f64,
+    feasible: &dyn Fn(&[usize]) -> bool,
 ) -> Option<(f64, f64, Vec<usize>)> {
     let mut best: Option<(f64, f64, Vec<usize>)> = None;
     for mask in 0u64..(1u64 << items.len()) {
         let chosen: Vec<usize> = (0..items.len()).filter(|&i| mask >> i & 1 == 1).collect();
         let cost: f64 = chosen.iter().map(|&i| items[i].0).sum();
-        if cost > capacity + 1e-9 {
-            continue;
-        }
-        let accuracy: f64 =
-            accuracy_so_far + chosen.iter().map(|&i| items[i].1.accuracy).sum::<f64>();
-        if keep_accuracy && accuracy < -1e-12 {
+        if cost > capacity + 1e-9 || !feasible(&chosen) {
             continue;
         }
         let score: f64 = chosen.iter().map(|&i| items[i].1.score).sum();
@@ -442,6 +491,17 @@ pub fn run(
         None
     } else {
         Some(match problem.cheapest() {
+            _ if rules.no_adverse_impact && !four_fifths_hold(&problem.today_selection) => format!(
+                "no plan within the budget of {:.0} is expected to bring every group's selection rate to four-fifths of the highest (today: {})",
+                rules.budget,
+                report
+                    .groups
+                    .iter()
+                    .zip(&problem.today_selection)
+                    .map(|(g, r)| format!("{} {r:.3}", g.name))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
             Some(cheapest) if cheapest > rules.budget => format!(
                 "the budget of {:.0} is below the cheapest purchase on offer ({cheapest:.0}): nothing can be bought",
                 rules.budget
@@ -529,6 +589,7 @@ mod tests {
                     ));
                 }
                 RowsChoices {
+                    selection: Vec::new(),
                     name: format!("r{r}"),
                     kind: "rows".into(),
                     any_case: r == 0,
@@ -538,6 +599,7 @@ mod tests {
             .collect();
         let features = (0..rng.gen_range(0..6))
             .map(|f| FeatureChoice {
+                selection: Vec::new(),
                 name: format!("f{f}"),
                 fixed: rng.gen_range(0.0..2000.0),
                 per_row: rng.gen_range(0.0..2.0),
@@ -548,6 +610,7 @@ mod tests {
             })
             .collect();
         Problem {
+            today_selection: Vec::new(),
             rows,
             features,
             rows_held: 1000,
@@ -563,6 +626,7 @@ mod tests {
                 budget: rng.gen_range(0.0..8000.0),
                 cautious: false,
                 keep_accuracy: false,
+                no_adverse_impact: false,
             };
             let fast = problem.solve(&rules);
             let slow = problem.solve_by_brute_force(&rules);
@@ -579,8 +643,10 @@ mod tests {
     #[test]
     fn a_budget_below_the_cheapest_option_buys_nothing() {
         let problem = Problem {
+            today_selection: Vec::new(),
             rows: Vec::new(),
             features: vec![FeatureChoice {
+                selection: Vec::new(),
                 name: "f".into(),
                 fixed: 100.0,
                 per_row: 1.0,
@@ -593,12 +659,14 @@ mod tests {
             budget: 1000.0,
             cautious: false,
             keep_accuracy: false,
+            no_adverse_impact: false,
         });
         assert!(plan.items.is_empty());
         let plan = problem.solve(&PlanRules {
             budget: 1100.0,
             cautious: false,
             keep_accuracy: false,
+            no_adverse_impact: false,
         });
         assert_eq!(plan.items.len(), 1);
     }
@@ -608,13 +676,16 @@ mod tests {
         // Worked by hand (SPEC 2.2): feature 100 + 1 × (1,000 held + 500 new) = 1,600; rows
         // 500 × 2 = 1,000; total 2,600.
         let problem = Problem {
+            today_selection: Vec::new(),
             rows: vec![RowsChoices {
+                selection: Vec::new(),
                 name: "r".into(),
                 kind: "rows".into(),
                 any_case: true,
                 choices: vec![(0, 0.0, value(0.0)), (500, 1000.0, value(0.01))],
             }],
             features: vec![FeatureChoice {
+                selection: Vec::new(),
                 name: "f".into(),
                 fixed: 100.0,
                 per_row: 1.0,
@@ -626,6 +697,7 @@ mod tests {
             budget: 10_000.0,
             cautious: false,
             keep_accuracy: false,
+            no_adverse_impact: false,
         });
         assert_eq!(plan.total_cost, 2_600.0);
         assert!((plan.score - 0.07).abs() < 1e-12);

@@ -357,6 +357,8 @@ pub struct Today {
     /// worst compared group.
     pub unfairness: f64,
     pub worst_group: String,
+    /// Each group's predicted selection rate, in the order of `groups`.
+    pub selection_rates: Vec<f64>,
 }
 
 /// A change estimated from curves: the fitted value, a bootstrap interval, and the bootstrap's

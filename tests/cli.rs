@@ -1292,3 +1292,78 @@ fn html_report_renders_its_charts_in_a_real_browser() {
         assert!(out.join(file).exists(), "{file}");
     }
 }
+
+#[test]
+fn the_adverse_impact_floor_is_kept_or_the_plan_says_why_not() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(dir.path())
+        .arg("--no-run")
+        .assert()
+        .success();
+    let plan_for = |budget: &str| -> acquest::report::PlanReport {
+        let output = acquest()
+            .current_dir(dir.path())
+            .args([
+                "plan",
+                "--budget",
+                budget,
+                "--no-adverse-impact",
+                "--repeats",
+                "4",
+                "--quiet",
+                "--json",
+                "-",
+            ])
+            .output()
+            .unwrap();
+        assert!(
+            output.status.success(),
+            "{}",
+            String::from_utf8_lossy(&output.stderr)
+        );
+        serde_json::from_slice(&output.stdout).unwrap()
+    };
+    for budget in ["5000", "20000"] {
+        let report = plan_for(budget);
+        let today = &report.appraisal.today.selection_rates;
+        let mut rates = today.clone();
+        for item in &report.plan.items {
+            let option = report
+                .appraisal
+                .options
+                .iter()
+                .find(|o| o.name == item.option)
+                .unwrap();
+            let purchase = if item.kind == "feature" {
+                &option.estimate
+            } else {
+                option
+                    .steps
+                    .iter()
+                    .find(|s| s.new_rows == item.new_rows)
+                    .unwrap()
+            };
+            for (rate, g) in rates.iter_mut().zip(&purchase.groups) {
+                *rate += g.selection_rate.mean;
+            }
+        }
+        let top = rates.iter().copied().fold(0.0, f64::max);
+        // 29 CFR 1607.4(D): no group's rate below four-fifths of the highest.
+        let holds = rates.iter().all(|r| r / top >= 0.8);
+        if report.plan.items.is_empty() {
+            assert!(
+                report
+                    .explanation
+                    .as_deref()
+                    .unwrap_or("")
+                    .contains("four-fifths"),
+                "{budget}"
+            );
+        } else {
+            assert!(holds, "{budget}: {rates:?}");
+        }
+    }
+}

@@ -728,7 +728,7 @@ pub fn plan_text(report: &PlanReport) -> String {
     let rules = &report.rules;
     let _ = writeln!(
         out,
-        "\nPlan for a budget of {} {currency}{}{}",
+        "\nPlan for a budget of {} {currency}{}{}{}",
         money(rules.budget),
         if rules.cautious {
             ", scored by the lower end of each interval"
@@ -737,6 +737,11 @@ pub fn plan_text(report: &PlanReport) -> String {
         },
         if rules.keep_accuracy {
             ", accuracy kept at least at today's"
+        } else {
+            ""
+        },
+        if rules.no_adverse_impact {
+            ", no group below four-fifths afterwards"
         } else {
             ""
         }
