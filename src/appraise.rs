@@ -319,12 +319,169 @@ pub fn run(
     run_with_options(settings, appraisal, progress).map(|(report, _)| report)
 }
 
+/// What an appraisal keeps so that plans can be re-scored with their options taken together.
+pub struct Appraiser {
+    data: Dataset,
+    settings: Settings,
+    appraisal: AppraisalSettings,
+    main: FittedCurves,
+    now: Reading,
+    training_now: f64,
+    options: Vec<CostOption>,
+}
+
+/// A plan's gains estimated with its options taken together.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct JointScore {
+    pub accuracy_gain: Change,
+    pub unfairness_reduction: Change,
+    pub utility: Change,
+    /// How it was estimated.
+    pub method: String,
+}
+
+/// Random stream of joint re-scoring trials: this plus a mask of the options involved.
+const JOINT_STREAM: u64 = 5_000;
+
+impl Appraiser {
+    /// The checked cost-sheet options.
+    pub fn options(&self) -> &[CostOption] {
+        &self.options
+    }
+
+    /// Re-scores a plan (option names with the rows bought; 0 for features) jointly: the rows
+    /// of any case are read on today's curve at their total, and two or more features are
+    /// measured together on the rows where all their pilots overlap. `Err` says why a plan
+    /// cannot be re-scored (rows of one group; pilots that barely overlap).
+    pub fn rescore(
+        &self,
+        picks: &[(String, usize)],
+        progress: ProgressSink,
+    ) -> Result<std::result::Result<JointScore, String>> {
+        let data = &self.data;
+        let rows = data.rows();
+        let mut any_rows = 0usize;
+        let mut columns: Vec<&str> = Vec::new();
+        let mut mask = 0u64;
+        for (name, new_rows) in picks {
+            let Some(index) = self.options.iter().position(|o| &o.name == name) else {
+                continue;
+            };
+            mask |= 1 << (index % 60);
+            match &self.options[index].acquisition {
+                Acquisition::Rows { filter: None } => any_rows += new_rows,
+                Acquisition::Rows { filter: Some(_) } => {
+                    return Ok(Err(
+                        "plans with rows of one group are scored by adding gains".into(),
+                    ))
+                }
+                Acquisition::Feature { column } => columns.push(column),
+            }
+        }
+        let at = self.training_now * (rows + any_rows) as f64 / rows as f64;
+        let full = self.main.read(at);
+        let (after, method) = if columns.len() < 2 {
+            if columns.is_empty() {
+                (full, format!("today's curve read at {at:.0} training rows"))
+            } else {
+                return Ok(Err(
+                    "a single feature is already scored with its rows".into()
+                ));
+            }
+        } else {
+            let mut pilot: Vec<usize> = (0..rows).collect();
+            for column in &columns {
+                let rows_with: std::collections::HashSet<usize> =
+                    costs::pilot_rows(data, column).into_iter().collect();
+                pilot.retain(|i| rows_with.contains(i));
+            }
+            if pilot.len() < 40 {
+                return Ok(Err(format!(
+                    "the pilots of {} overlap on {} rows, too few to measure them together",
+                    columns.join(", "),
+                    pilot.len()
+                )));
+            }
+            let mut with_columns: Vec<Column> = data.features.clone();
+            for column in &columns {
+                if let Some(c) = data.candidates.iter().find(|c| c.name == *column) {
+                    with_columns.push(c.clone());
+                }
+            }
+            let stream = JOINT_STREAM + mask;
+            let plan = |cols| CurvePlan {
+                rows: &pilot,
+                columns: cols,
+                stream,
+                stage: "joint re-scoring",
+                smallest: None,
+            };
+            let trials = &self.settings.trials;
+            let without = learning::measure_curves(
+                data,
+                &self.settings,
+                &plan(&data.features),
+                &|_| Vec::new(),
+                progress,
+            );
+            let with = learning::measure_curves(
+                data,
+                &self.settings,
+                &plan(&with_columns),
+                &|_| Vec::new(),
+                progress,
+            );
+            match (without, with) {
+                (Ok(without), Ok(with)) => {
+                    let difference = learning::DifferenceCurves::fit(
+                        &with.outcomes,
+                        &without.outcomes,
+                        &with.schedule.sizes,
+                        data.group_list.len(),
+                        trials.seed,
+                    );
+                    (anchored(&full, &difference.read(at)), format!("{} measured together on the {} rows where their pilots overlap, extrapolated to {at:.0} training rows", columns.join(" + "), pilot.len()))
+                }
+                _ => {
+                    let (without, with) = pilot_at_full_size(
+                        data,
+                        &self.settings,
+                        &pilot,
+                        &with_columns,
+                        stream,
+                        progress,
+                    )?;
+                    let difference = difference_of(
+                        &reading_from_outcomes(data, &with, trials.seed),
+                        &reading_from_outcomes(data, &without, trials.seed),
+                    );
+                    (anchored(&full, &difference), format!("{} measured together on the {} rows where their pilots overlap (too few for a curve: the difference there is carried over)", columns.join(" + "), pilot.len()))
+                }
+            }
+        };
+        let scorer = Scorer {
+            data,
+            measure: self.appraisal.fairness,
+            weigh_accuracy: self.appraisal.weigh_accuracy,
+            weigh_fairness: self.appraisal.weigh_fairness,
+            confidence: self.settings.trials.confidence,
+        };
+        let p = scorer.purchase(&self.now, &after, any_rows, 0.0, at, f64::INFINITY);
+        Ok(Ok(JointScore {
+            accuracy_gain: p.accuracy_gain,
+            unfairness_reduction: p.unfairness_reduction,
+            utility: p.utility,
+            method,
+        }))
+    }
+}
+
 /// Runs the appraisal and returns the checked cost-sheet options beside the report.
 pub fn run_with_options(
     settings: &Settings,
     appraisal: &AppraisalSettings,
     progress: ProgressSink,
-) -> Result<(AppraisalReport, Vec<CostOption>)> {
+) -> Result<(AppraisalReport, Appraiser)> {
     let (table, data) = Dataset::load(settings)?;
     let raw = costs::read_cost_sheet(&appraisal.costs)?;
     let options = costs::check_options(&appraisal.costs, raw, &data, &settings.schema.protected)?;
@@ -518,7 +675,16 @@ pub fn run_with_options(
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
     };
-    Ok((report, options))
+    let appraiser = Appraiser {
+        data,
+        settings: settings.clone(),
+        appraisal: appraisal.clone(),
+        main: main.fitted,
+        now,
+        training_now,
+        options,
+    };
+    Ok((report, appraiser))
 }
 
 fn option_flags(option: &CostOption, headline: &Purchase, confidence: f64) -> Vec<String> {

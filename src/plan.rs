@@ -484,9 +484,74 @@ pub fn run(
     rules: &PlanRules,
     progress: crate::trial::ProgressSink,
 ) -> Result<crate::report::PlanReport> {
-    let (report, options) = crate::appraise::run_with_options(settings, appraisal, progress)?;
-    let problem = Problem::new(&report, &options, rules.cautious)?;
-    let plan = problem.solve(rules);
+    let (report, appraiser) = crate::appraise::run_with_options(settings, appraisal, progress)?;
+    let problem = Problem::new(&report, appraiser.options(), rules.cautious)?;
+    let additive_best = problem.solve(rules);
+    let frontier = frontier(&problem, rules, FRONTIER_POINTS);
+
+    // The best few plans under the additive model, re-scored with their options together;
+    // the choice is made on the joint scores where every candidate has one.
+    let mut pool: Vec<Plan> = vec![additive_best.clone()];
+    pool.extend(
+        frontier
+            .iter()
+            .map(|p| p.plan.clone())
+            .filter(|p| p.total_cost <= rules.budget + 1e-9),
+    );
+    pool.sort_by(|a, b| {
+        b.score
+            .total_cmp(&a.score)
+            .then(a.total_cost.total_cmp(&b.total_cost))
+    });
+    pool.dedup_by(|a, b| a.items == b.items);
+    pool.retain(|p| !p.items.is_empty());
+    pool.truncate(RESCORED_PLANS);
+    let mut candidates = Vec::new();
+    for plan in pool {
+        let picks: Vec<(String, usize)> = plan
+            .items
+            .iter()
+            .map(|i| (i.option.clone(), i.new_rows))
+            .collect();
+        let (joint, note) = match appraiser.rescore(&picks, progress)? {
+            Ok(score) => (Some(score), None),
+            Err(why) => (None, Some(why)),
+        };
+        candidates.push(Candidate { plan, joint, note });
+    }
+    let joint_value = |c: &Candidate| -> Option<f64> {
+        let u = &c.joint.as_ref()?.utility;
+        Some(if rules.cautious {
+            u.low.unwrap_or(u.mean)
+        } else {
+            u.mean
+        })
+    };
+    let all_joint = !candidates.is_empty()
+        && candidates
+            .iter()
+            .all(|c| c.joint.is_some() || c.plan.items.len() < 2);
+    let (plan, chosen_by) = if all_joint {
+        let best = candidates
+            .iter()
+            .max_by(|a, b| {
+                let va = joint_value(a).unwrap_or(a.plan.score);
+                let vb = joint_value(b).unwrap_or(b.plan.score);
+                va.total_cmp(&vb)
+                    .then(b.plan.total_cost.total_cmp(&a.plan.total_cost))
+            })
+            .map(|c| c.plan.clone())
+            .unwrap_or_else(|| additive_best.clone());
+        (
+            best,
+            "the joint scores of the best plans under the additive model".to_string(),
+        )
+    } else {
+        (
+            additive_best.clone(),
+            "the additive model (not every candidate could be re-scored jointly)".to_string(),
+        )
+    };
     let explanation = if !plan.items.is_empty() {
         None
     } else {
@@ -510,9 +575,15 @@ pub fn run(
         })
     };
     let mut warnings = report.warnings.clone();
-    warnings.push(
-        "the plan adds the options' estimated gains; options bought together were not yet re-scored jointly, and gains need not add".into(),
-    );
+    for c in &candidates {
+        if let Some(note) = &c.note {
+            if c.plan.items.len() > 1 {
+                warnings.push(format!(
+                    "a candidate plan was not re-scored jointly: {note}"
+                ));
+            }
+        }
+    }
     Ok(crate::report::PlanReport {
         format: crate::report::FORMAT.into(),
         format_version: crate::report::FORMAT_VERSION,
@@ -520,13 +591,28 @@ pub fn run(
         command: "plan".into(),
         rules: *rules,
         gain_model: "sum of the options' gains; a feature bought with rows of any case is read at the plan's row count and paid for on the new rows too".into(),
-        frontier: frontier(&problem, rules, FRONTIER_POINTS),
+        frontier,
         plan,
+        chosen_by,
+        candidates,
         explanation,
         cautions: report.cautions.clone(),
         appraisal: report,
         warnings,
     })
+}
+
+/// Plans re-scored jointly, at most.
+pub const RESCORED_PLANS: usize = 4;
+
+/// A plan among the best under the additive model, with its joint score.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Candidate {
+    pub plan: Plan,
+    /// The plan's gains with its options taken together, where they could be measured.
+    pub joint: Option<crate::appraise::JointScore>,
+    /// Why there is no joint score.
+    pub note: Option<String>,
 }
 
 /// One point of the budget frontier.

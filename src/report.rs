@@ -482,6 +482,10 @@ pub struct PlanReport {
     /// How gains are combined: the sum of the options' gains (each read at the plan's rows).
     pub gain_model: String,
     pub plan: crate::plan::Plan,
+    /// What the plan was chosen on: the joint scores of the candidates, or the additive model.
+    pub chosen_by: String,
+    /// The best plans under the additive model, each re-scored with its options together.
+    pub candidates: Vec<crate::plan::Candidate>,
     /// Why the plan is empty, when it is.
     pub explanation: Option<String>,
     pub frontier: Vec<crate::plan::FrontierPoint>,

@@ -1230,6 +1230,19 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
     let markdown = std::fs::read_to_string(dir.path().join("plan.md")).unwrap();
     assert!(markdown.contains("## Recommendation") && markdown.contains("## Cautions"));
 
+    // The best plans are re-scored with their options together (SPEC 3.5); a plan of two
+    // features is measured where their pilots overlap, or says why it cannot be.
+    let wide = plan_for("30000");
+    assert!(!wide.candidates.is_empty());
+    for c in wide
+        .candidates
+        .iter()
+        .filter(|c| c.plan.items.iter().filter(|i| i.kind == "feature").count() > 1)
+    {
+        assert!(c.joint.is_some() || c.note.is_some());
+    }
+    assert!(wide.plan.total_cost <= 30_000.0);
+
     let poor = plan_for("200");
     assert!(poor.plan.items.is_empty());
     assert!(poor.explanation.unwrap().contains("below the cheapest"));

@@ -332,6 +332,30 @@ pub fn plan_html(report: &PlanReport) -> String {
         a.today.unfairness,
         escape(&report.gain_model)
     );
+    let _ = writeln!(out, "<p>Chosen on {}.</p>", escape(&report.chosen_by));
+    if report.candidates.iter().any(|c| c.joint.is_some()) {
+        out.push_str("<table id=\"candidates\"><tr><th>candidate plan</th><th>cost</th><th>utility, gains summed</th><th>utility, options together</th><th>how</th></tr>\n");
+        for c in &report.candidates {
+            let names: Vec<&str> = c.plan.items.iter().map(|i| i.option.as_str()).collect();
+            let (joint, how) = match &c.joint {
+                Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
+                None => (
+                    "its own estimate".into(),
+                    c.note.clone().unwrap_or_default(),
+                ),
+            };
+            let _ = writeln!(
+                out,
+                "<tr><td>{}</td><td>{}</td><td>{:+.4}</td><td>{}</td><td>{}</td></tr>",
+                escape(&names.join(" + ")),
+                money(c.plan.total_cost),
+                c.plan.score,
+                escape(&joint),
+                escape(&how)
+            );
+        }
+        out.push_str("</table>\n");
+    }
     out.push_str(&frontier_chart(report));
 
     let _ = writeln!(out, "<h2>Options considered</h2>");

@@ -764,6 +764,76 @@ pub fn plan_text(report: &PlanReport) -> String {
             );
         }
     }
+    let _ = writeln!(out, "  chosen on {}", report.chosen_by);
+    if !report.candidates.is_empty() {
+        out.push_str("\nThe best plans, scored with their options taken together\n");
+        let mut t = Table::new(&[
+            "plan",
+            "cost",
+            "utility (sum)",
+            "utility (joint)",
+            "accuracy (joint)",
+            "unfairness reduction (joint)",
+        ]);
+        for c in &report.candidates {
+            let names: Vec<String> = c
+                .plan
+                .items
+                .iter()
+                .map(|i| {
+                    if i.kind == "feature" {
+                        i.option.clone()
+                    } else {
+                        format!("{} {}", i.option, thousands(i.new_rows))
+                    }
+                })
+                .collect();
+            let joint = |f: &dyn Fn(&crate::appraise::JointScore) -> &Change| match (
+                &c.joint,
+                c.plan.items.len(),
+            ) {
+                (Some(j), _) => change_cell(f(j), report.appraisal.inputs.confidence),
+                (None, 1) => "its own estimate".to_string(),
+                (None, _) => "n/a".to_string(),
+            };
+            t.row(vec![
+                names.join(" + "),
+                money(c.plan.total_cost),
+                format!("{:+.4}", c.plan.score),
+                joint(&|j| &j.utility),
+                joint(&|j| &j.accuracy_gain),
+                joint(&|j| &j.unfairness_reduction),
+            ]);
+        }
+        t.render(&mut out);
+        for c in &report.candidates {
+            if let Some(j) = &c.joint {
+                let _ = writeln!(
+                    out,
+                    "  {}: {}",
+                    c.plan
+                        .items
+                        .iter()
+                        .map(|i| i.option.as_str())
+                        .collect::<Vec<_>>()
+                        .join(" + "),
+                    j.method
+                );
+            } else if let (Some(note), true) = (&c.note, c.plan.items.len() > 1) {
+                let _ = writeln!(
+                    out,
+                    "  {}: {}",
+                    c.plan
+                        .items
+                        .iter()
+                        .map(|i| i.option.as_str())
+                        .collect::<Vec<_>>()
+                        .join(" + "),
+                    note
+                );
+            }
+        }
+    }
     out.push_str("\nBest plan at other budgets\n");
     let mut t = Table::new(&[
         "budget",
@@ -889,6 +959,31 @@ pub fn plan_markdown(report: &PlanReport) -> String {
             r.utility_per_1000,
             o.flags.join("; ")
         );
+    }
+    let _ = writeln!(out, "\nThe plan was chosen on {}.\n", report.chosen_by);
+    if report.candidates.iter().any(|c| c.joint.is_some()) {
+        let _ = writeln!(
+            out,
+            "| candidate plan | cost | utility, gains summed | utility, options together | how |"
+        );
+        let _ = writeln!(out, "|---|---|---|---|---|");
+        for c in &report.candidates {
+            let names: Vec<&str> = c.plan.items.iter().map(|i| i.option.as_str()).collect();
+            let (joint, how) = match &c.joint {
+                Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
+                None => (
+                    "its own estimate".into(),
+                    c.note.clone().unwrap_or_default(),
+                ),
+            };
+            let _ = writeln!(
+                out,
+                "| {} | {} | {:+.4} | {joint} | {how} |",
+                names.join(" + "),
+                money(c.plan.total_cost),
+                c.plan.score
+            );
+        }
     }
     let _ = writeln!(out, "\n## Best plan at other budgets\n");
     let _ = writeln!(
