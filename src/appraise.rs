@@ -275,39 +275,30 @@ impl Scorer<'_> {
     }
 }
 
-/// `full + difference`, quantity by quantity and draw by draw, clipped to [0, 1]: the
-/// full-data curve moved by the pilot's with-feature difference.
-fn anchored(full: &Reading, difference: &Reading) -> Reading {
-    let combine = |f: &[f64], d: &[f64]| -> Vec<f64> {
-        f.iter()
-            .zip(d)
-            .map(|(f, d)| (f + d).clamp(0.0, 1.0))
-            .collect()
-    };
+/// Two readings combined quantity by quantity and draw by draw.
+fn zip_readings(a: &Reading, b: &Reading, f: impl Fn(f64, f64) -> f64) -> Reading {
+    let combine =
+        |x: &[f64], y: &[f64]| -> Vec<f64> { x.iter().zip(y).map(|(x, y)| f(*x, *y)).collect() };
     Reading {
-        point: combine(&full.point, &difference.point),
-        draws: full
+        point: combine(&a.point, &b.point),
+        draws: a
             .draws
             .iter()
-            .zip(&difference.draws)
-            .map(|(f, d)| combine(f, d))
+            .zip(&b.draws)
+            .map(|(x, y)| combine(x, y))
             .collect(),
     }
 }
 
+/// `full + difference`, clipped to [0, 1]: the full-data curve moved by the pilot's
+/// with-feature difference.
+fn anchored(full: &Reading, difference: &Reading) -> Reading {
+    zip_readings(full, difference, |f, d| (f + d).clamp(0.0, 1.0))
+}
+
 /// `with − without` of two readings.
 fn difference_of(with: &Reading, without: &Reading) -> Reading {
-    let minus =
-        |a: &[f64], b: &[f64]| -> Vec<f64> { a.iter().zip(b).map(|(a, b)| a - b).collect() };
-    Reading {
-        point: minus(&with.point, &without.point),
-        draws: with
-            .draws
-            .iter()
-            .zip(&without.draws)
-            .map(|(a, b)| minus(a, b))
-            .collect(),
-    }
+    zip_readings(with, without, |a, b| a - b)
 }
 
 /// Runs `acquest appraise`.

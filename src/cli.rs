@@ -295,14 +295,19 @@ fn progress_bar(quiet: bool) -> ProgressBar {
     bar
 }
 
-fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
-    let settings = Settings::from_choices(choices)?;
-    let bar = progress_bar(output.quiet);
-    let show = |p: Progress| {
+/// A progress sink that moves `bar`.
+fn shown_on(bar: &ProgressBar) -> impl Fn(Progress) + Sync + '_ {
+    move |p: Progress| {
         bar.set_message(p.stage);
         bar.set_length(p.total as u64);
         bar.set_position(p.done as u64);
-    };
+    }
+}
+
+fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
+    let settings = Settings::from_choices(choices)?;
+    let bar = progress_bar(output.quiet);
+    let show = shown_on(&bar);
     let report = baseline::run(&settings, &show)?;
     bar.finish_and_clear();
     write_outputs(&report, render::baseline_text(&report), output)
@@ -383,11 +388,7 @@ fn run_plan(
         no_adverse_impact,
     };
     let bar = progress_bar(output.quiet);
-    let show = |p: Progress| {
-        bar.set_message(p.stage);
-        bar.set_length(p.total as u64);
-        bar.set_position(p.done as u64);
-    };
+    let show = shown_on(&bar);
     let report = plan::run(&settings, &appraisal, &rules, &show)?;
     bar.finish_and_clear();
     write_outputs(&report, render::plan_text(&report), output)?;
@@ -398,11 +399,7 @@ fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
     let appraisal = appraise::AppraisalSettings::from_choices(&choices)?;
     let bar = progress_bar(output.quiet);
-    let show = |p: Progress| {
-        bar.set_message(p.stage);
-        bar.set_length(p.total as u64);
-        bar.set_position(p.done as u64);
-    };
+    let show = shown_on(&bar);
     let report = appraise::run(&settings, &appraisal, &show)?;
     bar.finish_and_clear();
     write_outputs(&report, render::appraisal_text(&report), output)
@@ -412,11 +409,7 @@ fn run_curves(choices: Choices, svg: Option<&Path>, output: &OutputArgs) -> anyh
     let settings = Settings::from_choices(choices.clone())?;
     let curve_settings = CurveSettings::from_choices(&choices)?;
     let bar = progress_bar(output.quiet);
-    let show = |p: Progress| {
-        bar.set_message(p.stage);
-        bar.set_length(p.total as u64);
-        bar.set_position(p.done as u64);
-    };
+    let show = shown_on(&bar);
     let report = learning::run(&settings, &curve_settings, &show)?;
     bar.finish_and_clear();
     if let Some(path) = svg {

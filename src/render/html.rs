@@ -5,7 +5,7 @@
 use std::fmt::Write as _;
 
 use super::svg::{curve_chart, CurveSet};
-use super::{change_cell, money, thousands};
+use super::{candidate_rows, change_cell, money, thousands};
 use crate::report::{Change, PlanReport};
 
 fn escape(text: &str) -> String {
@@ -335,24 +335,12 @@ pub fn plan_html(report: &PlanReport) -> String {
     let _ = writeln!(out, "<p>Chosen on {}.</p>", escape(&report.chosen_by));
     if report.candidates.iter().any(|c| c.joint.is_some()) {
         out.push_str("<table id=\"candidates\"><tr><th>candidate plan</th><th>cost</th><th>utility, gains summed</th><th>utility, options together</th><th>how</th></tr>\n");
-        for c in &report.candidates {
-            let names: Vec<&str> = c.plan.items.iter().map(|i| i.option.as_str()).collect();
-            let (joint, how) = match &c.joint {
-                Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
-                None => (
-                    "its own estimate".into(),
-                    c.note.clone().unwrap_or_default(),
-                ),
-            };
-            let _ = writeln!(
-                out,
-                "<tr><td>{}</td><td>{}</td><td>{:+.4}</td><td>{}</td><td>{}</td></tr>",
-                escape(&names.join(" + ")),
-                money(c.plan.total_cost),
-                c.plan.score,
-                escape(&joint),
-                escape(&how)
-            );
+        for row in candidate_rows(report) {
+            let cells: Vec<String> = row
+                .iter()
+                .map(|c| format!("<td>{}</td>", escape(c)))
+                .collect();
+            let _ = writeln!(out, "<tr>{}</tr>", cells.concat());
         }
         out.push_str("</table>\n");
     }

@@ -967,22 +967,8 @@ pub fn plan_markdown(report: &PlanReport) -> String {
             "| candidate plan | cost | utility, gains summed | utility, options together | how |"
         );
         let _ = writeln!(out, "|---|---|---|---|---|");
-        for c in &report.candidates {
-            let names: Vec<&str> = c.plan.items.iter().map(|i| i.option.as_str()).collect();
-            let (joint, how) = match &c.joint {
-                Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
-                None => (
-                    "its own estimate".into(),
-                    c.note.clone().unwrap_or_default(),
-                ),
-            };
-            let _ = writeln!(
-                out,
-                "| {} | {} | {:+.4} | {joint} | {how} |",
-                names.join(" + "),
-                money(c.plan.total_cost),
-                c.plan.score
-            );
+        for row in candidate_rows(report) {
+            let _ = writeln!(out, "| {} |", row.join(" | "));
         }
     }
     let _ = writeln!(out, "\n## Best plan at other budgets\n");
@@ -1031,6 +1017,32 @@ pub fn plan_markdown(report: &PlanReport) -> String {
         let _ = writeln!(out, "- {c}");
     }
     out
+}
+
+/// The candidate plans as table cells: plan, cost, summed utility, joint utility, how.
+pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
+    let confidence = report.appraisal.inputs.confidence;
+    report
+        .candidates
+        .iter()
+        .map(|c| {
+            let names: Vec<&str> = c.plan.items.iter().map(|i| i.option.as_str()).collect();
+            let (joint, how) = match &c.joint {
+                Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
+                None => (
+                    "its own estimate".into(),
+                    c.note.clone().unwrap_or_default(),
+                ),
+            };
+            [
+                names.join(" + "),
+                money(c.plan.total_cost),
+                format!("{:+.4}", c.plan.score),
+                joint,
+                how,
+            ]
+        })
+        .collect()
 }
 
 fn warnings_and_cautions(out: &mut String, warnings: &[String], cautions: &[String]) {
