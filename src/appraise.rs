@@ -883,7 +883,15 @@ fn feature_value(
     );
     let training_now = training_at(0);
     let mut flags = Vec::new();
-    let (estimate, steps, direct, pilot_summary) = match (without, with) {
+    // The pilot's with-minus-without difference as a function of training size, how far it
+    // was measured, the direct extrapolation where there is a curve, and the pilot's summary.
+    type DifferenceAt<'a> = Box<dyn Fn(f64) -> Reading + 'a>;
+    let (difference_at, reach, direct, pilot_summary): (
+        DifferenceAt,
+        f64,
+        Option<Purchase>,
+        PilotSummary,
+    ) = match (without, with) {
         (Ok(without), Ok(with)) => {
             let difference = learning::DifferenceCurves::fit(
                 &with.outcomes,
@@ -892,31 +900,14 @@ fn feature_value(
                 data.group_list.len(),
                 trials.seed,
             );
-            let pilot_largest = with.fitted.largest() as f64;
-            let read = |new_rows: usize| {
-                let at = training_at(new_rows);
-                (at, anchored(&full.read(at), &difference.read(at)))
-            };
-            let purchase = |new_rows: usize| {
-                let (at, after) = read(new_rows);
-                scorer.purchase(
-                    now,
-                    &after,
-                    new_rows,
-                    option.feature_cost(rows + new_rows),
-                    at,
-                    pilot_largest,
-                )
-            };
-            let estimate = purchase(0);
-            let steps = overall_steps.iter().map(|&d| purchase(d)).collect();
+            let reach = with.fitted.largest() as f64;
             let direct = scorer.purchase(
                 now,
                 &with.fitted.read(training_now),
                 0,
                 option.feature_cost(rows),
                 training_now,
-                pilot_largest,
+                reach,
             );
             let summary = pilot_summary(
                 data,
@@ -928,46 +919,33 @@ fn feature_value(
                 true,
                 trials.confidence,
             );
-            (estimate, steps, Some(direct), summary)
+            (
+                Box::new(move |at| difference.read(at)),
+                reach,
+                Some(direct),
+                summary,
+            )
         }
         (without, with) => {
-            // Too small for a curve: measure at the pilot's own size and carry the difference
-            // over unchanged.
+            // Too small for a curve: measure at the pilot's own size and carry the
+            // difference over unchanged.
             let reason = without
                 .err()
                 .or(with.err())
                 .map(|e| e.to_string())
                 .unwrap_or_default();
             warnings.push(format!(
-                "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
-                option.name,
-                pilot.len()
-            ));
+                    "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
+                    option.name,
+                    pilot.len()
+                ));
             flags.push("pilot too small for a curve: gain measured at pilot size".into());
             let (without_outcomes, with_outcomes) =
                 pilot_at_full_size(data, settings, &pilot, &with_columns, stream, progress)?;
-            let mean_reading = |outcomes: &[Vec<TrialOutcome>]| -> Reading {
-                reading_from_outcomes(data, outcomes, trials.seed)
-            };
-            let (w, o) = (
-                mean_reading(&with_outcomes),
-                mean_reading(&without_outcomes),
+            let difference = difference_of(
+                &reading_from_outcomes(data, &with_outcomes, trials.seed),
+                &reading_from_outcomes(data, &without_outcomes, trials.seed),
             );
-            let read = |new_rows: usize| {
-                let at = training_at(new_rows);
-                (at, anchored(&full.read(at), &difference_of(&w, &o)))
-            };
-            let purchase = |new_rows: usize| {
-                let (at, after) = read(new_rows);
-                scorer.purchase(
-                    now,
-                    &after,
-                    new_rows,
-                    option.feature_cost(rows + new_rows),
-                    at,
-                    f64::INFINITY,
-                )
-            };
             let summary = pilot_summary(
                 data,
                 scorer,
@@ -979,13 +957,27 @@ fn feature_value(
                 trials.confidence,
             );
             (
-                purchase(0),
-                overall_steps.iter().map(|&d| purchase(d)).collect(),
+                Box::new(move |_| difference.clone()),
+                f64::INFINITY,
                 None,
                 summary,
             )
         }
     };
+    let purchase = |new_rows: usize| {
+        let at = training_at(new_rows);
+        let after = anchored(&full.read(at), &difference_at(at));
+        scorer.purchase(
+            now,
+            &after,
+            new_rows,
+            option.feature_cost(rows + new_rows),
+            at,
+            reach,
+        )
+    };
+    let estimate = purchase(0);
+    let steps: Vec<Purchase> = overall_steps.iter().map(|&d| purchase(d)).collect();
     if pilot_summary.training_rows < SMALL_PILOT_ROWS {
         flags.push(format!(
             "small pilot ({} training rows)",
@@ -1229,6 +1221,7 @@ fn held_features(
             };
             let mut perm_rng = stream_rng(trials.seed, PERMUTATION_STREAM, repeat as u64);
             let mut changes = Vec::with_capacity(features);
+            let mut work = x_test.clone();
             for f in 0..features {
                 let mut ablation = [None, None];
                 if features > 1 {
@@ -1250,6 +1243,7 @@ fn held_features(
                     let (a, u) = score(&permuted_scores(
                         model.as_ref(),
                         &x_test,
+                        &mut work,
                         span.clone(),
                         &mut perm_rng,
                     ));
@@ -1297,19 +1291,25 @@ fn held_features(
 pub fn permuted_scores(
     model: &dyn model::FittedModel,
     x_test: &ndarray::Array2<f64>,
+    work: &mut ndarray::Array2<f64>,
     span: std::ops::Range<usize>,
     rng: &mut impl rand::Rng,
 ) -> Vec<f64> {
+    // `work` holds a copy of `x_test`; only the permuted columns are written, and they are put
+    // back afterwards, so no trial copies the whole matrix per permutation.
     let mut order: Vec<usize> = (0..x_test.nrows()).collect();
     order.shuffle(rng);
-    let mut x = x_test.clone();
-    for j in span {
+    for j in span.clone() {
         let column = x_test.column(j);
         for (row, &from) in order.iter().enumerate() {
-            x[(row, j)] = column[from];
+            work[(row, j)] = column[from];
         }
     }
-    model.scores(x.view())
+    let scores = model.scores(work.view());
+    for j in span {
+        work.column_mut(j).assign(&x_test.column(j));
+    }
+    scores
 }
 
 /// Ranks by utility per 1,000 and by its cautious lower end (highest first; ties by name).
@@ -1404,6 +1404,7 @@ mod tests {
         let expected_permutation = [0.1930833333333333, 0.10307500000000001, 0.01095000000000002];
         let expected_drop = [0.18333333333333335, 0.08333333333333337, 0.0];
         let mut rng = stream_rng(1, 77, 0);
+        let mut work = x_test.clone();
         for j in 0..3 {
             let repeats = 2000;
             let mean_drop = (0..repeats)
@@ -1411,6 +1412,7 @@ mod tests {
                     base - accuracy_of(&permuted_scores(
                         m.as_ref(),
                         &x_test,
+                        &mut work,
                         encoder.span(j),
                         &mut rng,
                     ))

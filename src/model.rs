@@ -275,12 +275,9 @@ mod tests {
     use super::*;
     use ndarray::array;
 
-    #[test]
-    fn logistic_coefficients_match_scikit_learn() {
-        // scikit-learn 1.9.1, LogisticRegression(C=1.0, tol=1e-12, max_iter=10000) on this table
-        // (tests/reference/reference.py): coef [1.2618853931960752, 0.5294273430803651],
-        // intercept -0.391725824526378.
-        let x = array![
+    /// The small table of tests/reference/reference.py.
+    fn small_table() -> ndarray::Array2<f64> {
+        array![
             [0.5, 1.0],
             [1.5, -0.5],
             [-1.0, 0.3],
@@ -293,7 +290,15 @@ mod tests {
             [-0.6, 1.8],
             [1.9, 0.2],
             [-1.2, -0.7]
-        ];
+        ]
+    }
+
+    #[test]
+    fn logistic_coefficients_match_scikit_learn() {
+        // scikit-learn 1.9.1, LogisticRegression(C=1.0, tol=1e-12, max_iter=10000) on this table
+        // (tests/reference/reference.py): coef [1.2618853931960752, 0.5294273430803651],
+        // intercept -0.391725824526378.
+        let x = small_table();
         let y = [
             true, true, false, true, false, true, false, false, true, false, true, false,
         ];
@@ -318,20 +323,7 @@ mod tests {
     #[test]
     fn a_warm_start_reaches_the_same_fit() {
         // Both label orders, so that linfa's choice of its positive class is exercised.
-        let x = array![
-            [0.5, 1.0],
-            [1.5, -0.5],
-            [-1.0, 0.3],
-            [2.0, 1.2],
-            [-0.3, -1.1],
-            [0.8, 0.4],
-            [-1.7, 0.9],
-            [1.1, -1.4],
-            [0.0, 0.0],
-            [-0.6, 1.8],
-            [1.9, 0.2],
-            [-1.2, -0.7]
-        ];
+        let x = small_table();
         for flip in [false, true] {
             let y: Vec<bool> = [
                 true, true, false, true, false, true, false, false, true, false, false, false,

@@ -776,18 +776,7 @@ pub fn plan_text(report: &PlanReport) -> String {
             "unfairness reduction (joint)",
         ]);
         for c in &report.candidates {
-            let names: Vec<String> = c
-                .plan
-                .items
-                .iter()
-                .map(|i| {
-                    if i.kind == "feature" {
-                        i.option.clone()
-                    } else {
-                        format!("{} {}", i.option, thousands(i.new_rows))
-                    }
-                })
-                .collect();
+            let names: Vec<String> = c.plan.items.iter().map(item_label).collect();
             let joint = |f: &dyn Fn(&crate::appraise::JointScore) -> &Change| match (
                 &c.joint,
                 c.plan.items.len(),
@@ -844,18 +833,7 @@ pub fn plan_text(report: &PlanReport) -> String {
     ]);
     let mut last = String::new();
     for point in &report.frontier {
-        let buys: Vec<String> = point
-            .plan
-            .items
-            .iter()
-            .map(|i| {
-                if i.kind == "feature" {
-                    i.option.clone()
-                } else {
-                    format!("{} {}", i.option, thousands(i.new_rows))
-                }
-            })
-            .collect();
+        let buys: Vec<String> = point.plan.items.iter().map(item_label).collect();
         let buys = if buys.is_empty() {
             "nothing".to_string()
         } else {
@@ -1017,6 +995,15 @@ pub fn plan_markdown(report: &PlanReport) -> String {
         let _ = writeln!(out, "- {c}");
     }
     out
+}
+
+/// A plan item in a few words: the option, and the rows bought for a rows option.
+fn item_label(i: &crate::plan::PlanItem) -> String {
+    if i.kind == "feature" {
+        i.option.clone()
+    } else {
+        format!("{} {}", i.option, thousands(i.new_rows))
+    }
 }
 
 /// The candidate plans as table cells: plan, cost, summed utility, joint utility, how.
