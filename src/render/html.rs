@@ -15,6 +15,18 @@ fn escape(text: &str) -> String {
         .replace('"', "&quot;")
 }
 
+/// The span of `values` widened by 8% each side (and to at least ±0.01 when flat).
+fn padded_range(values: &[f64]) -> (f64, f64) {
+    let mut low = values.iter().copied().fold(f64::INFINITY, f64::min);
+    let mut high = values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if high - low < 1e-6 {
+        low -= 0.01;
+        high += 0.01;
+    }
+    let pad = (high - low) * 0.08;
+    (low - pad, high + pad)
+}
+
 /// Dot-and-whisker chart of one gain for every option, ranked as in the report.
 fn options_chart(title: &str, rows: &[(String, Change)]) -> String {
     let (width, row_height, left, right, top) = (460.0, 26.0, 190.0, 20.0, 40.0);
@@ -30,14 +42,7 @@ fn options_chart(title: &str, rows: &[(String, Change)]) -> String {
             ]
         })
         .collect();
-    let mut low = values.iter().copied().fold(f64::INFINITY, f64::min);
-    let mut high = values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if high - low < 1e-6 {
-        low -= 0.01;
-        high += 0.01;
-    }
-    let pad = (high - low) * 0.08;
-    let (low, high) = (low - pad, high + pad);
+    let (low, high) = padded_range(&values);
     let x = |v: f64| left + (v - low) / (high - low) * (width - left - right);
     let mut out = String::new();
     let _ = writeln!(
@@ -123,14 +128,7 @@ fn frontier_chart(report: &PlanReport) -> String {
         .collect();
     let max_cost = points.iter().map(|p| p.0).fold(1.0, f64::max);
     let ys: Vec<f64> = points.iter().flat_map(|p| [p.1, p.2, 0.0]).collect();
-    let mut low = ys.iter().copied().fold(f64::INFINITY, f64::min);
-    let mut high = ys.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if high - low < 1e-6 {
-        low -= 0.01;
-        high += 0.01;
-    }
-    let pad = (high - low) * 0.08;
-    let (low, high) = (low - pad, high + pad);
+    let (low, high) = padded_range(&ys);
     let px = |c: f64| left + c / max_cost * (width - left - right);
     let py = |v: f64| top + (high - v) / (high - low) * (height - top - bottom);
     let mut out = String::new();
