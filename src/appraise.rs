@@ -23,7 +23,7 @@ use crate::settings::{Choices, Settings};
 use crate::trial::{self, stream_rng, ProgressSink, TrialOutcome};
 
 /// The fairness measure whose unfairness the utility counts.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum FairnessMeasure {
     Spd,
@@ -74,7 +74,7 @@ impl FairnessMeasure {
     }
 
     /// The same from counts of one trial.
-    fn unfairness_of_counts(self, u: &GroupCounts, r: &GroupCounts) -> Option<f64> {
+    pub fn unfairness_of_counts(self, u: &GroupCounts, r: &GroupCounts) -> Option<f64> {
         let rates = |c: &GroupCounts| -> Option<[f64; 3]> {
             Some([
                 c.selection_rate()?,
@@ -160,6 +160,19 @@ struct Scorer<'a> {
     weigh_accuracy: f64,
     weigh_fairness: f64,
     confidence: f64,
+    /// Factor by which the bootstrap spread of a gain is widened about its point (see
+    /// [`overlap_spread`]).
+    spread: f64,
+}
+
+/// The bootstrap over repeats measures how much a mean over R overlapping train/test splits of
+/// the same rows varies, σ²/R; repeated splits overlap, and the variance a new sample of people
+/// would show is larger. As the baseline's intervals do, the variance is corrected by Nadeau and
+/// Bengio's (2003) factor: σ²(1/R + n_test/n_train) in place of σ²/R, so the spread widens by
+/// √(1 + R·n_test/n_train).
+pub fn overlap_spread(trials: &crate::settings::TrialSettings) -> f64 {
+    let test_to_train = trials.test_fraction / (1.0 - trials.test_fraction);
+    (1.0 + trials.repeats as f64 * test_to_train).sqrt()
 }
 
 impl Scorer<'_> {
@@ -177,7 +190,12 @@ impl Scorer<'_> {
     }
 
     fn change(&self, point: f64, draws: Vec<f64>) -> Change {
-        let mut finite: Vec<f64> = draws.into_iter().filter(|d| d.is_finite()).collect();
+        let centre = if point.is_finite() { point } else { 0.0 };
+        let mut finite: Vec<f64> = draws
+            .into_iter()
+            .filter(|d| d.is_finite())
+            .map(|d| centre + self.spread * (d - centre))
+            .collect();
         let tail = (1.0 - self.confidence) / 2.0;
         let (low, high) = if finite.len() >= 10 {
             (
@@ -319,6 +337,45 @@ pub struct Appraiser {
     now: Reading,
     training_now: f64,
     options: Vec<CostOption>,
+    readings: Vec<OptionReadings>,
+}
+
+/// The readings behind an option's headline estimate, kept so that the gains can be scored
+/// again under another fairness measure (the backtest does), with two simpler estimates beside.
+#[derive(Debug, Clone)]
+pub struct OptionReadings {
+    /// Before the purchase (today's curve, or for rows of one group that group's curve).
+    pub now: Reading,
+    /// After it, as acquest estimates.
+    pub after: Reading,
+    /// After it with no extrapolation: what the last measured anchor shows (for rows, nothing
+    /// is measured beyond today, so no change; for a feature, the with-minus-without difference
+    /// measured at the pilot's full size, carried over).
+    pub last_anchor: Reading,
+    /// After it by the pilot's with-feature curve alone, read at today's training rows (features
+    /// with a pilot curve only).
+    pub direct: Option<Reading>,
+}
+
+/// Accuracy gain and unfairness reduction from `now` to `after` under `measure`, with intervals
+/// at `confidence`.
+pub fn score_readings(
+    data: &Dataset,
+    measure: FairnessMeasure,
+    trials: &crate::settings::TrialSettings,
+    now: &Reading,
+    after: &Reading,
+) -> (Change, Change) {
+    let scorer = Scorer {
+        data,
+        measure,
+        weigh_accuracy: 1.0,
+        weigh_fairness: 1.0,
+        confidence: trials.confidence,
+        spread: overlap_spread(trials),
+    };
+    let p = scorer.purchase(now, after, 0, 0.0, 0.0, f64::INFINITY);
+    (p.accuracy_gain, p.unfairness_reduction)
 }
 
 /// A plan's gains estimated with its options taken together.
@@ -338,6 +395,11 @@ impl Appraiser {
     /// The checked cost-sheet options.
     pub fn options(&self) -> &[CostOption] {
         &self.options
+    }
+
+    /// The readings behind each option's headline estimate, in the options' order.
+    pub fn readings(&self) -> &[OptionReadings] {
+        &self.readings
     }
 
     /// Re-scores a plan (option names with the rows bought; 0 for features) jointly: the rows
@@ -456,6 +518,7 @@ impl Appraiser {
             weigh_accuracy: self.appraisal.weigh_accuracy,
             weigh_fairness: self.appraisal.weigh_fairness,
             confidence: self.settings.trials.confidence,
+            spread: overlap_spread(&self.settings.trials),
         };
         let p = scorer.purchase(&self.now, &after, any_rows, 0.0, at, f64::INFINITY);
         Ok(Ok(JointScore {
@@ -487,6 +550,43 @@ pub fn run_with_options(
             .map(|b| format!("{b:02x}"))
             .collect::<String>()
     };
+    let inputs = baseline::inputs(settings, &table, &data);
+    let input = AppraisalInput {
+        data,
+        options,
+        inputs,
+        costs_sha256: sha256,
+        held_features: true,
+    };
+    appraise_dataset(input, settings, appraisal, progress)
+}
+
+/// What [`appraise_dataset`] values: a dataset already loaded and options already checked.
+pub struct AppraisalInput {
+    pub data: Dataset,
+    pub options: Vec<CostOption>,
+    /// The inputs section of the report.
+    pub inputs: Inputs,
+    /// SHA-256 of the cost sheet's bytes.
+    pub costs_sha256: String,
+    /// Whether to run the ablation and permutation trials of the features held.
+    pub held_features: bool,
+}
+
+/// Values every option of `input` (the whole appraisal after loading).
+pub fn appraise_dataset(
+    input: AppraisalInput,
+    settings: &Settings,
+    appraisal: &AppraisalSettings,
+    progress: ProgressSink,
+) -> Result<(AppraisalReport, Appraiser)> {
+    let AppraisalInput {
+        data,
+        options,
+        inputs,
+        costs_sha256: sha256,
+        held_features: with_held,
+    } = input;
     let trials = &settings.trials;
     let rows = data.rows();
     let all_rows: Vec<usize> = (0..rows).collect();
@@ -525,6 +625,7 @@ pub fn run_with_options(
         weigh_accuracy: appraisal.weigh_accuracy,
         weigh_fairness: appraisal.weigh_fairness,
         confidence: trials.confidence,
+        spread: overlap_spread(trials),
     };
     let (today_unfairness, worst) = scorer
         .unfairness(&now.point)
@@ -544,9 +645,17 @@ pub fn run_with_options(
     };
 
     let mut values = Vec::new();
+    let mut readings = Vec::new();
     for (index, option) in options.iter().enumerate() {
         let value = match &option.acquisition {
             Acquisition::Rows { filter: None } => {
+                let most = option.row_steps().last().copied().unwrap_or(0);
+                readings.push(OptionReadings {
+                    now: now.clone(),
+                    after: main.fitted.read(training_at(most)),
+                    last_anchor: now.clone(),
+                    direct: None,
+                });
                 let steps: Vec<Purchase> = option
                     .row_steps()
                     .into_iter()
@@ -582,6 +691,13 @@ pub fn run_with_options(
                 )?;
                 let group_rows = data.groups.iter().filter(|&&x| x as usize == g).count() as f64;
                 let now_g = group_curves.read(m_now);
+                let most = option.row_steps().last().copied().unwrap_or(0) as f64;
+                readings.push(OptionReadings {
+                    now: now_g.clone(),
+                    after: group_curves.read(m_now * (group_rows + most) / group_rows),
+                    last_anchor: now_g.clone(),
+                    direct: None,
+                });
                 let steps: Vec<Purchase> = option
                     .row_steps()
                     .into_iter()
@@ -607,32 +723,40 @@ pub fn run_with_options(
                     trials.confidence,
                 )
             }
-            Acquisition::Feature { column } => feature_value(
-                &data,
-                settings,
-                &scorer,
-                option,
-                column,
-                index,
-                &main.fitted,
-                &now,
-                &overall_steps,
-                training_at,
-                progress,
-                &mut warnings,
-            )?,
+            Acquisition::Feature { column } => {
+                let (value, reading) = feature_value(
+                    &data,
+                    settings,
+                    &scorer,
+                    option,
+                    column,
+                    index,
+                    &main.fitted,
+                    &now,
+                    &overall_steps,
+                    training_at,
+                    progress,
+                    &mut warnings,
+                )?;
+                readings.push(reading);
+                value
+            }
         };
         values.push(value);
     }
 
-    let held_features = held_features(&data, settings, appraisal.fairness, progress)?;
+    let held_features = if with_held {
+        held_features(&data, settings, appraisal.fairness, progress)?
+    } else {
+        Vec::new()
+    };
     let ranking = rank(&values);
     let report = AppraisalReport {
         format: FORMAT.into(),
         format_version: FORMAT_VERSION,
         tool_version: env!("CARGO_PKG_VERSION").into(),
         command: "appraise".into(),
-        inputs: baseline::inputs(settings, &table, &data),
+        inputs,
         costs: CostInputs {
             path: appraisal.costs.display().to_string(),
             sha256,
@@ -674,6 +798,7 @@ pub fn run_with_options(
         now,
         training_now,
         options,
+        readings,
     };
     Ok((report, appraiser))
 }
@@ -834,7 +959,7 @@ fn feature_value(
     training_at: impl Fn(usize) -> f64,
     progress: ProgressSink,
     warnings: &mut Vec<String>,
-) -> Result<OptionValue> {
+) -> Result<(OptionValue, OptionReadings)> {
     let trials = &settings.trials;
     let rows = data.rows();
     let pilot = costs::pilot_rows(data, column);
@@ -886,11 +1011,13 @@ fn feature_value(
     // The pilot's with-minus-without difference as a function of training size, how far it
     // was measured, the direct extrapolation where there is a curve, and the pilot's summary.
     type DifferenceAt<'a> = Box<dyn Fn(f64) -> Reading + 'a>;
-    let (difference_at, reach, direct, pilot_summary): (
+    let (difference_at, reach, direct, pilot_summary, last_anchor, direct_reading): (
         DifferenceAt,
         f64,
         Option<Purchase>,
         PilotSummary,
+        Reading,
+        Option<Reading>,
     ) = match (without, with) {
         (Ok(without), Ok(with)) => {
             let difference = learning::DifferenceCurves::fit(
@@ -901,9 +1028,17 @@ fn feature_value(
                 trials.seed,
             );
             let reach = with.fitted.largest() as f64;
+            let direct_reading = with.fitted.read(training_now);
+            let last_anchor = anchored(
+                now,
+                &difference_of(
+                    &reading_from_outcomes(data, &with.outcomes, trials.seed),
+                    &reading_from_outcomes(data, &without.outcomes, trials.seed),
+                ),
+            );
             let direct = scorer.purchase(
                 now,
-                &with.fitted.read(training_now),
+                &direct_reading,
                 0,
                 option.feature_cost(rows),
                 training_now,
@@ -924,6 +1059,8 @@ fn feature_value(
                 reach,
                 Some(direct),
                 summary,
+                last_anchor,
+                Some(direct_reading),
             )
         }
         (without, with) => {
@@ -956,11 +1093,14 @@ fn feature_value(
                 false,
                 trials.confidence,
             );
+            let last_anchor = anchored(now, &difference);
             (
                 Box::new(move |_| difference.clone()),
                 f64::INFINITY,
                 None,
                 summary,
+                last_anchor,
+                None,
             )
         }
     };
@@ -977,6 +1117,12 @@ fn feature_value(
         )
     };
     let estimate = purchase(0);
+    let readings = OptionReadings {
+        now: now.clone(),
+        after: anchored(&full.read(training_now), &difference_at(training_now)),
+        last_anchor,
+        direct: direct_reading,
+    };
     let steps: Vec<Purchase> = overall_steps.iter().map(|&d| purchase(d)).collect();
     if pilot_summary.training_rows < SMALL_PILOT_ROWS {
         flags.push(format!(
@@ -990,7 +1136,7 @@ fn feature_value(
         );
     }
     flags.extend(option_flags(option, &estimate, trials.confidence));
-    Ok(OptionValue {
+    let value = OptionValue {
         name: option.name.clone(),
         kind: "feature".into(),
         target: Some(column.to_string()),
@@ -1001,7 +1147,8 @@ fn feature_value(
         direct,
         pilot: Some(pilot_summary),
         flags,
-    })
+    };
+    Ok((value, readings))
 }
 
 /// Trials on the pilot at its full size only, without and with the candidate (paired).

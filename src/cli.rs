@@ -39,6 +39,9 @@ enum Command {
     /// The budgeted plan: which options to buy within the budget, and the best plan at other
     /// budgets.
     Plan(Box<PlanArgs>),
+    /// How far the appraisal can be trusted on this data: hold rows and features back, appraise
+    /// buying them, buy them for real, and compare predicted with realised gains.
+    Backtest(Box<BacktestArgs>),
     /// Write the invented demo scenario to a folder and run it.
     Demo(DemoArgs),
     /// Render a saved plan report (JSON) as Markdown or HTML.
@@ -68,6 +71,35 @@ struct PlanArgs {
     /// Write the plan as one self-contained HTML file with charts.
     #[arg(long, value_name = "FILE")]
     html: Option<PathBuf>,
+}
+
+#[derive(Args)]
+struct BacktestArgs {
+    #[command(flatten)]
+    data: DataArgs,
+    #[command(flatten)]
+    trials: TrialArgs,
+    /// Share of the rows to hold back and offer as an option to buy [default: 0.5].
+    #[arg(long, value_name = "SHARE")]
+    hold_rows: Option<f64>,
+    /// Features to blank outside a random pilot and offer as options, comma-separated.
+    #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
+    hold_features: Option<Vec<String>>,
+    /// Share of the remaining rows on which a held feature stays filled [default: 0.2].
+    #[arg(long, value_name = "SHARE")]
+    pilot: Option<f64>,
+    /// Also offer the held-back rows of this group alone.
+    #[arg(long, value_name = "GROUP")]
+    hold_group: Option<String>,
+    /// Random hold-outs to run [default: 3].
+    #[arg(long, value_name = "N")]
+    rounds: Option<usize>,
+    /// Fairness measure the best option by fairness is named by: spd, di, eod or aod
+    /// [default: eod]. All four are measured.
+    #[arg(long, value_name = "MEASURE")]
+    fairness: Option<String>,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 #[derive(Args)]
@@ -405,6 +437,25 @@ fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     write_outputs(&report, render::appraisal_text(&report), output)
 }
 
+fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
+    let choices = args.data.choices(args.trials)?;
+    let fairness = args.fairness.or(choices.fairness.clone());
+    let settings = Settings::from_choices(choices)?;
+    let backtest = acquest::backtest::BacktestSettings {
+        hold_rows: args.hold_rows.unwrap_or(0.5),
+        hold_features: args.hold_features.unwrap_or_default(),
+        pilot: args.pilot.unwrap_or(0.2),
+        hold_group: args.hold_group,
+        rounds: args.rounds.unwrap_or(3),
+        fairness: appraise::FairnessMeasure::parse(fairness.as_deref().unwrap_or("eod"))?,
+    };
+    let bar = progress_bar(args.output.quiet);
+    let show = shown_on(&bar);
+    let report = acquest::backtest::run(&settings, &backtest, &show)?;
+    bar.finish_and_clear();
+    write_outputs(&report, render::backtest_text(&report), &args.output)
+}
+
 fn run_curves(choices: Choices, svg: Option<&Path>, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
     let curve_settings = CurveSettings::from_choices(&choices)?;
@@ -485,6 +536,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 &output,
             )
         }
+        Command::Backtest(args) => run_backtest(*args),
         Command::Render(args) => {
             let text = std::fs::read_to_string(&args.report).map_err(|e| acquest::Error::File {
                 path: args.report.clone(),

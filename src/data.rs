@@ -82,6 +82,27 @@ impl Column {
         }
     }
 
+    /// This column with every row where `keep[i]` is false made missing.
+    pub fn masked(&self, keep: &[bool]) -> Column {
+        let values = match &self.values {
+            Values::Numeric(v) => {
+                Values::Numeric(v.iter().zip(keep).map(|(x, &k)| x.filter(|_| k)).collect())
+            }
+            Values::Categorical { levels, codes } => Values::Categorical {
+                levels: levels.clone(),
+                codes: codes
+                    .iter()
+                    .zip(keep)
+                    .map(|(&c, &k)| if k { c } else { MISSING })
+                    .collect(),
+            },
+        };
+        Column {
+            name: self.name.clone(),
+            values,
+        }
+    }
+
     /// This column restricted to the rows in `keep`, in that order.
     pub fn take(&self, keep: &[usize]) -> Column {
         let values = match &self.values {

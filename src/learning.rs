@@ -421,8 +421,27 @@ pub fn smallest_size(
 struct QuantityFit {
     per_repeat: Vec<Vec<Option<f64>>>,
     choice: Option<Choice>,
-    /// Bootstrap refits of the chosen family (one per draw; `None` where a draw could not fit).
-    replicates: Vec<Option<Fit>>,
+    /// Bootstrap refits (one per draw; `None` where a draw could not fit).
+    replicates: Vec<Option<Replicate>>,
+}
+
+/// One bootstrap refit. A draw that chooses no trend still carries the doubt about the trend:
+/// the trend a log curve finds in the draw, less the one it finds in all repeats, is added, so
+/// such draws centre on no change with the spread of a slope the data cannot tell from zero.
+struct Replicate {
+    fit: Fit,
+    /// For a flat draw: the log fit on this draw and on all repeats.
+    trend: Option<(Fit, Fit)>,
+}
+
+impl Replicate {
+    fn predict(&self, n: f64) -> f64 {
+        let doubt = self
+            .trend
+            .as_ref()
+            .map_or(0.0, |(draw, all)| draw.predict(n) - all.predict(n));
+        self.fit.predict(n) + doubt
+    }
 }
 
 impl QuantityFit {
@@ -484,6 +503,12 @@ fn fit_quantity(
         }
     };
     let choice = curve::choose_with_noise(&kept_sizes, &means, held_back, noise);
+    let trend_all = curve::fit(
+        curve::Family::Log2,
+        &kept_sizes,
+        &means,
+        &curve::size_weights(&kept_sizes),
+    );
     let replicates = match &choice {
         None => Vec::new(),
         Some(choice) => draws
@@ -496,8 +521,16 @@ fn fit_quantity(
                 let s: Vec<f64> = kept.iter().map(|&i| sizes[i]).collect();
                 let family = curve::choose_with_noise(&s, &means, held_back, noise)
                     .map_or(choice.fit().family, |c| c.fit().family);
-                let f = curve::fit(family, &s, &means, &curve::size_weights(&s));
-                (f.status != curve::FitStatus::Failed).then_some(f)
+                let weights = curve::size_weights(&s);
+                let f = curve::fit(family, &s, &means, &weights);
+                let trend = (family == curve::Family::Flat)
+                    .then(|| curve::fit(curve::Family::Log2, &s, &means, &weights))
+                    .filter(|t| {
+                        t.status != curve::FitStatus::Failed
+                            && trend_all.status != curve::FitStatus::Failed
+                    })
+                    .map(|t| (t, trend_all.clone()));
+                (f.status != curve::FitStatus::Failed).then_some(Replicate { fit: f, trend })
             })
             .collect(),
     };

@@ -4,6 +4,7 @@
 //! and never prints; the binary parses flags, calls it and renders.
 
 pub mod appraise;
+pub mod backtest;
 pub mod baseline;
 pub mod costs;
 pub mod curve;

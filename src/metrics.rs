@@ -323,6 +323,30 @@ pub fn fisher_exact_two_sided(a: u64, b: u64, c: u64, d: u64) -> f64 {
     p.min(1.0)
 }
 
+/// Spearman's rank correlation: Pearson's correlation of the ranks, ties given their mean rank.
+/// `None` with fewer than two pairs or when either side has no spread.
+pub fn spearman(a: &[f64], b: &[f64]) -> Option<f64> {
+    if a.len() != b.len() || a.len() < 2 {
+        return None;
+    }
+    let ranks = |x: &[f64]| -> Vec<f64> {
+        x.iter()
+            .map(|v| {
+                let below = x.iter().filter(|w| *w < v).count() as f64;
+                let equal = x.iter().filter(|w| *w == v).count() as f64;
+                below + (equal + 1.0) / 2.0
+            })
+            .collect()
+    };
+    let (ra, rb) = (ranks(a), ranks(b));
+    let mean = |r: &[f64]| r.iter().sum::<f64>() / r.len() as f64;
+    let (ma, mb) = (mean(&ra), mean(&rb));
+    let cov: f64 = ra.iter().zip(&rb).map(|(x, y)| (x - ma) * (y - mb)).sum();
+    let va: f64 = ra.iter().map(|x| (x - ma).powi(2)).sum();
+    let vb: f64 = rb.iter().map(|y| (y - mb).powi(2)).sum();
+    (va > 0.0 && vb > 0.0).then(|| cov / (va * vb).sqrt())
+}
+
 /// A mean over trials with its interval and a test against the ideal value.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Estimate {
@@ -508,6 +532,18 @@ mod tests {
         let (z, p) = two_proportion_z_test(45, 100, 60, 100).unwrap();
         assert!(close(z, -2.1239769762143657, 1e-9), "{z}");
         assert!(close(p, 0.033672068856345855, 1e-9), "{p}");
+    }
+
+    #[test]
+    fn spearman_matches_scipy_with_ties() {
+        // scipy 1.17.1, scipy.stats.spearmanr([0.1, 0.4, 0.4, 0.2, -0.3, 0.9], [1, 3, 2, 2, 0, 5])
+        // .statistic = 0.9558823529411764 (tests/reference/reference.py).
+        let rho = spearman(
+            &[0.1, 0.4, 0.4, 0.2, -0.3, 0.9],
+            &[1.0, 3.0, 2.0, 2.0, 0.0, 5.0],
+        );
+        assert!(close(rho.unwrap(), 0.9558823529411764, 1e-12));
+        assert_eq!(spearman(&[1.0, 1.0], &[1.0, 2.0]), None, "no spread");
     }
 
     #[test]

@@ -117,12 +117,23 @@ pub fn run_trial(
     train: &[usize],
     test: &[usize],
 ) -> Result<TrialOutcome> {
-    let encoder = Encoder::fit(&data.features, train);
-    let x_train = encoder.transform(&data.features, train);
+    run_trial_on(data, &data.features, family, train, test)
+}
+
+/// [`run_trial`] on the given feature columns (indexed by row, like the dataset's).
+pub fn run_trial_on(
+    data: &Dataset,
+    columns: &[Column],
+    family: &dyn ModelFamily,
+    train: &[usize],
+    test: &[usize],
+) -> Result<TrialOutcome> {
+    let encoder = Encoder::fit(columns, train);
+    let x_train = encoder.transform(columns, train);
     let y_train: Vec<bool> = train.iter().map(|&i| data.labels[i]).collect();
     let model = family.fit(x_train.view(), &y_train)?;
     drop(x_train);
-    let x_test = encoder.transform(&data.features, test);
+    let x_test = encoder.transform(columns, test);
     let scores = model.scores(x_test.view());
     Ok(measure(data, family, test, &scores, train.len()))
 }

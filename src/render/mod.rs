@@ -1032,6 +1032,169 @@ pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
         .collect()
 }
 
+/// A realised gain with its interval, marked when significant at the backtest's level.
+fn realised_cell(r: &crate::backtest::RealisedGain, significance: f64) -> String {
+    let star = if r.p_value.is_some_and(|p| p < significance) {
+        " *"
+    } else {
+        ""
+    };
+    match (r.low, r.high) {
+        (Some(l), Some(h)) => format!("{:+.4} [{:+.4}, {:+.4}]{star}", r.mean, l, h),
+        _ => format!("{:+.4}{star}", r.mean),
+    }
+}
+
+/// The backtest report as terminal text.
+pub fn backtest_text(report: &crate::backtest::BacktestReport) -> String {
+    let mut out = String::new();
+    let b = &report.backtest;
+    let inputs = &report.inputs;
+    let confidence = inputs.confidence;
+    let _ = writeln!(
+        out,
+        "Backtest of the appraisal on {} ({} rows), groups by {}: {} round{}, {:.0}% of rows held back{}{}.",
+        inputs.data.path,
+        thousands(inputs.data.rows),
+        inputs.protected,
+        b.rounds,
+        if b.rounds == 1 { "" } else { "s" },
+        b.hold_rows * 100.0,
+        match &b.hold_group {
+            Some(g) => format!(" (also offered as rows of {g} alone)"),
+            None => String::new(),
+        },
+        if b.hold_features.is_empty() {
+            String::new()
+        } else {
+            format!(
+                ", {} blanked outside {:.0}% pilots",
+                b.hold_features.join(", "),
+                b.pilot * 100.0
+            )
+        }
+    );
+    let _ = writeln!(
+        out,
+        "Each option is appraised on what is left, then bought for real and measured with the same trials ({} repeats, {} model).",
+        inputs.repeats, inputs.model
+    );
+    let fairness = b.fairness.name();
+    for quantity in ["accuracy", fairness] {
+        let title = if quantity == "accuracy" {
+            "accuracy gain".to_string()
+        } else {
+            format!("{quantity} unfairness reduction")
+        };
+        let _ = writeln!(
+            out,
+            "\nPredicted and realised {title} ({:.0}% intervals; * realised differs from 0 at p < {})",
+            confidence * 100.0,
+            report.significance
+        );
+        let mut table = Table::new(&[
+            "round",
+            "option",
+            "acquest",
+            "last anchor",
+            "pilot alone",
+            "realised",
+        ]);
+        for round in &report.rounds {
+            for option in &round.options {
+                if let Some(q) = option.quantities.iter().find(|q| q.quantity == quantity) {
+                    table.row(vec![
+                        (round.round + 1).to_string(),
+                        option.option.clone(),
+                        change_cell(&q.acquest, 1.0),
+                        change_cell(&q.last_anchor, 1.0),
+                        change_cell(&q.pilot_alone, 1.0),
+                        realised_cell(&q.realised, report.significance),
+                    ]);
+                }
+            }
+        }
+        table.render(&mut out);
+    }
+    for summary in report
+        .summary
+        .iter()
+        .filter(|s| s.quantity == "accuracy" || s.quantity == fairness)
+    {
+        let _ = writeln!(
+            out,
+            "\nHow well each method did: {} (over every option and round)",
+            if summary.quantity == "accuracy" {
+                "accuracy gain".to_string()
+            } else {
+                format!("{} unfairness reduction", summary.quantity)
+            }
+        );
+        let mut table = Table::new(&[
+            "method",
+            "mean abs. error (pp)",
+            "RMSE net of noise (pp)",
+            "coverage",
+            "signs right",
+            "Spearman (all)",
+            "Spearman (distinct)",
+            "best named",
+        ]);
+        for m in &summary.methods {
+            table.row(vec![
+                m.method.clone(),
+                m.mean_absolute_error_pp
+                    .map_or("n/a".into(), |e| format!("{e:.2}")),
+                m.error_net_of_noise_pp
+                    .map_or("n/a".into(), |e| format!("{e:.2}")),
+                match (m.coverage, m.coverage_allowing_noise) {
+                    (Some(c), Some(n)) => {
+                        format!(
+                            "{:.0}% ({:.0}%) of {}",
+                            c * 100.0,
+                            n * 100.0,
+                            m.with_interval
+                        )
+                    }
+                    _ => "no intervals".into(),
+                },
+                format!("{} of {}", m.sign_correct, m.significant),
+                m.spearman_all.map_or("n/a".into(), |r| format!("{r:.2}")),
+                match m.spearman_distinct {
+                    Some(r) => format!("{r:.2} in {} rounds", m.distinct_rounds),
+                    None => "n/a (none distinct)".into(),
+                },
+                format!(
+                    "{} of {} ({} or tied)",
+                    m.best_named, m.rounds_compared, m.best_named_or_tied
+                ),
+            ]);
+        }
+        table.render(&mut out);
+        let _ = writeln!(
+            out,
+            "  Nominal coverage {:.0}%. The realised value is itself measured with noise, so even exact intervals cover it less often than nominal; in brackets, the coverage with that noise allowed for.",
+            summary.nominal_coverage * 100.0
+        );
+    }
+    out.push_str("\nTargets\n");
+    for t in &report.targets {
+        let _ = writeln!(
+            out,
+            "  [{}] {}: {}",
+            if t.met { "met" } else { "not met" },
+            t.target,
+            t.figure
+        );
+    }
+    out.push_str("\nMethods\n");
+    for m in &report.methods {
+        let _ = writeln!(out, "  - {}: {}", m.method, m.description);
+    }
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
 fn warnings_and_cautions(out: &mut String, warnings: &[String], cautions: &[String]) {
     if !warnings.is_empty() {
         out.push_str("\nWarnings\n");

@@ -66,6 +66,9 @@ table = [[30, 70, 12, 28], [300, 560, 110, 290]]
 r = stats.chi2_contingency(table, correction=False)
 print("chi2:", repr(r.statistic), repr(r.pvalue), r.dof)
 
+r = stats.spearmanr([0.1, 0.4, 0.4, 0.2, -0.3, 0.9], [1, 3, 2, 2, 0, 5])
+print("spearmanr:", repr(r.statistic))
+
 # Permutation importance and drop-column importance, logistic regression on standardised columns.
 from sklearn.inspection import permutation_importance
 from sklearn.preprocessing import StandardScaler

@@ -1,0 +1,1272 @@
+//! `acquest backtest`: how far the appraisal can be trusted, measured on the user's own data.
+//! From a full dataset, rows are held back and chosen features are blanked outside a random
+//! pilot; the options of buying them back are appraised on what is left, then bought for real
+//! (the held rows added to training, the feature filled on every row) and measured with the same
+//! trial protocol. Predicted and realised gains are compared option by option and summarised,
+//! beside two simpler estimators.
+
+use std::path::PathBuf;
+
+use rand::seq::SliceRandom;
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use crate::appraise::{self, AppraisalInput, AppraisalSettings, FairnessMeasure, OptionReadings};
+use crate::baseline;
+use crate::costs::{Acquisition, CostOption};
+use crate::data::{Column, Dataset};
+use crate::error::{nearest_hint, Error, Result};
+use crate::metrics::{self, estimate, GroupCounts};
+use crate::model;
+use crate::report::{Change, Inputs, CAUTIONS, FORMAT, FORMAT_VERSION};
+use crate::settings::Settings;
+use crate::trial::{self, stream_rng, Progress, ProgressSink, TrialOutcome};
+
+/// Random stream of each round's hold-out and pilots (index: the round).
+const HOLD_STREAM: u64 = 6_000;
+/// Random stream of the realised trials (index: round × 1,000 + repeat).
+const REALISE_STREAM: u64 = 7_000;
+
+/// A realised gain counts as different from zero, and two realised gains as different from
+/// each other, below this p-value (common practice, no source).
+pub const SIGNIFICANCE: f64 = 0.05;
+
+/// The quantities compared: accuracy, then the unfairness of each fairness measure.
+pub const QUANTITIES: [&str; 5] = ["accuracy", "spd", "di", "eod", "aod"];
+
+/// The estimators compared.
+pub const METHODS: [(&str, &str); 3] = [
+    (
+        "acquest",
+        "the appraisal as it stands: rows read off today's learning curves, a feature's paired \
+         pilot difference fitted as a curve and added to today's curve",
+    ),
+    (
+        "last-anchor",
+        "no extrapolation: what the last measured anchor shows (rows: no change, since nothing is \
+         measured beyond today; a feature: the with-minus-without difference at the pilot's full \
+         size)",
+    ),
+    (
+        "pilot-alone",
+        "the pilot's with-feature curve alone, read at today's training rows, against today's \
+         curve (rows options have no pilot and read today's curves as acquest does; a pilot too \
+         small for a curve falls back to its last anchor)",
+    ),
+];
+
+/// What `acquest backtest` holds back and how often.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BacktestSettings {
+    /// Share of the rows held back (0 for none).
+    pub hold_rows: f64,
+    /// Features turned into candidates.
+    pub hold_features: Vec<String>,
+    /// Share of the remaining rows on which a held feature stays filled.
+    pub pilot: f64,
+    /// A group whose held-back rows form an option of their own.
+    pub hold_group: Option<String>,
+    pub rounds: usize,
+    /// The fairness measure the best-by-fairness option is named by.
+    pub fairness: FairnessMeasure,
+}
+
+impl BacktestSettings {
+    /// Checks the shares and counts.
+    pub fn check(&self) -> Result<()> {
+        if !(self.hold_rows.is_finite() && (0.0..=0.9).contains(&self.hold_rows)) {
+            return Err(Error::setting(
+                "--hold-rows",
+                format!("must be a share from 0 to 0.9, not {}", self.hold_rows),
+            ));
+        }
+        if !(self.pilot.is_finite() && self.pilot > 0.0 && self.pilot < 1.0) {
+            return Err(Error::setting(
+                "--pilot",
+                format!("must be a share between 0 and 1, not {}", self.pilot),
+            ));
+        }
+        if !(1..=100).contains(&self.rounds) {
+            return Err(Error::setting(
+                "--rounds",
+                format!("must be from 1 to 100, not {}", self.rounds),
+            ));
+        }
+        if self.hold_rows == 0.0 && self.hold_features.is_empty() {
+            return Err(Error::setting(
+                "--hold-features",
+                "nothing is held back: give --hold-rows above 0 or --hold-features",
+            ));
+        }
+        if self.hold_group.is_some() && self.hold_rows == 0.0 {
+            return Err(Error::setting(
+                "--hold-group",
+                "needs held-back rows (--hold-rows above 0)",
+            ));
+        }
+        Ok(())
+    }
+}
+
+/// One round's hold-out, as indices into the full dataset.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RoundSplit {
+    /// Rows the appraisal sees, sorted.
+    pub kept: Vec<usize>,
+    /// Rows held back, sorted.
+    pub held: Vec<usize>,
+    /// For each held feature, the kept rows on which it stays filled, sorted.
+    pub pilots: Vec<Vec<usize>>,
+}
+
+/// Draws round `round`'s hold-out: the held rows within every (group, label) cell so that the
+/// rows kept keep the data's mix, and each held feature's pilot as a plain random sample of the
+/// kept rows (as a real pilot would be).
+pub fn split_round(
+    data: &Dataset,
+    settings: &BacktestSettings,
+    seed: u64,
+    round: usize,
+) -> RoundSplit {
+    let mut rng = stream_rng(seed, HOLD_STREAM, round as u64);
+    let all: Vec<usize> = (0..data.rows()).collect();
+    let (kept, held) = if settings.hold_rows > 0.0 {
+        trial::stratified_split_of(
+            &all,
+            &data.labels,
+            &data.groups,
+            data.group_list.len(),
+            settings.hold_rows,
+            &mut rng,
+        )
+    } else {
+        (all, Vec::new())
+    };
+    let pilot_rows = ((kept.len() as f64 * settings.pilot).round() as usize).max(1);
+    let pilots = settings
+        .hold_features
+        .iter()
+        .map(|_| {
+            let mut pilot = kept.clone();
+            pilot.shuffle(&mut rng);
+            pilot.truncate(pilot_rows);
+            pilot.sort_unstable();
+            pilot
+        })
+        .collect();
+    RoundSplit { kept, held, pilots }
+}
+
+/// The data the appraisal sees: the kept rows only, the held features taken out of the features
+/// and made candidates filled on their pilots only.
+pub fn reduced_dataset(data: &Dataset, split: &RoundSplit, held_features: &[String]) -> Dataset {
+    let features = data
+        .features
+        .iter()
+        .filter(|c| !held_features.contains(&c.name))
+        .map(|c| c.take(&split.kept))
+        .collect();
+    let mut position = vec![usize::MAX; data.rows()];
+    for (j, &i) in split.kept.iter().enumerate() {
+        position[i] = j;
+    }
+    let candidates = held_features
+        .iter()
+        .zip(&split.pilots)
+        .filter_map(|(name, pilot)| {
+            let column = data.features.iter().find(|c| &c.name == name)?;
+            let mut filled = vec![false; split.kept.len()];
+            for &i in pilot {
+                filled[position[i]] = true;
+            }
+            Some(column.take(&split.kept).masked(&filled))
+        })
+        .collect();
+    Dataset {
+        labels: split.kept.iter().map(|&i| data.labels[i]).collect(),
+        groups: split.kept.iter().map(|&i| data.groups[i]).collect(),
+        features,
+        candidates,
+        rows_read: split.kept.len(),
+        dropped_missing_label: 0,
+        dropped_missing_group: 0,
+        warnings: Vec::new(),
+        group_list: data.group_list.clone(),
+        reference: data.reference,
+        reference_rule: data.reference_rule.clone(),
+        favourable: data.favourable.clone(),
+        unfavourable: data.unfavourable.clone(),
+    }
+}
+
+/// The options of buying back what a round held: the held rows, the held rows of one group, and
+/// each held feature, at a unit cost of 1 per row (costs do not enter the gains compared).
+fn round_options(
+    data: &Dataset,
+    split: &RoundSplit,
+    settings: &BacktestSettings,
+    protected: &str,
+    group: Option<usize>,
+) -> Vec<CostOption> {
+    let option = |name: String, acquisition, max_rows| CostOption {
+        name,
+        acquisition,
+        per_row: 1.0,
+        fixed: 0.0,
+        max_rows,
+        step: None,
+        sensitive: false,
+        note: String::new(),
+    };
+    let mut options = Vec::new();
+    if !split.held.is_empty() {
+        options.push(option(
+            "held-back rows".into(),
+            Acquisition::Rows { filter: None },
+            Some(split.held.len()),
+        ));
+    }
+    if let Some(g) = group {
+        let name = &data.group_list[g].name;
+        let count = split
+            .held
+            .iter()
+            .filter(|&&i| data.groups[i] as usize == g)
+            .count();
+        options.push(option(
+            format!("held-back rows of {name}"),
+            Acquisition::Rows {
+                filter: Some((protected.to_string(), name.clone())),
+            },
+            Some(count),
+        ));
+    }
+    for column in &settings.hold_features {
+        options.push(option(
+            format!("feature {column}"),
+            Acquisition::Feature {
+                column: column.clone(),
+            },
+            None,
+        ));
+    }
+    options
+}
+
+/// The rows of one realised trial, as indices into the full dataset.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RealisedSplit {
+    /// Training part of the kept rows (what the appraisal's "today" trains on).
+    pub train: Vec<usize>,
+    /// Test part of the kept rows: every realised model of the repeat is scored on it.
+    pub test: Vec<usize>,
+    /// The held rows' training share, split at the same test fraction, so that buying them
+    /// grows the training rows as the appraisal assumes (`today × (rows + new) / rows`).
+    pub held_train: Vec<usize>,
+    /// The held rows' test share, not used: the test rows stay those of today.
+    pub held_test: Vec<usize>,
+}
+
+/// Repeat `repeat` of round `round`: one stratified split of the kept rows and one of the held
+/// rows.
+pub fn realised_split(
+    data: &Dataset,
+    split: &RoundSplit,
+    test_fraction: f64,
+    seed: u64,
+    round: usize,
+    repeat: usize,
+) -> RealisedSplit {
+    let mut rng = stream_rng(seed, REALISE_STREAM, (round * 1_000 + repeat) as u64);
+    let group_count = data.group_list.len();
+    let (train, test) = trial::stratified_split_of(
+        &split.kept,
+        &data.labels,
+        &data.groups,
+        group_count,
+        test_fraction,
+        &mut rng,
+    );
+    let (held_train, held_test) = trial::stratified_split_of(
+        &split.held,
+        &data.labels,
+        &data.groups,
+        group_count,
+        test_fraction,
+        &mut rng,
+    );
+    RealisedSplit {
+        train,
+        test,
+        held_train,
+        held_test,
+    }
+}
+
+/// The training rows of an option bought for real: today's plus the held rows' training share
+/// (all of it, or one group's), or today's alone for a feature.
+pub fn realised_training(data: &Dataset, option: &CostOption, rows: &RealisedSplit) -> Vec<usize> {
+    let mut train = rows.train.clone();
+    match &option.acquisition {
+        Acquisition::Rows { filter: None } => train.extend_from_slice(&rows.held_train),
+        Acquisition::Rows {
+            filter: Some((_, name)),
+        } => train.extend(
+            rows.held_train
+                .iter()
+                .filter(|&&i| data.group_list[data.groups[i] as usize].name == *name),
+        ),
+        Acquisition::Feature { .. } => {}
+    }
+    train.sort_unstable();
+    train
+}
+
+/// A gain measured for real: the mean over repeats of the paired difference (option against
+/// today, same test rows), its interval and p-value with the corrected resampled variance.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RealisedGain {
+    pub mean: f64,
+    pub low: Option<f64>,
+    pub high: Option<f64>,
+    pub p_value: Option<f64>,
+    pub standard_error: Option<f64>,
+    /// The paired difference of every repeat (missing where a rate was undefined).
+    pub per_repeat: Vec<Option<f64>>,
+}
+
+/// One quantity of one option in one round: the three predictions and what happened.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct QuantityRecord {
+    /// accuracy, or the unfairness reduction of spd, di, eod or aod.
+    pub quantity: String,
+    pub acquest: Change,
+    pub last_anchor: Change,
+    pub pilot_alone: Change,
+    pub realised: RealisedGain,
+}
+
+impl QuantityRecord {
+    fn predicted(&self, method: usize) -> &Change {
+        match method {
+            0 => &self.acquest,
+            1 => &self.last_anchor,
+            _ => &self.pilot_alone,
+        }
+    }
+}
+
+/// One option of one round.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct OptionRecord {
+    pub option: String,
+    /// rows, group rows or feature.
+    pub kind: String,
+    /// Rows bought (held rows, or the group's held rows), or rows covered by the feature.
+    pub rows: usize,
+    pub quantities: Vec<QuantityRecord>,
+}
+
+/// One round: what was held, and every option.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RoundRecord {
+    pub round: usize,
+    pub kept_rows: usize,
+    pub held_rows: usize,
+    /// Pilot rows of each held feature.
+    pub pilots: Vec<PilotRows>,
+    pub options: Vec<OptionRecord>,
+    /// Warnings of the round's appraisal.
+    pub warnings: Vec<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PilotRows {
+    pub feature: String,
+    pub rows: usize,
+}
+
+/// How well one method did on one quantity, over every option of every round.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct MethodSummary {
+    pub method: String,
+    /// Option-rounds compared.
+    pub entries: usize,
+    /// Mean absolute error of the predicted gains, in percentage points.
+    pub mean_absolute_error_pp: Option<f64>,
+    /// Root mean squared error against the true gain, in percentage points, estimated by taking
+    /// the realised gains' own squared standard errors out of the squared errors
+    /// (E(p − r)² = E(p − t)² + E se²); zero when the noise explains all the error.
+    pub error_net_of_noise_pp: Option<f64>,
+    /// Option-rounds whose predicted interval exists, and whose realised mean falls in it.
+    pub with_interval: usize,
+    pub covered: usize,
+    pub coverage: Option<f64>,
+    /// The same with each predicted interval widened by the realised gain's own measurement
+    /// error (its two sides combined in quadrature with the realised standard error at the same
+    /// level): an exact interval would cover about the nominal share by this count.
+    pub covered_allowing_noise: usize,
+    pub coverage_allowing_noise: Option<f64>,
+    /// Realised gains significantly different from zero, and how many of their signs were
+    /// predicted.
+    pub significant: usize,
+    pub sign_correct: usize,
+    /// Spearman's correlation of predicted and realised gains over the options of a round,
+    /// averaged over rounds.
+    pub spearman_all: Option<f64>,
+    /// The same over each round's chain of options whose realised gains differ significantly
+    /// from each other; the options in those chains, and the rounds with a chain of two or more.
+    pub spearman_distinct: Option<f64>,
+    pub distinct_entries: usize,
+    pub distinct_rounds: usize,
+    /// Rounds whose best option by this quantity was named correctly; named, or the option named
+    /// does not do significantly worse than the best.
+    pub best_named: usize,
+    pub best_named_or_tied: usize,
+    /// Rounds with at least two options (where naming the best means anything).
+    pub rounds_compared: usize,
+}
+
+/// Every method on one quantity.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct QuantitySummary {
+    pub quantity: String,
+    /// The nominal level of the predicted intervals.
+    pub nominal_coverage: f64,
+    pub methods: Vec<MethodSummary>,
+}
+
+/// One of the quality targets, checked on this run.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TargetCheck {
+    pub target: String,
+    pub met: bool,
+    pub figure: String,
+}
+
+/// A named method and what it does.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct MethodNote {
+    pub method: String,
+    pub description: String,
+}
+
+/// The `acquest backtest` report.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BacktestReport {
+    pub format: String,
+    pub format_version: u32,
+    pub tool_version: String,
+    pub command: String,
+    pub inputs: Inputs,
+    pub backtest: BacktestSettings,
+    pub significance: f64,
+    pub methods: Vec<MethodNote>,
+    pub rounds: Vec<RoundRecord>,
+    /// Accuracy first, then each fairness measure.
+    pub summary: Vec<QuantitySummary>,
+    /// The quality targets for accuracy and the chosen fairness measure.
+    pub targets: Vec<TargetCheck>,
+    pub warnings: Vec<String>,
+    pub cautions: Vec<String>,
+}
+
+/// Runs `acquest backtest`.
+pub fn run(
+    settings: &Settings,
+    backtest: &BacktestSettings,
+    progress: ProgressSink,
+) -> Result<BacktestReport> {
+    backtest.check()?;
+    let (table, data) = Dataset::load(settings)?;
+    for name in &backtest.hold_features {
+        if !data.features.iter().any(|c| &c.name == name) {
+            return Err(Error::UnknownColumn {
+                flag: "--hold-features".into(),
+                name: name.clone(),
+                hint: nearest_hint(name, data.features.iter().map(|c| c.name.as_str())),
+            });
+        }
+    }
+    if backtest.hold_features.len() >= data.features.len() {
+        return Err(Error::setting(
+            "--hold-features",
+            "holds every feature back; at least one must stay for today's model",
+        ));
+    }
+    let group = match &backtest.hold_group {
+        Some(name) => Some(
+            data.group_list
+                .iter()
+                .position(|g| &g.name == name)
+                .ok_or_else(|| Error::UnknownValue {
+                    flag: "--hold-group".into(),
+                    column: settings.schema.protected.clone(),
+                    value: name.clone(),
+                    hint: nearest_hint(name, data.group_list.iter().map(|g| g.name.as_str())),
+                })?,
+        ),
+        None => None,
+    };
+    let appraisal = AppraisalSettings {
+        costs: PathBuf::from("(built by the backtest: unit cost 1 per row)"),
+        currency: "units".into(),
+        fairness: backtest.fairness,
+        weigh_accuracy: 1.0,
+        weigh_fairness: 1.0,
+    };
+    let inputs = baseline::inputs(settings, &table, &data);
+    drop(table);
+    let mut rounds = Vec::new();
+    for round in 0..backtest.rounds {
+        rounds.push(run_round(
+            &data, settings, backtest, &appraisal, &inputs, group, round, progress,
+        )?);
+    }
+    let test_fraction = settings.trials.test_fraction;
+    let summary: Vec<QuantitySummary> = QUANTITIES
+        .iter()
+        .map(|q| {
+            summarise(
+                &rounds,
+                q,
+                settings.trials.confidence,
+                test_fraction / (1.0 - test_fraction),
+            )
+        })
+        .collect();
+    let targets = check_targets(&summary, backtest.fairness.name());
+    let mut warnings = data.warnings.clone();
+    if data.rows() < 2_000 {
+        warnings.push(format!(
+            "{} rows: realised gains on test parts this small are noisy, so few of them differ \
+             significantly from zero and coverage and rank figures rest on few cases",
+            data.rows()
+        ));
+    }
+    Ok(BacktestReport {
+        format: FORMAT.into(),
+        format_version: FORMAT_VERSION,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
+        command: "backtest".into(),
+        inputs,
+        backtest: backtest.clone(),
+        significance: SIGNIFICANCE,
+        methods: METHODS
+            .iter()
+            .map(|(m, d)| MethodNote {
+                method: m.to_string(),
+                description: d.to_string(),
+            })
+            .collect(),
+        rounds,
+        summary,
+        targets,
+        warnings,
+        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+#[allow(clippy::too_many_arguments)]
+fn run_round(
+    data: &Dataset,
+    settings: &Settings,
+    backtest: &BacktestSettings,
+    appraisal: &AppraisalSettings,
+    inputs: &Inputs,
+    group: Option<usize>,
+    round: usize,
+    progress: ProgressSink,
+) -> Result<RoundRecord> {
+    let trials = &settings.trials;
+    let split = split_round(data, backtest, trials.seed, round);
+    let reduced = reduced_dataset(data, &split, &backtest.hold_features);
+    let options = round_options(data, &split, backtest, &settings.schema.protected, group);
+    let (report, appraiser) = appraise::appraise_dataset(
+        AppraisalInput {
+            data: reduced.clone(),
+            options: options.clone(),
+            inputs: inputs.clone(),
+            costs_sha256: String::new(),
+            held_features: false,
+        },
+        settings,
+        appraisal,
+        progress,
+    )?;
+    let outcomes = realise(data, &split, backtest, &options, settings, round, progress)?;
+    let test_to_train = trials.test_fraction / (1.0 - trials.test_fraction);
+    let records = options
+        .iter()
+        .enumerate()
+        .map(|(k, option)| {
+            let readings = &appraiser.readings()[k];
+            let quantities = QUANTITIES
+                .iter()
+                .map(|&q| {
+                    let realised =
+                        realised_gain(data, q, &outcomes, k, trials.confidence, test_to_train);
+                    let predict = |after: &crate::learning::Reading| {
+                        predicted(&reduced, q, trials, readings, after)
+                    };
+                    QuantityRecord {
+                        quantity: q.to_string(),
+                        acquest: predict(&readings.after),
+                        last_anchor: predict(&readings.last_anchor),
+                        pilot_alone: predict(readings.direct.as_ref().unwrap_or(
+                            if matches!(option.acquisition, Acquisition::Feature { .. }) {
+                                &readings.last_anchor
+                            } else {
+                                &readings.after
+                            },
+                        )),
+                        realised,
+                    }
+                })
+                .collect();
+            OptionRecord {
+                option: option.name.clone(),
+                kind: match &option.acquisition {
+                    Acquisition::Rows { filter: None } => "rows",
+                    Acquisition::Rows { .. } => "group rows",
+                    Acquisition::Feature { .. } => "feature",
+                }
+                .into(),
+                rows: option.max_rows.unwrap_or(split.kept.len()),
+                quantities,
+            }
+        })
+        .collect();
+    Ok(RoundRecord {
+        round,
+        kept_rows: split.kept.len(),
+        held_rows: split.held.len(),
+        pilots: backtest
+            .hold_features
+            .iter()
+            .zip(&split.pilots)
+            .map(|(f, p)| PilotRows {
+                feature: f.clone(),
+                rows: p.len(),
+            })
+            .collect(),
+        options: records,
+        warnings: report.warnings,
+    })
+}
+
+/// The predicted change of quantity `q` from the readings' `now` to `after`.
+fn predicted(
+    reduced: &Dataset,
+    q: &str,
+    trials: &crate::settings::TrialSettings,
+    readings: &OptionReadings,
+    after: &crate::learning::Reading,
+) -> Change {
+    let measure = FairnessMeasure::parse(if q == "accuracy" { "eod" } else { q })
+        .unwrap_or(FairnessMeasure::Eod);
+    let (accuracy, fairness) =
+        appraise::score_readings(reduced, measure, trials, &readings.now, after);
+    if q == "accuracy" {
+        accuracy
+    } else {
+        fairness
+    }
+}
+
+/// Realised trials: for every repeat, today's model and one model per option, all scored on
+/// the repeat's test part of the kept rows. Returns `[repeat][0 today, 1.. options]`.
+fn realise(
+    data: &Dataset,
+    split: &RoundSplit,
+    backtest: &BacktestSettings,
+    options: &[CostOption],
+    settings: &Settings,
+    round: usize,
+    progress: ProgressSink,
+) -> Result<Vec<Vec<TrialOutcome>>> {
+    let trials = &settings.trials;
+    let family = model::family(trials.model);
+    let today: Vec<Column> = data
+        .features
+        .iter()
+        .filter(|c| !backtest.hold_features.contains(&c.name))
+        .cloned()
+        .collect();
+    let total = trials.repeats * (options.len() + 1);
+    let done = std::sync::atomic::AtomicUsize::new(0);
+    let stage = "realised trials";
+    progress(Progress {
+        stage,
+        done: 0,
+        total,
+    });
+    let tick = || {
+        progress(Progress {
+            stage,
+            done: done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1,
+            total,
+        })
+    };
+    (0..trials.repeats)
+        .into_par_iter()
+        .map(|repeat| {
+            let rows = realised_split(
+                data,
+                split,
+                trials.test_fraction,
+                trials.seed,
+                round,
+                repeat,
+            );
+            let mut outcomes = Vec::with_capacity(options.len() + 1);
+            outcomes.push(trial::run_trial_on(
+                data,
+                &today,
+                family.as_ref(),
+                &rows.train,
+                &rows.test,
+            )?);
+            tick();
+            for option in options {
+                let train = realised_training(data, option, &rows);
+                let outcome = match &option.acquisition {
+                    Acquisition::Feature { column } => {
+                        let mut with = today.clone();
+                        with.extend(data.features.iter().find(|c| &c.name == column).cloned());
+                        trial::run_trial_on(data, &with, family.as_ref(), &train, &rows.test)?
+                    }
+                    Acquisition::Rows { .. } => {
+                        trial::run_trial_on(data, &today, family.as_ref(), &train, &rows.test)?
+                    }
+                };
+                outcomes.push(outcome);
+                tick();
+            }
+            Ok(outcomes)
+        })
+        .collect()
+}
+
+/// Unfairness of the worst compared group in one trial under `measure`.
+fn trial_unfairness(
+    data: &Dataset,
+    measure: FairnessMeasure,
+    counts: &[GroupCounts],
+) -> Option<f64> {
+    let r = data.reference;
+    (0..data.group_list.len())
+        .filter(|&g| g != r)
+        .filter_map(|g| measure.unfairness_of_counts(&counts[g], &counts[r]))
+        .max_by(f64::total_cmp)
+}
+
+/// The realised gain of option `k` in quantity `q`: accuracy after minus before, or unfairness
+/// before minus after, paired repeat by repeat.
+fn realised_gain(
+    data: &Dataset,
+    q: &str,
+    outcomes: &[Vec<TrialOutcome>],
+    k: usize,
+    confidence: f64,
+    test_to_train: f64,
+) -> RealisedGain {
+    let per_repeat: Vec<Option<f64>> = outcomes
+        .iter()
+        .map(|repeat| {
+            let (before, after) = (&repeat[0], &repeat[k + 1]);
+            if q == "accuracy" {
+                Some(after.accuracy - before.accuracy)
+            } else {
+                let measure = FairnessMeasure::parse(q).ok()?;
+                Some(
+                    trial_unfairness(data, measure, &before.counts)?
+                        - trial_unfairness(data, measure, &after.counts)?,
+                )
+            }
+        })
+        .collect();
+    let values: Vec<f64> = per_repeat.iter().flatten().copied().collect();
+    let e = estimate(&values, confidence, test_to_train, Some(0.0));
+    let standard_error = e.as_ref().and_then(|e| {
+        let n = e.trials as f64;
+        e.std_dev
+            .map(|s| (s * s * (1.0 / n + test_to_train)).sqrt())
+    });
+    RealisedGain {
+        mean: e.as_ref().map_or(f64::NAN, |e| e.mean),
+        low: e.as_ref().and_then(|e| e.low),
+        high: e.as_ref().and_then(|e| e.high),
+        p_value: e.as_ref().and_then(|e| e.p_value),
+        standard_error,
+        per_repeat,
+    }
+}
+
+/// One option-round of one quantity, flattened for the summary.
+struct Entry<'a> {
+    round: usize,
+    record: &'a QuantityRecord,
+    test_to_train: f64,
+}
+
+/// Whether two option-rounds' realised gains differ significantly: paired over repeats within
+/// a round (they share today's trials), independent normal test across rounds.
+fn differ(a: &Entry, b: &Entry, confidence: f64) -> bool {
+    let (ra, rb) = (&a.record.realised, &b.record.realised);
+    if a.round == b.round {
+        let d: Vec<f64> = ra
+            .per_repeat
+            .iter()
+            .zip(&rb.per_repeat)
+            .filter_map(|(x, y)| Some((*x)? - (*y)?))
+            .collect();
+        estimate(&d, confidence, a.test_to_train, Some(0.0))
+            .and_then(|e| e.p_value)
+            .is_some_and(|p| p < SIGNIFICANCE)
+    } else {
+        match (ra.standard_error, rb.standard_error) {
+            (Some(sa), Some(sb)) if sa > 0.0 || sb > 0.0 => {
+                let z = (ra.mean - rb.mean).abs() / (sa * sa + sb * sb).sqrt();
+                // Two-sided 5% point of the standard normal (statrs, as metrics uses).
+                z > 1.959_963_984_540_054
+            }
+            _ => (ra.mean - rb.mean).abs() > 0.0,
+        }
+    }
+}
+
+fn summarise(
+    rounds: &[RoundRecord],
+    quantity: &str,
+    confidence: f64,
+    test_to_train: f64,
+) -> QuantitySummary {
+    let entries: Vec<Entry> = rounds
+        .iter()
+        .flat_map(|r| {
+            r.options.iter().filter_map(move |o| {
+                o.quantities
+                    .iter()
+                    .find(|q| q.quantity == quantity)
+                    .map(|record| Entry {
+                        round: r.round,
+                        record,
+                        test_to_train,
+                    })
+            })
+        })
+        .filter(|e| e.record.realised.mean.is_finite())
+        .collect();
+    // In every round, a chain of options whose realised gains differ significantly from each
+    // other: walk them from the lowest realised gain up, keeping each that differs from every
+    // one kept.
+    let chains: Vec<Vec<usize>> = rounds
+        .iter()
+        .map(|round| {
+            let mut here: Vec<usize> = (0..entries.len())
+                .filter(|&i| entries[i].round == round.round)
+                .collect();
+            here.sort_by(|&a, &b| {
+                entries[a]
+                    .record
+                    .realised
+                    .mean
+                    .total_cmp(&entries[b].record.realised.mean)
+            });
+            let mut chain: Vec<usize> = Vec::new();
+            for i in here {
+                if chain
+                    .iter()
+                    .all(|&j| differ(&entries[i], &entries[j], confidence))
+                {
+                    chain.push(i);
+                }
+            }
+            chain
+        })
+        .collect();
+    let methods = (0..METHODS.len())
+        .map(|m| {
+            let predicted = |e: &Entry| e.record.predicted(m).mean;
+            let realised = |e: &Entry| e.record.realised.mean;
+            let errors: Vec<f64> = entries
+                .iter()
+                .map(|e| (predicted(e) - realised(e)).abs() * 100.0)
+                .collect();
+            let net = {
+                let squared: Vec<f64> = entries
+                    .iter()
+                    .map(|e| {
+                        let se = e.record.realised.standard_error.unwrap_or(0.0);
+                        (predicted(e) - realised(e)).powi(2) - se * se
+                    })
+                    .collect();
+                (!squared.is_empty()).then(|| {
+                    (squared.iter().sum::<f64>() / squared.len() as f64)
+                        .max(0.0)
+                        .sqrt()
+                        * 100.0
+                })
+            };
+            let with_interval: Vec<&Entry> = entries
+                .iter()
+                .filter(|e| {
+                    let c = e.record.predicted(m);
+                    c.low.is_some() && c.high.is_some()
+                })
+                .collect();
+            let covered = with_interval
+                .iter()
+                .filter(|e| {
+                    let c = e.record.predicted(m);
+                    let r = realised(e);
+                    c.low.is_some_and(|l| l <= r) && c.high.is_some_and(|h| r <= h)
+                })
+                .count();
+            let z = statrs::distribution::Normal::new(0.0, 1.0)
+                .map(|n| {
+                    use statrs::distribution::ContinuousCDF;
+                    n.inverse_cdf(0.5 + confidence / 2.0)
+                })
+                .unwrap_or(1.645);
+            let covered_allowing_noise = with_interval
+                .iter()
+                .filter(|e| {
+                    let c = e.record.predicted(m);
+                    let r = realised(e);
+                    let noise = z * e.record.realised.standard_error.unwrap_or(0.0);
+                    let widen = |side: f64| (side * side + noise * noise).sqrt();
+                    match (c.low, c.high) {
+                        (Some(l), Some(h)) => {
+                            c.mean - widen(c.mean - l) <= r && r <= c.mean + widen(h - c.mean)
+                        }
+                        _ => false,
+                    }
+                })
+                .count();
+            let significant: Vec<&Entry> = entries
+                .iter()
+                .filter(|e| e.record.realised.p_value.is_some_and(|p| p < SIGNIFICANCE))
+                .collect();
+            let sign_correct = significant
+                .iter()
+                .filter(|e| predicted(e).signum() == realised(e).signum() && predicted(e) != 0.0)
+                .count();
+            // Spearman's correlation within each round (the options a user would rank), averaged
+            // over the rounds where it is defined.
+            let within = |sets: &mut dyn Iterator<Item = Vec<usize>>| -> Option<f64> {
+                let values: Vec<f64> = sets
+                    .filter_map(|set| {
+                        let (p, r): (Vec<f64>, Vec<f64>) = set
+                            .iter()
+                            .map(|&i| (predicted(&entries[i]), realised(&entries[i])))
+                            .unzip();
+                        metrics::spearman(&p, &r)
+                    })
+                    .collect();
+                (!values.is_empty()).then(|| values.iter().sum::<f64>() / values.len() as f64)
+            };
+            let spearman_all = within(&mut rounds.iter().map(|round| {
+                (0..entries.len())
+                    .filter(|&i| entries[i].round == round.round)
+                    .collect()
+            }));
+            let spearman_distinct = within(&mut chains.iter().cloned());
+            let (mut named, mut tied, mut compared) = (0, 0, 0);
+            for round in rounds {
+                let here: Vec<&Entry> = entries.iter().filter(|e| e.round == round.round).collect();
+                if here.len() < 2 {
+                    continue;
+                }
+                compared += 1;
+                let best = |f: &dyn Fn(&Entry) -> f64| {
+                    (0..here.len())
+                        .max_by(|&a, &b| f(here[a]).total_cmp(&f(here[b])).then(b.cmp(&a)))
+                        .unwrap_or(0)
+                };
+                let (chosen, truly) = (best(&predicted), best(&realised));
+                if chosen == truly {
+                    named += 1;
+                    tied += 1;
+                } else if !differ(here[chosen], here[truly], confidence) {
+                    tied += 1;
+                }
+            }
+            MethodSummary {
+                method: METHODS[m].0.to_string(),
+                entries: entries.len(),
+                mean_absolute_error_pp: (!errors.is_empty())
+                    .then(|| errors.iter().sum::<f64>() / errors.len() as f64),
+                error_net_of_noise_pp: net,
+                with_interval: with_interval.len(),
+                covered,
+                coverage: (!with_interval.is_empty())
+                    .then(|| covered as f64 / with_interval.len() as f64),
+                covered_allowing_noise,
+                coverage_allowing_noise: (!with_interval.is_empty())
+                    .then(|| covered_allowing_noise as f64 / with_interval.len() as f64),
+                significant: significant.len(),
+                sign_correct,
+                spearman_all,
+                spearman_distinct,
+                distinct_entries: chains.iter().map(Vec::len).sum(),
+                distinct_rounds: chains.iter().filter(|c| c.len() >= 2).count(),
+                best_named: named,
+                best_named_or_tied: tied,
+                rounds_compared: compared,
+            }
+        })
+        .collect();
+    QuantitySummary {
+        quantity: quantity.to_string(),
+        nominal_coverage: confidence,
+        methods,
+    }
+}
+
+/// The quality targets of the backtest, for accuracy and the chosen fairness measure.
+fn check_targets(summary: &[QuantitySummary], fairness: &str) -> Vec<TargetCheck> {
+    let mut checks = Vec::new();
+    for quantity in ["accuracy", fairness] {
+        let Some(s) = summary.iter().find(|s| s.quantity == quantity) else {
+            continue;
+        };
+        let label = if quantity == "accuracy" {
+            "accuracy gain".to_string()
+        } else {
+            format!("{quantity} unfairness reduction")
+        };
+        let ours = &s.methods[0];
+        let pct = |x: Option<f64>| x.map_or("n/a".into(), |x| format!("{:.0}%", x * 100.0));
+        let num = |x: Option<f64>| x.map_or("n/a".into(), |x| format!("{x:.2}"));
+        checks.push(TargetCheck {
+            target: format!("best option by {label} named in every round"),
+            met: ours.rounds_compared > 0 && ours.best_named == ours.rounds_compared,
+            figure: format!(
+                "{} of {} rounds ({} named or tied with the best)",
+                ours.best_named, ours.rounds_compared, ours.best_named_or_tied
+            ),
+        });
+        checks.push(TargetCheck {
+            target: format!("sign of every significant realised {label} predicted"),
+            met: ours.sign_correct == ours.significant,
+            figure: format!("{} of {}", ours.sign_correct, ours.significant),
+        });
+        checks.push(TargetCheck {
+            target: format!(
+                "Spearman at least 0.8 over the options whose realised {label} differ significantly, within a round"
+            ),
+            met: ours.spearman_distinct.is_some_and(|r| r >= 0.8),
+            figure: format!(
+                "{} (mean over {} rounds, {} options in all; {} over all options)",
+                num(ours.spearman_distinct),
+                ours.distinct_rounds,
+                ours.distinct_entries,
+                num(ours.spearman_all),
+            ),
+        });
+        checks.push(TargetCheck {
+            target: format!(
+                "{:.0}% intervals of the {label} cover 70% to 90% of realised values",
+                s.nominal_coverage * 100.0
+            ),
+            met: ours.coverage.is_some_and(|c| (0.7..=0.9).contains(&c)),
+            figure: format!(
+                "{} ({} of {})",
+                pct(ours.coverage),
+                ours.covered,
+                ours.with_interval
+            ),
+        });
+        if quantity == "accuracy" {
+            checks.push(TargetCheck {
+                target: "mean absolute error of accuracy gains at most 0.5 percentage points"
+                    .into(),
+                met: ours.mean_absolute_error_pp.is_some_and(|e| e <= 0.5),
+                figure: format!(
+                    "{} pp (root mean squared error net of the realised gains' noise: {} pp)",
+                    num(ours.mean_absolute_error_pp),
+                    num(ours.error_net_of_noise_pp)
+                ),
+            });
+        }
+        let mae = |m: &MethodSummary| m.mean_absolute_error_pp.unwrap_or(f64::INFINITY);
+        let beaten: Vec<&MethodSummary> = s.methods[1..].iter().collect();
+        checks.push(TargetCheck {
+            target: format!("smaller mean absolute error of the {label} than both baselines"),
+            met: beaten.iter().all(|b| mae(ours) < mae(b)),
+            figure: format!(
+                "{} pp against {}",
+                num(ours.mean_absolute_error_pp),
+                beaten
+                    .iter()
+                    .map(|b| format!("{} {} pp", b.method, num(b.mean_absolute_error_pp)))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        });
+    }
+    checks
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::data::{Group, Values};
+
+    /// 400 rows, two groups, an `id` feature that names each row and a second feature.
+    fn small() -> Dataset {
+        let rows = 400;
+        let numeric = |name: &str, f: &dyn Fn(usize) -> f64| Column {
+            name: name.into(),
+            values: Values::Numeric((0..rows).map(|i| Some(f(i))).collect()),
+        };
+        Dataset {
+            labels: (0..rows).map(|i| i % 3 == 0).collect(),
+            groups: (0..rows).map(|i| u32::from(i % 4 == 0)).collect(),
+            group_list: vec![
+                Group {
+                    name: "a".into(),
+                    definition: "g = a".into(),
+                },
+                Group {
+                    name: "b".into(),
+                    definition: "g = b".into(),
+                },
+            ],
+            reference: 0,
+            reference_rule: String::new(),
+            features: vec![
+                numeric("id", &|i| i as f64),
+                numeric("x", &|i| (i % 7) as f64),
+            ],
+            candidates: Vec::new(),
+            favourable: "yes".into(),
+            unfavourable: "no".into(),
+            rows_read: rows,
+            dropped_missing_label: 0,
+            dropped_missing_group: 0,
+            warnings: Vec::new(),
+        }
+    }
+
+    fn settings() -> BacktestSettings {
+        BacktestSettings {
+            hold_rows: 0.4,
+            hold_features: vec!["x".into()],
+            pilot: 0.25,
+            hold_group: Some("b".into()),
+            rounds: 2,
+            fairness: FairnessMeasure::Eod,
+        }
+    }
+
+    fn ids(column: &Column) -> Vec<Option<f64>> {
+        match &column.values {
+            Values::Numeric(v) => v.clone(),
+            Values::Categorical { .. } => unreachable!(),
+        }
+    }
+
+    #[test]
+    fn held_rows_never_reach_the_reduced_data() {
+        let data = small();
+        for round in 0..3 {
+            let split = split_round(&data, &settings(), 9, round);
+            let mut both: Vec<usize> = split.kept.iter().chain(&split.held).copied().collect();
+            both.sort_unstable();
+            assert_eq!(
+                both,
+                (0..400).collect::<Vec<_>>(),
+                "kept and held partition the rows"
+            );
+            assert_eq!(split.held.len(), 160, "40% held");
+            let reduced = reduced_dataset(&data, &split, &settings().hold_features);
+            let seen: Vec<usize> = ids(&reduced.features[0])
+                .into_iter()
+                .map(|v| v.unwrap() as usize)
+                .collect();
+            assert_eq!(
+                seen, split.kept,
+                "the reduced data holds exactly the kept rows"
+            );
+            assert!(seen.iter().all(|i| !split.held.contains(i)));
+            let labels: Vec<bool> = split.kept.iter().map(|&i| data.labels[i]).collect();
+            assert_eq!(reduced.labels, labels);
+            assert_eq!(reduced.features.len(), 1, "x is taken out of the features");
+            // The held feature is filled exactly on its pilot, and nowhere else.
+            let candidate = &reduced.candidates[0];
+            assert_eq!(candidate.name, "x");
+            let filled: Vec<usize> = (0..reduced.rows())
+                .filter(|&j| !candidate.is_missing(j))
+                .map(|j| split.kept[j])
+                .collect();
+            assert_eq!(filled, split.pilots[0]);
+            assert_eq!(filled.len(), 60, "a quarter of the 240 kept rows");
+        }
+        assert_ne!(
+            split_round(&data, &settings(), 9, 0).held,
+            split_round(&data, &settings(), 9, 1).held,
+            "rounds hold back different rows"
+        );
+    }
+
+    #[test]
+    fn realised_runs_add_exactly_the_held_rows() {
+        let data = small();
+        let split = split_round(&data, &settings(), 9, 0);
+        let options = round_options(&data, &split, &settings(), "g", Some(1));
+        assert_eq!(options.len(), 3);
+        for repeat in 0..4 {
+            let rows = realised_split(&data, &split, 0.3, 9, 0, repeat);
+            let mut held: Vec<usize> = rows
+                .held_train
+                .iter()
+                .chain(&rows.held_test)
+                .copied()
+                .collect();
+            held.sort_unstable();
+            assert_eq!(
+                held, split.held,
+                "the held rows' two shares are the held rows"
+            );
+            assert!(
+                rows.test.iter().all(|i| split.kept.contains(i)),
+                "tests on kept rows"
+            );
+            assert!(rows.train.iter().all(|i| split.kept.contains(i)));
+            // Rows: today's training rows plus the held rows' training share, nothing else.
+            let all = realised_training(&data, &options[0], &rows);
+            let mut expected: Vec<usize> =
+                rows.train.iter().chain(&rows.held_train).copied().collect();
+            expected.sort_unstable();
+            assert_eq!(all, expected);
+            // Rows of group b: only b's held rows are added.
+            let of_b = realised_training(&data, &options[1], &rows);
+            let added: Vec<usize> = of_b
+                .iter()
+                .copied()
+                .filter(|i| !rows.train.contains(i))
+                .collect();
+            let b_held: Vec<usize> = rows
+                .held_train
+                .iter()
+                .copied()
+                .filter(|&i| data.groups[i] == 1)
+                .collect();
+            assert_eq!(added, b_held);
+            // A feature trains on today's rows.
+            assert_eq!(realised_training(&data, &options[2], &rows), rows.train);
+        }
+        assert_eq!(
+            options[0].max_rows,
+            Some(split.held.len()),
+            "the rows option buys every held row"
+        );
+        assert_eq!(
+            options[1].max_rows,
+            Some(split.held.iter().filter(|&&i| data.groups[i] == 1).count())
+        );
+    }
+}
