@@ -484,14 +484,20 @@ Disparities against '{}', derived from the fitted rates",
 
 /// "+0.0123 [+0.0050, +0.0190]" for a change, with "*" when it differs from zero.
 fn change_cell(c: &Change, confidence: f64) -> String {
-    let star = if c.p_value.is_some_and(|p| p < 1.0 - confidence) {
-        " *"
-    } else {
-        ""
-    };
-    match (c.low, c.high) {
-        (Some(l), Some(h)) => format!("{:+.4} [{:+.4}, {:+.4}]{star}", c.mean, l, h),
-        _ => format!("{:+.4}{star}", c.mean),
+    signed_cell(
+        c.mean,
+        c.low,
+        c.high,
+        c.p_value.is_some_and(|p| p < 1.0 - confidence),
+    )
+}
+
+/// "+0.0123 [+0.0050, +0.0190] *": a signed value, its interval, a star when significant.
+fn signed_cell(mean: f64, low: Option<f64>, high: Option<f64>, significant: bool) -> String {
+    let star = if significant { " *" } else { "" };
+    match (low, high) {
+        (Some(l), Some(h)) => format!("{mean:+.4} [{l:+.4}, {h:+.4}]{star}"),
+        _ => format!("{mean:+.4}{star}"),
     }
 }
 
@@ -1034,15 +1040,12 @@ pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
 
 /// A realised gain with its interval, marked when significant at the backtest's level.
 fn realised_cell(r: &crate::backtest::RealisedGain, significance: f64) -> String {
-    let star = if r.p_value.is_some_and(|p| p < significance) {
-        " *"
-    } else {
-        ""
-    };
-    match (r.low, r.high) {
-        (Some(l), Some(h)) => format!("{:+.4} [{:+.4}, {:+.4}]{star}", r.mean, l, h),
-        _ => format!("{:+.4}{star}", r.mean),
-    }
+    signed_cell(
+        r.mean,
+        r.low,
+        r.high,
+        r.p_value.is_some_and(|p| p < significance),
+    )
 }
 
 /// The backtest report as terminal text.

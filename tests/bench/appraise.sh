@@ -3,7 +3,7 @@
 # (occupation, relationship, education, each blanked outside a random 20% pilot) and 2 rows
 # options (any, women), 5 repeats; and `acquest demo` end to end. Prints wall time and peak memory
 # against the targets (appraise 60 s, plan 90 s, demo 30 s, 1.5 GiB, on 2 cores).
-# Usage: bash tests/bench/appraise.sh
+# Usage: [KEEP=folder] bash tests/bench/appraise.sh
 set -euo pipefail
 cd "$(dirname "$0")/../.."
 data=../shared/data/adult/adult.data
@@ -42,4 +42,6 @@ read -r wall kb < "$work/time"
 awk -v w="$wall" -v k="$kb" 'BEGIN {
   printf "demo:     wall %.2f s (%.2f of the 30 s target), peak memory %.0f MiB (%.3f of 1.5 GiB)\n",
     w, w / 30, k / 1024, k / 1572864 }'
+# KEEP=folder keeps the appraisal's JSON (docs/appraisal-checks.md reads its figures).
+if [ -n "${KEEP:-}" ]; then mkdir -p "$KEEP" && cp "$work/appraise.json" "$work/plan.json" "$KEEP/"; fi
 rm -rf "$work"
