@@ -879,19 +879,32 @@ fn group_curves(
 ) -> Result<(FittedCurves, f64, f64)> {
     let trials = &settings.trials;
     let all_rows: Vec<usize> = (0..data.rows()).collect();
-    let (train, _) = trial::stratified_split_of(
+    // Repeat 0's split, cut to the cap as the trials cut it: the group's rows there give the
+    // sizes; its rows before the cut are today's count, read by extrapolation when capped.
+    let mut rng = stream_rng(trials.seed, stream, 0);
+    let split = trial::stratified_split_of(
         &all_rows,
         &data.labels,
         &data.groups,
         data.group_list.len(),
         trials.test_fraction,
-        &mut stream_rng(trials.seed, stream, 0),
+        &mut rng,
     );
-    let in_group: Vec<usize> = train
-        .iter()
-        .copied()
-        .filter(|&i| data.groups[i] as usize == g)
-        .collect();
+    let in_group_of = |rows: &[usize]| -> Vec<usize> {
+        rows.iter()
+            .copied()
+            .filter(|&i| data.groups[i] as usize == g)
+            .collect()
+    };
+    let m_today = in_group_of(&split.0).len();
+    let (train, _) = trial::cap_split(
+        data,
+        split,
+        trials.max_train_rows,
+        trials.test_fraction,
+        &mut rng,
+    );
+    let in_group = in_group_of(&train);
     let m_all = in_group.len();
     let favourable = in_group.iter().filter(|&&i| data.labels[i]).count();
     let rarest = favourable.min(m_all - favourable).max(1);
@@ -922,6 +935,7 @@ fn group_curves(
         sizes: &sizes,
         stream,
         stage: "group curves",
+        max_train: trials.max_train_rows,
     };
     let outcomes = trial::nested_trials(
         data,
@@ -942,7 +956,7 @@ fn group_curves(
         &baseline::label_counts(data),
     );
     let largest = fitted.largest() as f64;
-    Ok((fitted, largest, m_all as f64))
+    Ok((fitted, largest, m_today as f64))
 }
 
 #[allow(clippy::too_many_arguments)]
@@ -1161,13 +1175,21 @@ fn pilot_at_full_size(
     progress: ProgressSink,
 ) -> Result<(Outcomes, Outcomes)> {
     let trials = &settings.trials;
-    let (train, _) = trial::stratified_split_of(
+    let mut rng = stream_rng(trials.seed, stream, 0);
+    let split = trial::stratified_split_of(
         pilot,
         &data.labels,
         &data.groups,
         data.group_list.len(),
         trials.test_fraction,
-        &mut stream_rng(trials.seed, stream, 0),
+        &mut rng,
+    );
+    let (train, _) = trial::cap_split(
+        data,
+        split,
+        trials.max_train_rows,
+        trials.test_fraction,
+        &mut rng,
     );
     if train.len() < 10 {
         return Err(Error::NotEnoughData(format!(
@@ -1185,6 +1207,7 @@ fn pilot_at_full_size(
             sizes: &sizes,
             stream,
             stage: "pilot trials",
+            max_train: trials.max_train_rows,
         };
         trial::nested_trials(
             data,
@@ -1339,10 +1362,17 @@ fn held_features(
         .into_par_iter()
         .map(|repeat| -> Result<(Changes, f64)> {
             let mut rng = stream_rng(trials.seed, trial::BASELINE_STREAM, repeat as u64);
-            let (train, test) = trial::stratified_split(
+            let split = trial::stratified_split(
                 &data.labels,
                 &data.groups,
                 data.group_list.len(),
+                trials.test_fraction,
+                &mut rng,
+            );
+            let (train, test) = trial::cap_split(
+                data,
+                split,
+                trials.max_train_rows,
                 trials.test_fraction,
                 &mut rng,
             );
@@ -1371,20 +1401,16 @@ fn held_features(
             let mut work = x_test.clone();
             for f in 0..features {
                 let mut ablation = [None, None];
+                let span = encoder.span(f);
                 if features > 1 {
-                    let kept: Vec<Column> = data
-                        .features
-                        .iter()
-                        .enumerate()
-                        .filter(|&(k, _)| k != f)
-                        .map(|(_, c)| c.clone())
-                        .collect();
-                    let encoder = Encoder::fit(&kept, &train);
-                    let model = family.fit(encoder.transform(&kept, &train).view(), &y_train)?;
-                    let (a, u) = score(&model.scores(encoder.transform(&kept, &test).view()));
+                    // The encoding of the other features is the full one without f's columns.
+                    let x = crate::encode::without_span(&x_train, &span);
+                    let model = family.fit(x.view(), &y_train)?;
+                    drop(x);
+                    let x = crate::encode::without_span(&x_test, &span);
+                    let (a, u) = score(&model.scores(x.view()));
                     ablation = diff(a, u);
                 }
-                let span = encoder.span(f);
                 let (mut sum_a, mut sum_u, mut count_u) = (0.0, 0.0, 0usize);
                 for _ in 0..PERMUTATIONS {
                     let (a, u) = score(&permuted_scores(
@@ -1517,7 +1543,8 @@ mod tests {
         let columns: Vec<Column> = (0..3)
             .map(|j| Column {
                 name: ["a", "b", "c"][j].into(),
-                values: crate::data::Values::Numeric(rows.iter().map(|r| Some(r[j])).collect()),
+                values: crate::data::Values::Numeric(rows.iter().map(|r| Some(r[j])).collect())
+                    .into(),
             })
             .collect();
         let labels: Vec<bool> = rows.iter().map(|r| r[3] == 1.0).collect();

@@ -1120,7 +1120,7 @@ mod tests {
         let rows = 400;
         let numeric = |name: &str, f: &dyn Fn(usize) -> f64| Column {
             name: name.into(),
-            values: Values::Numeric((0..rows).map(|i| Some(f(i))).collect()),
+            values: std::sync::Arc::new(Values::Numeric((0..rows).map(|i| Some(f(i))).collect())),
         };
         Dataset {
             labels: (0..rows).map(|i| i % 3 == 0).collect(),
@@ -1163,7 +1163,7 @@ mod tests {
     }
 
     fn ids(column: &Column) -> Vec<Option<f64>> {
-        match &column.values {
+        match &*column.values {
             Values::Numeric(v) => v.clone(),
             Values::Categorical { .. } => unreachable!(),
         }

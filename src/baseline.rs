@@ -13,14 +13,7 @@ use crate::trial::{self, ProgressSink, TrialOutcome};
 pub fn run(settings: &Settings, progress: ProgressSink) -> Result<BaselineReport> {
     let (table, data) = Dataset::load(settings)?;
     let family = model::family(settings.trials.model);
-    let outcomes = trial::repeated_trials(
-        &data,
-        family.as_ref(),
-        settings.trials.repeats,
-        settings.trials.test_fraction,
-        settings.trials.seed,
-        progress,
-    )?;
+    let outcomes = trial::repeated_trials(&data, family.as_ref(), &settings.trials, progress)?;
     build_report(settings, &table, &data, &outcomes)
 }
 
@@ -77,7 +70,7 @@ pub fn build_report(
         name: c.name.clone(),
         kind: c.kind().to_string(),
         missing: c.missing_count(),
-        levels: match &c.values {
+        levels: match &*c.values {
             Values::Categorical { levels, .. } => Some(levels.len()),
             Values::Numeric(_) => None,
         },
@@ -120,6 +113,7 @@ pub fn inputs(settings: &Settings, table: &Table, data: &Dataset) -> Inputs {
         test_fraction: settings.trials.test_fraction,
         seed: settings.trials.seed,
         confidence: settings.trials.confidence,
+        max_train_rows: settings.trials.max_train_rows,
     }
 }
 

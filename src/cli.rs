@@ -180,6 +180,16 @@ struct DemoArgs {
     /// No progress bars.
     #[arg(long)]
     quiet: bool,
+    /// Draw this many applications instead of the scenario's 3,000 (pilots and the rows on
+    /// offer scale with them), to try acquest on a large file.
+    #[arg(long, value_name = "N")]
+    rows: Option<usize>,
+    /// Add this many invented survey columns to the data file.
+    #[arg(long, value_name = "K")]
+    extra_columns: Option<usize>,
+    /// Also write the data as Parquet (applications.parquet).
+    #[arg(long)]
+    parquet: bool,
 }
 
 #[derive(Args, Default)]
@@ -259,6 +269,10 @@ struct TrialArgs {
     /// Confidence level of the intervals [default: 0.9].
     #[arg(long, value_name = "LEVEL")]
     confidence: Option<f64>,
+    /// Most training rows any one trial uses; larger data are subsampled per trial and today's
+    /// size is read off the curves by extrapolation [default: 40000].
+    #[arg(long, value_name = "ROWS")]
+    max_train_rows: Option<usize>,
 }
 
 #[derive(Args)]
@@ -269,6 +283,9 @@ struct OutputArgs {
     /// No progress bars.
     #[arg(long)]
     quiet: bool,
+    /// When done, print the wall time of each stage and the models fitted to standard error.
+    #[arg(long)]
+    timings: bool,
 }
 
 impl DataArgs {
@@ -295,6 +312,7 @@ impl DataArgs {
             test_fraction: trials.test_fraction,
             seed: trials.seed,
             confidence: trials.confidence,
+            max_train_rows: trials.max_train_rows,
             ..Choices::default()
         };
         let project = match (self.project, self.no_project) {
@@ -309,6 +327,63 @@ impl DataArgs {
     }
 }
 
+/// Wall time per stage, for `--timings`.
+#[derive(Default)]
+struct StageClock {
+    /// Stages in the order they started, with their total time.
+    stages: std::sync::Mutex<Vec<(&'static str, std::time::Duration)>>,
+    current: std::sync::Mutex<Option<(&'static str, std::time::Instant)>>,
+}
+
+impl StageClock {
+    fn enter(&self, stage: &'static str) {
+        let Ok(mut current) = self.current.lock() else {
+            return;
+        };
+        if current.is_some_and(|(s, _)| s == stage) {
+            return;
+        }
+        if let Some((previous, since)) = current.take() {
+            self.add(previous, since.elapsed());
+        }
+        *current = Some((stage, std::time::Instant::now()));
+    }
+
+    fn add(&self, stage: &'static str, time: std::time::Duration) {
+        if let Ok(mut stages) = self.stages.lock() {
+            match stages.iter_mut().find(|(s, _)| *s == stage) {
+                Some((_, total)) => *total += time,
+                None => stages.push((stage, time)),
+            }
+        }
+    }
+
+    /// The report printed by `--timings`.
+    fn report(&self, started: std::time::Instant) -> String {
+        if let Ok(mut current) = self.current.lock() {
+            if let Some((stage, since)) = current.take() {
+                self.add(stage, since.elapsed());
+            }
+        }
+        let mut out = format!(
+            "timings: {:.1} s in all, {} models fitted ({:.1} a second)\n",
+            started.elapsed().as_secs_f64(),
+            acquest::model::fits_so_far(),
+            acquest::model::fits_so_far() as f64 / started.elapsed().as_secs_f64().max(1e-9)
+        );
+        if let Ok(stages) = self.stages.lock() {
+            for (stage, time) in stages.iter() {
+                out.push_str(&format!("  {stage:>20}: {:.1} s\n", time.as_secs_f64()));
+            }
+        }
+        out
+    }
+}
+
+static CLOCK: std::sync::LazyLock<StageClock> = std::sync::LazyLock::new(StageClock::default);
+static STARTED: std::sync::LazyLock<std::time::Instant> =
+    std::sync::LazyLock::new(std::time::Instant::now);
+
 /// A progress bar on stderr, hidden when stderr is not a terminal or with --quiet.
 fn progress_bar(quiet: bool) -> ProgressBar {
     let bar = ProgressBar::with_draw_target(
@@ -320,9 +395,11 @@ fn progress_bar(quiet: bool) -> ProgressBar {
         },
     );
     bar.set_style(
-        ProgressStyle::with_template("{msg:>16} [{bar:30}] {pos}/{len} ({eta} left)")
-            .unwrap_or_else(|_| ProgressStyle::default_bar())
-            .progress_chars("=> "),
+        ProgressStyle::with_template(
+            "{msg:>20} [{bar:30}] {pos}/{len} ({eta} left in this stage; {elapsed} in all)",
+        )
+        .unwrap_or_else(|_| ProgressStyle::default_bar())
+        .progress_chars("=> "),
     );
     bar
 }
@@ -330,6 +407,7 @@ fn progress_bar(quiet: bool) -> ProgressBar {
 /// A progress sink that moves `bar`.
 fn shown_on(bar: &ProgressBar) -> impl Fn(Progress) + Sync + '_ {
     move |p: Progress| {
+        CLOCK.enter(p.stage);
         bar.set_message(p.stage);
         bar.set_length(p.total as u64);
         bar.set_position(p.done as u64);
@@ -498,6 +576,9 @@ fn write_outputs<T: serde::Serialize>(
         }
         None => print!("{text}"),
     }
+    if output.timings {
+        eprint!("{}", CLOCK.report(*STARTED));
+    }
     Ok(())
 }
 
@@ -563,6 +644,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 &OutputArgs {
                     json: None,
                     quiet: true,
+                    timings: false,
                 },
             )
         }
@@ -570,12 +652,27 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             let folder = args
                 .out
                 .unwrap_or_else(|| std::env::temp_dir().join("acquest-demo"));
-            demo::write_demo(&folder)?;
+            let size = demo::DemoSize {
+                rows: args.rows.unwrap_or(demo::DEMO_ROWS),
+                extra_columns: args.extra_columns.unwrap_or(0),
+            };
+            if size.rows < 500 {
+                return Err(acquest::Error::setting(
+                    "--rows",
+                    format!("the demo needs at least 500 rows, not {}", size.rows),
+                )
+                .into());
+            }
+            demo::write_demo(&folder, size)?;
             println!(
                 "Demo scenario (Larkfield Placement Fund, invented) written to {}: \
                  applications.csv, costs.csv, {PROJECT_FILE}",
                 folder.display()
             );
+            if args.parquet {
+                demo::write_parquet_copy(&folder)?;
+                println!("The data also as Parquet: applications.parquet");
+            }
             if args.no_run {
                 return Ok(());
             }
@@ -584,6 +681,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             let output = |name: &str| OutputArgs {
                 json: Some(folder.join(name)),
                 quiet: args.quiet,
+                timings: false,
             };
             run_baseline(choices.clone(), &output("baseline.json"))?;
             println!();
@@ -611,6 +709,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
 
 /// Runs the command line and returns the exit code.
 pub fn main() -> ExitCode {
+    std::sync::LazyLock::force(&STARTED);
     let cli = Cli::parse();
     match run(cli) {
         Ok(()) => ExitCode::SUCCESS,

@@ -456,7 +456,7 @@ pub fn pilot_rows(data: &Dataset, column: &str) -> Vec<usize> {
 pub fn is_numeric(data: &Dataset, column: &str) -> bool {
     data.candidates
         .iter()
-        .any(|c| c.name == column && matches!(c.values, Values::Numeric(_)))
+        .any(|c| c.name == column && matches!(*c.values, Values::Numeric(_)))
 }
 
 #[cfg(test)]

@@ -30,17 +30,18 @@ pub enum Values {
     },
 }
 
-/// One named, typed column.
+/// One named, typed column. The values are shared: cloning a column, or taking all of its rows
+/// in order, copies no data (a million-row file is held once).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Column {
     pub name: String,
-    pub values: Values,
+    pub values: std::sync::Arc<Values>,
 }
 
 impl Column {
     /// Number of rows.
     pub fn len(&self) -> usize {
-        match &self.values {
+        match &*self.values {
             Values::Numeric(v) => v.len(),
             Values::Categorical { codes, .. } => codes.len(),
         }
@@ -53,7 +54,7 @@ impl Column {
 
     /// Whether row `i` is missing.
     pub fn is_missing(&self, i: usize) -> bool {
-        match &self.values {
+        match &*self.values {
             Values::Numeric(v) => v[i].is_none(),
             Values::Categorical { codes, .. } => codes[i] == MISSING,
         }
@@ -66,7 +67,7 @@ impl Column {
 
     /// The cell as text (numbers in their shortest form), `None` when missing.
     pub fn text(&self, i: usize) -> Option<String> {
-        match &self.values {
+        match &*self.values {
             Values::Numeric(v) => v[i].map(|x| format!("{x}")),
             Values::Categorical { levels, codes } => {
                 (codes[i] != MISSING).then(|| levels[codes[i] as usize].clone())
@@ -76,7 +77,7 @@ impl Column {
 
     /// "numeric" or "categorical".
     pub fn kind(&self) -> &'static str {
-        match self.values {
+        match *self.values {
             Values::Numeric(_) => "numeric",
             Values::Categorical { .. } => "categorical",
         }
@@ -84,7 +85,7 @@ impl Column {
 
     /// This column with every row where `keep[i]` is false made missing.
     pub fn masked(&self, keep: &[bool]) -> Column {
-        let values = match &self.values {
+        let values = match &*self.values {
             Values::Numeric(v) => {
                 Values::Numeric(v.iter().zip(keep).map(|(x, &k)| x.filter(|_| k)).collect())
             }
@@ -99,13 +100,17 @@ impl Column {
         };
         Column {
             name: self.name.clone(),
-            values,
+            values: values.into(),
         }
     }
 
-    /// This column restricted to the rows in `keep`, in that order.
+    /// This column restricted to the rows in `keep`, in that order (shared, not copied, when
+    /// `keep` is every row in order).
     pub fn take(&self, keep: &[usize]) -> Column {
-        let values = match &self.values {
+        if keep.len() == self.len() && keep.iter().enumerate().all(|(j, &i)| i == j) {
+            return self.clone();
+        }
+        let values = match &*self.values {
             Values::Numeric(v) => Values::Numeric(keep.iter().map(|&i| v[i]).collect()),
             Values::Categorical { levels, codes } => Values::Categorical {
                 levels: levels.clone(),
@@ -114,7 +119,7 @@ impl Column {
         };
         Column {
             name: self.name.clone(),
-            values,
+            values: values.into(),
         }
     }
 }
@@ -212,12 +217,13 @@ pub fn read_table(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Res
         return Err(format_error("holds no data rows".into()));
     }
     let mut columns = Vec::with_capacity(frame.width());
-    for column in frame.get_columns() {
+    // Each text column is dropped as soon as it is typed, so the file is not held twice.
+    for column in frame.take_columns() {
         let name = column.name().to_string();
         let force_text = categorical.contains(&name);
         columns.push(type_column(
             name,
-            column,
+            &column,
             &csv.missing_tokens,
             force_text,
             (!is_parquet).then_some(lines_before_data),
@@ -434,27 +440,36 @@ fn check_ragged(
     width: usize,
     lines_before_data: usize,
 ) -> Result<()> {
-    let bytes = std::fs::read(path).map_err(|e| Error::File {
+    use std::io::BufRead;
+    let file_error = |e: std::io::Error| Error::File {
         path: path.to_path_buf(),
         reason: e.to_string(),
-    })?;
-    let text = std::str::from_utf8(&bytes).map_err(|e| {
-        let line = bytes[..e.valid_up_to()]
-            .iter()
-            .filter(|&&b| b == b'\n')
-            .count()
-            + 1;
-        Error::Format {
+    };
+    // Line by line, so that a large file is never held twice.
+    let mut reader = std::io::BufReader::new(File::open(path).map_err(file_error)?);
+    let mut buffer = Vec::new();
+    let mut index = 0usize;
+    let mut data_row = 0usize;
+    loop {
+        buffer.clear();
+        if reader.read_until(b'\n', &mut buffer).map_err(file_error)? == 0 {
+            break;
+        }
+        let line = std::str::from_utf8(&buffer).map_err(|_| Error::Format {
             path: path.to_path_buf(),
             reason: format!(
-                "line {line} is not UTF-8 text; convert the file to UTF-8 (for example with \
-                 iconv -f latin1 -t utf-8)"
+                "line {} is not UTF-8 text; convert the file to UTF-8 (for example with \
+                 iconv -f latin1 -t utf-8)",
+                index + 1
             ),
-        }
-    })?;
-    let mut data_row = 0usize;
-    for (index, line) in text.lines().enumerate().skip(lines_before_data) {
-        if line.trim().is_empty() || csv.comment.as_deref().is_some_and(|c| line.starts_with(c)) {
+        })?;
+        let line = line.strip_suffix('\n').unwrap_or(line);
+        let line = line.strip_suffix('\r').unwrap_or(line);
+        index += 1;
+        if index <= lines_before_data
+            || line.trim().is_empty()
+            || csv.comment.as_deref().is_some_and(|c| line.starts_with(c))
+        {
             continue;
         }
         data_row += 1;
@@ -464,8 +479,7 @@ fn check_ragged(
                 return Err(Error::Format {
                     path: path.to_path_buf(),
                     reason: format!(
-                        "line {} (data row {data_row}) has {fields} fields where the file has {width}",
-                        index + 1
+                        "line {index} (data row {data_row}) has {fields} fields where the file has {width}"
                     ),
                 });
             }
@@ -525,7 +539,7 @@ fn type_column(
         }
         return Ok(Column {
             name,
-            values: Values::Numeric(values),
+            values: std::sync::Arc::new(Values::Numeric(values)),
         });
     }
     let text = if matches!(dtype, DataType::String) {
@@ -583,7 +597,7 @@ fn type_column(
             .collect();
         return Ok(Column {
             name,
-            values: Values::Numeric(values),
+            values: std::sync::Arc::new(Values::Numeric(values)),
         });
     }
     let mut index: HashMap<String, u32> = HashMap::new();
@@ -601,7 +615,7 @@ fn type_column(
     }
     Ok(Column {
         name,
-        values: Values::Categorical { levels, codes },
+        values: std::sync::Arc::new(Values::Categorical { levels, codes }),
     })
 }
 
@@ -865,7 +879,7 @@ fn label_key(text: &str) -> &str {
 /// Reads the target as favourable / not; `None` where the label is missing.
 fn read_labels(target: &Column, favourable: &str) -> Result<(Vec<Option<bool>>, String, String)> {
     if let (Values::Numeric(values), Some((op, threshold))) =
-        (&target.values, parse_comparison(favourable))
+        (&*target.values, parse_comparison(favourable))
     {
         let labels: Vec<Option<bool>> = values
             .iter()
@@ -1013,7 +1027,7 @@ fn form_groups(
             }
         }
         if let (Membership::Compare { .. }, Values::Categorical { .. }) =
-            (&rule.member, &protected.values)
+            (&rule.member, &*protected.values)
         {
             return Err(Error::setting(
                 "--groups",
@@ -1031,7 +1045,7 @@ fn form_groups(
             groups.push(None);
             continue;
         };
-        let number = match &protected.values {
+        let number = match &*protected.values {
             Values::Numeric(v) => v[i],
             Values::Categorical { .. } => None,
         };
@@ -1138,7 +1152,7 @@ fn choose_features<'a>(
                 candidates.push(column);
                 continue;
             }
-            if let Values::Categorical { levels, .. } = &column.values {
+            if let Values::Categorical { levels, .. } = &*column.values {
                 if levels.len() > 50 && levels.len() as f64 > 0.5 * (rows - missing) as f64 {
                     warnings.push(format!(
                         "column '{}' has {} distinct values on {} rows and looks like an \

@@ -97,7 +97,8 @@ pub fn draw_applicants(rows: usize, seed: u64, stream: u64, disabled_share: f64)
         .collect()
 }
 
-/// Which rows carry each candidate feature (the pilots): random, disjoint draws.
+/// Which rows carry each candidate feature (the pilots): random draws of the pilot sizes, scaled
+/// with the rows when the demo is drawn larger.
 fn pilot_masks(rows: usize, seed: u64) -> [Vec<bool>; 3] {
     use rand::seq::index::sample;
     let mut rng = stream_rng(seed, 101, 0);
@@ -108,24 +109,57 @@ fn pilot_masks(rows: usize, seed: u64) -> [Vec<bool>; 3] {
         }
         m
     };
+    let scaled = |size: usize| (size as u128 * rows as u128 / DEMO_ROWS as u128) as usize;
     [
-        mask(PILOT_WORK_SAMPLE),
-        mask(PILOT_REFERENCE),
-        mask(PILOT_POSTCODE),
+        mask(scaled(PILOT_WORK_SAMPLE)),
+        mask(scaled(PILOT_REFERENCE)),
+        mask(scaled(PILOT_POSTCODE)),
     ]
 }
 
 /// The data file: current features for every row, candidate features only on pilot rows.
 pub fn applications_csv(applicants: &[Applicant], seed: u64) -> String {
-    let [work, reference, postcode] = pilot_masks(applicants.len(), seed);
-    let mut out = String::from(
-        "applicant_id,disability,test_score,years_experience,region,prior_course,work_sample,reference_rating,postcode_digit,shortlisted\n",
+    let mut out = Vec::new();
+    // Writing to memory cannot fail.
+    let _ = write_applications(
+        &mut out,
+        applicants.iter().cloned(),
+        applicants.len(),
+        seed,
+        0,
     );
+    String::from_utf8(out).unwrap_or_default()
+}
+
+/// Random stream of the extra survey columns of a scaled demo.
+const EXTRA_STREAM: u64 = 102;
+
+/// Writes the data file row by row: `rows` applicants, with `extra` invented survey columns
+/// (answers 1 to 5, or a letter for every fifth, some weakly tied to the hidden qualities).
+pub fn write_applications(
+    out: &mut impl std::io::Write,
+    applicants: impl Iterator<Item = Applicant>,
+    rows: usize,
+    seed: u64,
+    extra: usize,
+) -> std::io::Result<()> {
+    let [work, reference, postcode] = pilot_masks(rows, seed);
+    let mut header = String::from(
+        "applicant_id,disability,test_score,years_experience,region,prior_course,work_sample,reference_rating,postcode_digit",
+    );
+    for k in 0..extra {
+        header.push_str(&format!(",survey_q{:02}", k + 1));
+    }
+    header.push_str(",shortlisted\n");
+    out.write_all(header.as_bytes())?;
     let yes_no = |b: bool| if b { "yes" } else { "no" };
-    for (i, a) in applicants.iter().enumerate() {
+    let mut survey = stream_rng(seed, EXTRA_STREAM, 0);
+    let mut line = String::new();
+    for (i, a) in applicants.enumerate().take(rows) {
         let pilot = |on: bool, text: String| if on { text } else { String::new() };
-        out.push_str(&format!(
-            "LPF-{:05},{},{:.0},{:.1},{},{},{},{},{},{}\n",
+        line.clear();
+        line.push_str(&format!(
+            "LPF-{:05},{},{:.0},{:.1},{},{},{},{},{}",
             i + 1,
             if a.disabled { "declared" } else { "none" },
             a.test_score,
@@ -135,10 +169,27 @@ pub fn applications_csv(applicants: &[Applicant], seed: u64) -> String {
             pilot(work[i], format!("{:.1}", a.work_sample)),
             pilot(reference[i], format!("{:.0}", a.reference_rating)),
             pilot(postcode[i], a.postcode_digit.to_string()),
-            yes_no(a.shortlisted),
         ));
+        for k in 0..extra {
+            let tie = match k % 3 {
+                0 => 0.3 * a.aptitude,
+                1 => 0.3 * a.skill,
+                _ => 0.0,
+            };
+            let answer = (3.0 + tie + normal(&mut survey)).round().clamp(1.0, 5.0);
+            if k % 5 == 4 {
+                line.push(',');
+                line.push(char::from(b'a' + answer as u8 - 1));
+            } else {
+                line.push_str(&format!(",{answer:.0}"));
+            }
+        }
+        line.push(',');
+        line.push_str(yes_no(a.shortlisted));
+        line.push('\n');
+        out.write_all(line.as_bytes())?;
     }
-    out
+    Ok(())
 }
 
 /// A data file with every column filled on every row (no pilots): what the fund would hold
@@ -189,21 +240,86 @@ budget = 20000
 seed = 20261202
 ";
 
-/// Writes the demo scenario into `folder`: applications.csv, costs.csv and acquest.toml.
-pub fn write_demo(folder: &Path) -> Result<()> {
+/// The cost sheet for a demo of `rows` applications: the scenario's, with the rows on offer and
+/// their steps scaled with the data.
+pub fn costs_csv(rows: usize) -> String {
+    if rows == DEMO_ROWS {
+        return COSTS_CSV.to_string();
+    }
+    let scaled = |n: usize| ((n as u128 * rows as u128 / DEMO_ROWS as u128) as usize).max(1);
+    COSTS_CSV
+        .replace(",3000,500,", &format!(",{},{},", scaled(3000), scaled(500)))
+        .replace(",600,100,", &format!(",{},{},", scaled(600), scaled(100)))
+}
+
+/// How large a demo to draw: the committed scenario is `DemoSize::default()`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct DemoSize {
+    pub rows: usize,
+    /// Invented survey columns beyond the scenario's ten.
+    pub extra_columns: usize,
+}
+
+impl Default for DemoSize {
+    fn default() -> Self {
+        DemoSize {
+            rows: DEMO_ROWS,
+            extra_columns: 0,
+        }
+    }
+}
+
+/// Writes the demo scenario into `folder`: applications.csv, costs.csv and acquest.toml. The
+/// applicants are drawn and written one at a time, so a large demo never sits in memory.
+pub fn write_demo(folder: &Path, size: DemoSize) -> Result<()> {
     let io = |e: std::io::Error| Error::File {
         path: folder.to_path_buf(),
         reason: e.to_string(),
     };
     std::fs::create_dir_all(folder).map_err(io)?;
-    let applicants = draw_applicants(DEMO_ROWS, DEMO_SEED, 100, DISABLED_SHARE);
-    std::fs::write(
-        folder.join("applications.csv"),
-        applications_csv(&applicants, DEMO_SEED),
+    let file = std::fs::File::create(folder.join("applications.csv")).map_err(io)?;
+    let mut out = std::io::BufWriter::new(file);
+    let mut rng = stream_rng(DEMO_SEED, 100, 0);
+    let applicants = std::iter::repeat_with(|| draw_applicant(&mut rng, DISABLED_SHARE));
+    write_applications(
+        &mut out,
+        applicants,
+        size.rows,
+        DEMO_SEED,
+        size.extra_columns,
     )
     .map_err(io)?;
-    std::fs::write(folder.join("costs.csv"), COSTS_CSV).map_err(io)?;
-    std::fs::write(folder.join(crate::settings::PROJECT_FILE), PROJECT_TOML).map_err(io)?;
+    std::io::Write::flush(&mut out).map_err(io)?;
+    std::fs::write(folder.join("costs.csv"), costs_csv(size.rows)).map_err(io)?;
+    let project = if size.rows == DEMO_ROWS {
+        PROJECT_TOML.to_string()
+    } else {
+        // The budget grows with the data, so that a large demo still buys something.
+        let budget = (20_000u128 * size.rows as u128 / DEMO_ROWS as u128) as u64;
+        PROJECT_TOML.replace("budget = 20000", &format!("budget = {budget}"))
+    };
+    std::fs::write(folder.join(crate::settings::PROJECT_FILE), project).map_err(io)?;
+    Ok(())
+}
+
+/// Writes applications.csv of `folder` again as applications.parquet, with typed columns.
+pub fn write_parquet_copy(folder: &Path) -> Result<()> {
+    use polars::prelude::{CsvReadOptions, ParquetWriter, SerReader};
+    let csv = folder.join("applications.csv");
+    let parquet = folder.join("applications.parquet");
+    let failed = |path: &Path, reason: String| Error::File {
+        path: path.to_path_buf(),
+        reason,
+    };
+    let mut frame = CsvReadOptions::default()
+        .with_has_header(true)
+        .try_into_reader_with_file_path(Some(csv.clone()))
+        .and_then(|r| r.finish())
+        .map_err(|e| failed(&csv, e.to_string()))?;
+    let file = std::fs::File::create(&parquet).map_err(|e| failed(&parquet, e.to_string()))?;
+    ParquetWriter::new(file)
+        .finish(&mut frame)
+        .map_err(|e| failed(&parquet, e.to_string()))?;
     Ok(())
 }
 

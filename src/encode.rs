@@ -48,7 +48,7 @@ impl Encoder {
         let mut spans = Vec::with_capacity(columns.len());
         for (c, column) in columns.iter().enumerate() {
             let start = names.len();
-            match &column.values {
+            match &*column.values {
                 Values::Numeric(values) => {
                     let mut present: Vec<f64> = rows.iter().filter_map(|&i| values[i]).collect();
                     let missing = rows.len() - present.len();
@@ -159,7 +159,7 @@ impl Encoder {
                     indicator,
                     offset,
                 } => {
-                    let Values::Numeric(values) = &columns[*column].values else {
+                    let Values::Numeric(values) = &*columns[*column].values else {
                         continue;
                     };
                     for (r, &i) in rows.iter().enumerate() {
@@ -176,7 +176,7 @@ impl Encoder {
                     other,
                     missing,
                 } => {
-                    let Values::Categorical { codes, .. } = &columns[*column].values else {
+                    let Values::Categorical { codes, .. } = &*columns[*column].values else {
                         continue;
                     };
                     for (r, &i) in rows.iter().enumerate() {
@@ -209,6 +209,17 @@ fn median(values: &mut [f64]) -> Option<f64> {
     })
 }
 
+/// `x` without the encoded columns in `span`, column-major like the encoder's output. Each
+/// input column is encoded on its own, so this is exactly the encoding of the other columns.
+pub fn without_span(x: &Array2<f64>, span: &std::ops::Range<usize>) -> Array2<f64> {
+    let kept: Vec<usize> = (0..x.ncols()).filter(|c| !span.contains(c)).collect();
+    let mut out = Array2::<f64>::zeros((x.nrows(), kept.len()).f());
+    for (to, &from) in kept.iter().enumerate() {
+        out.column_mut(to).assign(&x.column(from));
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -216,7 +227,7 @@ mod tests {
     fn numeric(name: &str, v: Vec<Option<f64>>) -> Column {
         Column {
             name: name.into(),
-            values: Values::Numeric(v),
+            values: std::sync::Arc::new(Values::Numeric(v)),
         }
     }
 
@@ -246,10 +257,10 @@ mod tests {
         codes.push(3); // a level seen only outside the training rows
         let col = Column {
             name: "c".into(),
-            values: Values::Categorical {
+            values: std::sync::Arc::new(Values::Categorical {
                 levels: vec!["a".into(), "b".into(), "r".into(), "u".into()],
                 codes,
-            },
+            }),
         };
         let training: Vec<usize> = (0..28).collect();
         let enc = Encoder::fit(std::slice::from_ref(&col), &training);

@@ -257,15 +257,34 @@ pub fn measure_curves(
     let trials = &settings.trials;
     let group_count = data.group_list.len();
     // The split of repeat 0 gives the sizes of every repeat (cells are cut the same way).
+    let mut rng = stream_rng(trials.seed, plan.stream, 0);
     let (train, test) = trial::stratified_split_of(
         plan.rows,
         &data.labels,
         &data.groups,
         group_count,
         trials.test_fraction,
-        &mut stream_rng(trials.seed, plan.stream, 0),
+        &mut rng,
     );
+    let (training_rows, test_rows) = (train.len(), test.len());
+    let (train, _) = trial::cap_split(
+        data,
+        (train, test),
+        trials.max_train_rows,
+        trials.test_fraction,
+        &mut rng,
+    );
+    let capped = train.len() < training_rows;
     let (smallest, smallest_rule, mut warnings) = smallest_size(data, &train, plan.smallest)?;
+    if capped {
+        warnings.push(format!(
+            "{} training rows are more than the cap of {} a trial trains on (--max-train-rows): \
+             the curves are measured up to {} rows and read beyond that by extrapolation",
+            training_rows,
+            trials.max_train_rows,
+            train.len()
+        ));
+    }
     let sizes = anchor_sizes(smallest, train.len()).ok_or_else(|| {
         Error::NotEnoughData(format!(
             "too few rows for a learning curve: the training part holds {} rows and the smallest \
@@ -281,6 +300,7 @@ pub fn measure_curves(
         sizes: &sizes,
         stream: plan.stream,
         stage: plan.stage,
+        max_train: trials.max_train_rows,
     };
     let outcomes = trial::nested_trials(
         data,
@@ -302,7 +322,7 @@ pub fn measure_curves(
         data,
         &outcomes,
         &sizes,
-        &requested(train.len()),
+        &requested(training_rows),
         trials.confidence,
         trials.seed,
         &label_counts,
@@ -310,14 +330,15 @@ pub fn measure_curves(
     let top = *sizes.last().unwrap_or(&1) as f64;
     Ok(MeasuredCurves {
         schedule: CurveSchedule {
-            training_rows: train.len(),
-            test_rows: test.len(),
+            training_rows,
+            test_rows,
             sizes,
             smallest_rule,
             repeats: trials.repeats,
             held_back: fitted.held_back,
             bootstrap_draws: BOOTSTRAP_DRAWS,
             reliable_up_to: RELIABLE_MULTIPLE * top,
+            capped,
         },
         fitted,
         warnings,

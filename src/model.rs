@@ -39,6 +39,19 @@ pub trait ModelFamily: Send + Sync {
     fn gives_scores(&self) -> bool;
 }
 
+/// Models fitted by this process so far, counted for `--timings` and the benchmarks; nothing
+/// computed depends on it.
+static FITS: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+
+/// How many models this process has fitted.
+pub fn fits_so_far() -> u64 {
+    FITS.load(std::sync::atomic::Ordering::Relaxed)
+}
+
+fn count_fit() {
+    FITS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+}
+
 /// The family for a model kind, with acquest's default settings.
 pub fn family(kind: ModelKind) -> Box<dyn ModelFamily> {
     match kind {
@@ -104,6 +117,7 @@ impl ModelFamily for Logistic {
         y: &[bool],
         start: Option<&[f64]>,
     ) -> Result<Box<dyn FittedModel>> {
+        count_fit();
         let targets = Array1::from(y.to_vec());
         let dataset = DatasetBase::new(x, targets.view());
         let mut params = LogisticRegression::default()
@@ -235,6 +249,7 @@ impl ModelFamily for Tree {
         y: &[bool],
         _start: Option<&[f64]>,
     ) -> Result<Box<dyn FittedModel>> {
+        count_fit();
         let targets = Array1::from(y.to_vec());
         let weights = Array1::from_iter(y.iter().map(|&l| if l { FAVOURABLE_WEIGHT } else { 1.0 }));
         let dataset = DatasetBase::new(x, targets).with_weights(weights);

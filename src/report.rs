@@ -53,6 +53,9 @@ pub struct Inputs {
     pub test_fraction: f64,
     pub seed: u64,
     pub confidence: f64,
+    /// The cap on one trial's training rows (see `--max-train-rows`).
+    #[serde(default)]
+    pub max_train_rows: usize,
 }
 
 /// Rows and columns as used.
@@ -229,6 +232,10 @@ pub struct CurveSchedule {
     pub bootstrap_draws: usize,
     /// Sizes beyond this (4× the largest anchor) are flagged as unreliable.
     pub reliable_up_to: f64,
+    /// Whether the training rows exceed the cap on a trial's training rows, so that the largest
+    /// anchor is the cap and today's size is read by extrapolation.
+    #[serde(default)]
+    pub capped: bool,
 }
 
 /// One measured anchor: a quantity's spread over repeats at one training size.

@@ -35,6 +35,7 @@ pub struct Choices {
     pub test_fraction: Option<f64>,
     pub seed: Option<u64>,
     pub confidence: Option<f64>,
+    pub max_train_rows: Option<usize>,
     pub costs: Option<PathBuf>,
     pub budget: Option<f64>,
     pub currency: Option<String>,
@@ -101,6 +102,7 @@ impl Choices {
             test_fraction,
             seed,
             confidence,
+            max_train_rows,
             costs,
             budget,
             currency,
@@ -252,7 +254,14 @@ pub struct TrialSettings {
     pub test_fraction: f64,
     pub seed: u64,
     pub confidence: f64,
+    /// No trial trains on more rows than this (a stratified subsample, with the test part cut
+    /// in proportion); today's full size is then read off the curves by extrapolation.
+    pub max_train_rows: usize,
 }
+
+/// Default cap on the training rows of one trial: beyond it learning curves are read by
+/// extrapolation. Large enough that every open dataset in the tests runs uncapped.
+pub const DEFAULT_MAX_TRAIN_ROWS: usize = 40_000;
 
 /// Everything `acquest baseline` needs, checked.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -343,6 +352,13 @@ impl Settings {
                 format!("must lie strictly between 0 and 1, not {test_fraction}"),
             ));
         }
+        let max_train_rows = choices.max_train_rows.unwrap_or(DEFAULT_MAX_TRAIN_ROWS);
+        if max_train_rows < 1_000 {
+            return Err(Error::setting(
+                "--max-train-rows",
+                format!("must be at least 1000, not {max_train_rows}"),
+            ));
+        }
         let confidence = choices.confidence.unwrap_or(0.9);
         if !(confidence > 0.0 && confidence < 1.0) {
             return Err(Error::setting(
@@ -378,6 +394,7 @@ impl Settings {
                 test_fraction,
                 seed: choices.seed.unwrap_or(DEFAULT_SEED),
                 confidence,
+                max_train_rows,
             },
         })
     }

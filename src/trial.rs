@@ -98,6 +98,37 @@ pub fn stratified_split_of(
     (train, test)
 }
 
+/// Cuts a split down to at most `cap` training rows and the test rows in proportion
+/// (`cap × test_fraction / (1 − test_fraction)`), each a stratified subsample (a prefix of a
+/// nested order, so it keeps the group and label mix). A split within the cap comes back as it
+/// is and draws nothing from `rng`, so data below the cap give the same trials as without one.
+pub fn cap_split(
+    data: &Dataset,
+    (train, test): (Vec<usize>, Vec<usize>),
+    cap: usize,
+    test_fraction: f64,
+    rng: &mut impl rand::Rng,
+) -> (Vec<usize>, Vec<usize>) {
+    if train.len() <= cap {
+        return (train, test);
+    }
+    let group_count = data.group_list.len();
+    let mut cut = |rows: &[usize], keep: usize| -> Vec<usize> {
+        let mut order = nested_order(rows, &data.labels, &data.groups, group_count, &mut *rng);
+        order.truncate(keep);
+        order.sort_unstable();
+        order
+    };
+    let test_cap = ((cap as f64 * test_fraction / (1.0 - test_fraction)).round() as usize).max(1);
+    let train = cut(&train, cap);
+    let test = if test.len() > test_cap {
+        cut(&test, test_cap)
+    } else {
+        test
+    };
+    (train, test)
+}
+
 /// What one trial measured on its held-out rows.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TrialOutcome {
@@ -207,6 +238,8 @@ pub struct Schedule<'a> {
     pub stream: u64,
     /// Name of the stage in progress events.
     pub stage: &'static str,
+    /// Cap on the training rows of a repeat (see [`cap_split`]).
+    pub max_train: usize,
 }
 
 /// Learning-curve trials: for each repeat, one stratified split of the schedule's rows, one
@@ -238,7 +271,7 @@ pub fn nested_trials(
         .map(|repeat| {
             let mut rng = stream_rng(seed, schedule.stream, repeat as u64);
             let group_count = data.group_list.len();
-            let (train, test) = stratified_split_of(
+            let split = stratified_split_of(
                 schedule.rows,
                 &data.labels,
                 &data.groups,
@@ -246,6 +279,7 @@ pub fn nested_trials(
                 test_fraction,
                 &mut rng,
             );
+            let (train, test) = cap_split(data, split, schedule.max_train, test_fraction, &mut rng);
             let (fixed, varied): (Vec<usize>, Vec<usize>) = match schedule.vary_group {
                 None => (Vec::new(), train),
                 Some(g) => train.into_iter().partition(|&i| data.groups[i] != g),
@@ -287,11 +321,10 @@ pub fn nested_trials(
 pub fn repeated_trials(
     data: &Dataset,
     family: &dyn ModelFamily,
-    repeats: usize,
-    test_fraction: f64,
-    seed: u64,
+    trials: &crate::settings::TrialSettings,
     progress: ProgressSink,
 ) -> Result<Vec<TrialOutcome>> {
+    let (repeats, test_fraction, seed) = (trials.repeats, trials.test_fraction, trials.seed);
     let done = AtomicUsize::new(0);
     progress(Progress {
         stage: "baseline trials",
@@ -302,13 +335,15 @@ pub fn repeated_trials(
         .into_par_iter()
         .map(|index| {
             let mut rng = stream_rng(seed, BASELINE_STREAM, index as u64);
-            let (train, test) = stratified_split(
+            let split = stratified_split(
                 &data.labels,
                 &data.groups,
                 data.group_list.len(),
                 test_fraction,
                 &mut rng,
             );
+            let (train, test) =
+                cap_split(data, split, trials.max_train_rows, test_fraction, &mut rng);
             let outcome = run_trial(data, family, &train, &test);
             progress(Progress {
                 stage: "baseline trials",
@@ -364,6 +399,59 @@ mod tests {
                 "{prefix}: {share} vs {expected}"
             );
         }
+    }
+
+    #[test]
+    fn a_split_is_cut_to_the_cap_keeping_its_mix() {
+        use crate::data::Group;
+        use rand::Rng;
+        let rows = 10_000;
+        let data = Dataset {
+            labels: (0..rows).map(|i| i % 4 == 0).collect(),
+            groups: (0..rows).map(|i| u32::from(i % 10 < 3)).collect(),
+            group_list: vec![
+                Group {
+                    name: "a".into(),
+                    definition: String::new(),
+                },
+                Group {
+                    name: "b".into(),
+                    definition: String::new(),
+                },
+            ],
+            reference: 0,
+            reference_rule: String::new(),
+            features: Vec::new(),
+            candidates: Vec::new(),
+            favourable: "y".into(),
+            unfavourable: "n".into(),
+            rows_read: rows,
+            dropped_missing_label: 0,
+            dropped_missing_group: 0,
+            warnings: Vec::new(),
+        };
+        let split =
+            || stratified_split(&data.labels, &data.groups, 2, 0.3, &mut stream_rng(5, 1, 0));
+        // Within the cap: unchanged, and nothing drawn from the generator.
+        let mut rng = stream_rng(5, 9, 0);
+        assert_eq!(cap_split(&data, split(), 7_000, 0.3, &mut rng), split());
+        assert_eq!(rng.gen::<u64>(), stream_rng(5, 9, 0).gen::<u64>());
+        // Beyond it: 2,000 training rows and 857 test rows (2,000 × 0.3 / 0.7), subsets of the
+        // split's parts with the same (group, label) mix.
+        let (train, test) = split();
+        let (small_train, small_test) = cap_split(&data, split(), 2_000, 0.3, &mut rng);
+        assert_eq!(small_train.len(), 2_000);
+        assert_eq!(small_test.len(), 857);
+        assert!(small_train.iter().all(|i| train.binary_search(i).is_ok()));
+        assert!(small_test.iter().all(|i| test.binary_search(i).is_ok()));
+        let share = |part: &[usize]| {
+            part.iter()
+                .filter(|&&i| data.groups[i] == 1 && data.labels[i])
+                .count() as f64
+                / part.len() as f64
+        };
+        assert!((share(&small_train) - share(&train)).abs() < 0.002);
+        assert!((share(&small_test) - share(&test)).abs() < 0.003);
     }
 
     #[test]

@@ -1485,3 +1485,128 @@ fn backtest_settings_that_cannot_work_exit_2() {
     let (code, message) = run(&["--hold-rows", "0"]);
     assert_eq!(code, 2, "nothing held back: {message}");
 }
+
+#[test]
+fn curves_beyond_the_trial_cap_are_read_by_extrapolation() {
+    let Some(data) = shared("adult/adult.data") else {
+        return;
+    };
+    let (report, ..) = curves_report(
+        &[
+            "--data",
+            data.to_str().unwrap(),
+            "--no-header",
+            "--columns",
+            ADULT_COLUMNS,
+            "--target",
+            "income",
+            "--favourable",
+            ">50K",
+            "--protected",
+            "sex",
+            "--repeats",
+            "3",
+            "--max-train-rows",
+            "4000",
+        ],
+        None,
+    );
+    let schedule = &report.schedule;
+    // Adult train: 32,561 rows, 30% test: 22,792 training rows, cut to 4,000 per trial.
+    assert!(schedule.capped);
+    assert_eq!(schedule.training_rows, 22_792);
+    assert_eq!(*schedule.sizes.last().unwrap(), 4_000);
+    assert_eq!(report.inputs.max_train_rows, 4_000);
+    assert!(
+        report
+            .warnings
+            .iter()
+            .any(|w| w.contains("--max-train-rows")),
+        "{:?}",
+        report.warnings
+    );
+}
+
+#[test]
+fn a_scaled_demo_writes_wider_data_and_the_same_table_as_parquet() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("wide");
+    let status = acquest()
+        .args([
+            "demo",
+            "--rows",
+            "4000",
+            "--extra-columns",
+            "6",
+            "--parquet",
+            "--no-run",
+        ])
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        status.status.success(),
+        "{}",
+        String::from_utf8_lossy(&status.stderr)
+    );
+    let csv = std::fs::read_to_string(out.join("applications.csv")).unwrap();
+    let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
+    assert_eq!(header.len(), 16, "the scenario's 10 columns and 6 more");
+    assert_eq!(csv.lines().count(), 4_001);
+    // The committed scenario's first rows are drawn the same way: same applicants, more columns.
+    let committed = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/applications.csv"),
+    )
+    .unwrap();
+    let first = |text: &str, k: usize| -> Vec<String> {
+        text.lines()
+            .nth(1)
+            .unwrap()
+            .split(',')
+            .take(k)
+            .map(String::from)
+            .collect()
+    };
+    assert_eq!(first(&csv, 6), first(&committed, 6));
+    let costs = std::fs::read_to_string(out.join("costs.csv")).unwrap();
+    assert!(
+        costs.contains(",4000,666,"),
+        "rows on offer scale with the data: {costs}"
+    );
+    let common = [
+        "--target",
+        "shortlisted",
+        "--favourable",
+        "yes",
+        "--protected",
+        "disability",
+    ];
+    let mut a: Vec<String> = vec![
+        "--data".into(),
+        out.join("applications.csv").display().to_string(),
+    ];
+    let mut b: Vec<String> = vec![
+        "--data".into(),
+        out.join("applications.parquet").display().to_string(),
+    ];
+    for v in [&mut a, &mut b] {
+        v.extend(common.iter().map(|s| s.to_string()));
+        v.extend(
+            [
+                "--exclude",
+                "applicant_id",
+                "--repeats",
+                "3",
+                "--no-project",
+            ]
+            .map(String::from),
+        );
+    }
+    let (from_csv, _) = baseline_report(&a.iter().map(String::as_str).collect::<Vec<_>>(), None);
+    let (from_parquet, _) =
+        baseline_report(&b.iter().map(String::as_str).collect::<Vec<_>>(), None);
+    assert_eq!(from_parquet.inputs.data.format, "parquet");
+    assert_eq!(from_parquet.groups, from_csv.groups);
+    assert_eq!(from_parquet.model.accuracy, from_csv.model.accuracy);
+}
