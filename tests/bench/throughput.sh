@@ -7,25 +7,26 @@
 #      by `acquest demo --rows 1000000 --extra-columns 30 --parquet` into a temporary folder,
 #      never committed; about 4 minutes each).
 # Prints wall time, models fitted, fits per second and peak memory against the targets.
-# Usage: [BIG=1] bash tests/bench/throughput.sh
+# CPU is the share of one core used (200% is both cores busy). ACQUEST=path times another build.
+# Usage: [BIG=1] [ACQUEST=path] bash tests/bench/throughput.sh
 set -euo pipefail
 cd "$(dirname "$0")/../.."
-cargo build --release --quiet
-bin=$PWD/target/release/acquest
+if [ -z "${ACQUEST:-}" ]; then cargo build --release --quiet; fi
+bin=${ACQUEST:-$PWD/target/release/acquest}
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 echo "machine: $(nproc) cores"
-printf "%-34s %9s %7s %8s %9s  %s\n" "run" "wall (s)" "fits" "fits/s" "peak MiB" "target"
+printf "%-34s %9s %7s %8s %9s %6s  %s\n" "run" "wall (s)" "fits" "fits/s" "peak MiB" "CPU" "target"
 
 # Runs acquest with --timings; prints one row of the table.
 row() {
   local name=$1 target=$2; shift 2
-  /usr/bin/time -f "%e %M" -o "$work/time" "$bin" "$@" --quiet --timings > /dev/null 2> "$work/timings"
-  read -r wall kb < "$work/time"
+  /usr/bin/time -f "%e %M %P" -o "$work/time" "$bin" "$@" --quiet --timings > /dev/null 2> "$work/timings"
+  read -r wall kb cpu < "$work/time"
   local fits
   fits=$(sed -n 's/.* \([0-9]*\) models fitted.*/\1/p' "$work/timings")
-  awk -v n="$name" -v w="$wall" -v k="$kb" -v f="$fits" -v t="$target" 'BEGIN {
-    printf "%-34s %9.2f %7d %8.1f %9.0f  %s\n", n, w, f, f / w, k / 1024, t }'
+  awk -v n="$name" -v w="$wall" -v k="$kb" -v f="$fits" -v t="$target" -v c="$cpu" 'BEGIN {
+    printf "%-34s %9.2f %7d %8.1f %9.0f %6s  %s\n", n, w, f, f / w, k / 1024, c, t }'
 }
 
 data=../shared/data/adult/adult.data
