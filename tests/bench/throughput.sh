@@ -35,17 +35,7 @@ if [ -f "$data" ]; then
   row "curves schedule, Adult" "under 5 s" curves --data "$data" --no-header --columns "$columns" \
     --target income --favourable '>50K' --protected sex --repeats 5 --test-fraction 0.2 \
     --smallest 500 --no-project
-  awk -v seed=11 'BEGIN { srand(seed); FS = ", "; OFS = ", " }
-    NF >= 15 { if (rand() >= 0.2) $7 = "?"; if (rand() >= 0.2) $8 = "?"; if (rand() >= 0.2) $4 = "?"; print }' \
-    "$data" > "$work/adult-pilot.csv"
-  cat > "$work/costs.csv" <<'SHEET'
-name,kind,column,per_row,fixed,max_rows,step,sensitive,note
-occupation,feature,occupation,0.40,1000,,,no,Occupation from the employer survey
-relationship,feature,relationship,0.30,500,,,yes,Household relationship
-education,feature,education,0.20,500,,,no,Highest education level
-more-records,rows,,1.50,0,30000,10000,no,Another census extract
-more-women,rows,sex=Female,2.50,2000,10000,2500,no,Targeted sample of women
-SHEET
+  . tests/bench/adult-pilot.sh
   adult=(--data "$work/adult-pilot.csv" --no-header --columns "$columns" --target income
     --favourable '>50K' --protected sex --costs "$work/costs.csv" --repeats 5 --no-project)
   row "appraise, Adult (3 + 2 options)" "-" appraise "${adult[@]}"
