@@ -6,11 +6,16 @@ use std::path::{Path, PathBuf};
 use acquest::report::BaselineReport;
 use assert_cmd::Command;
 
+mod golden;
+
 const ADULT_COLUMNS: &str = "age,workclass,fnlwgt,education,education-num,marital-status,\
 occupation,relationship,race,sex,capital-gain,capital-loss,hours-per-week,native-country,income";
 const GERMAN_COLUMNS: &str = "status,duration,history,purpose,amount,savings,employment,rate,\
 personal,debtors,residence,property,age,plans,housing,credits,job,liable,telephone,foreign,credit";
 
+/// An open dataset under ../shared/data. Outside CI a test whose data are absent is skipped
+/// with a message; under CI (the `CI` variable set) their absence is a failure, so that no test
+/// passes there without having run.
 fn shared(path: &str) -> Option<PathBuf> {
     let p = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("../shared/data")
@@ -18,6 +23,11 @@ fn shared(path: &str) -> Option<PathBuf> {
     if p.exists() {
         Some(p)
     } else {
+        assert!(
+            std::env::var_os("CI").is_none(),
+            "{} is absent: under CI every test must run",
+            p.display()
+        );
         eprintln!("skipped: {} is absent", p.display());
         None
     }
