@@ -6,8 +6,8 @@ use std::path::Path;
 
 use rand::Rng;
 
+use crate::engine::trial::stream_rng;
 use crate::error::{Error, Result};
-use crate::trial::stream_rng;
 
 /// Seed of the committed demo.
 pub const DEMO_SEED: u64 = 4_711;

@@ -2,23 +2,27 @@
 //! the records held, or more records, overall or for one group. It measures accuracy and group
 //! fairness over repeated seeded trials and reports them with intervals. The library computes
 //! and never prints; the binary parses flags, calls it and renders.
+//!
+//! The stages, each a folder that uses only those listed before it (and `report`, the output
+//! contract, which uses nothing that computes):
+//! - [`settings`]: raw choices, the project file, validated settings;
+//! - [`data`]: reading files, groups, the cost sheet;
+//! - [`stats`]: rates, the disparity measures, statistical tests, curve families;
+//! - [`engine`]: random streams, encoding, model families, trials;
+//! - [`estimate`]: baseline, learning curves, the appraisal of options, the backtest;
+//! - [`decide`]: the budgeted selection and the frontier;
+//! - [`report`]: the serde types of every report;
+//! - [`render`]: terminal text, Markdown, HTML and SVG, each from a report.
 
-pub mod appraise;
-pub mod backtest;
-pub mod baseline;
-pub mod costs;
-pub mod curve;
 pub mod data;
+pub mod decide;
 pub mod demo;
-pub mod encode;
+pub mod engine;
 pub mod error;
-pub mod learning;
-pub mod metrics;
-pub mod model;
-pub mod plan;
+pub mod estimate;
 pub mod render;
 pub mod report;
 pub mod settings;
-pub mod trial;
+pub mod stats;
 
 pub use error::{Error, Result};

@@ -918,9 +918,9 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
         .position(|g| g.name == "none")
         .unwrap();
     let test: Vec<usize> = (test_start..everyone.len()).collect();
-    let family = acquest::model::family(acquest::settings::ModelKind::Logistic);
+    let family = acquest::engine::model::family(acquest::settings::ModelKind::Logistic);
     let measure = |data: &Dataset, train: &[usize]| {
-        let o = acquest::trial::run_trial(data, family.as_ref(), train, &test).unwrap();
+        let o = acquest::engine::trial::run_trial(data, family.as_ref(), train, &test).unwrap();
         let eod = (o.counts[declared].true_positive_rate().unwrap()
             - o.counts[none].true_positive_rate().unwrap())
         .abs();
@@ -944,7 +944,7 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
     let training = report.today.training_rows;
     for k in 0..repetitions {
         let mut rows: Vec<usize> = (0..DEMO_ROWS).collect();
-        rows.shuffle(&mut acquest::trial::stream_rng(7, 500, k));
+        rows.shuffle(&mut acquest::engine::trial::stream_rng(7, 500, k));
         let train = &rows[..training];
         let (a0, u0) = measure(&base, train);
         for (i, variant) in variants.iter().enumerate() {
@@ -1024,11 +1024,13 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
     // 0.8 (the project's target; common practice, no source). Options whose true effect is near
     // zero (postcode, both rows options) are estimated as flat curves, so they tie.
     assert!(
-        acquest::metrics::spearman(&predicted_accuracy, &true_accuracy).is_some_and(|r| r >= 0.8),
+        acquest::stats::metrics::spearman(&predicted_accuracy, &true_accuracy)
+            .is_some_and(|r| r >= 0.8),
         "{predicted_accuracy:?} vs {true_accuracy:?}"
     );
     assert!(
-        acquest::metrics::spearman(&predicted_fairness, &true_fairness).is_some_and(|r| r >= 0.8),
+        acquest::stats::metrics::spearman(&predicted_fairness, &true_fairness)
+            .is_some_and(|r| r >= 0.8),
         "{predicted_fairness:?} vs {true_fairness:?}"
     );
 }
@@ -1403,7 +1405,7 @@ fn backtest_on_adult_reports_predicted_against_realised_gains() {
     let text = String::from_utf8_lossy(&output.stdout);
     assert!(text.contains("How well each method did"), "{text}");
     assert!(text.contains("Cautions"), "{text}");
-    let report: acquest::backtest::BacktestReport =
+    let report: acquest::estimate::backtest::BacktestReport =
         serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
     let round = &report.rounds[0];
     // Adult train has 32,561 rows; half are held back within every group and label.

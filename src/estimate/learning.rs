@@ -4,15 +4,15 @@
 
 use rand::Rng;
 
-use crate::baseline;
-use crate::curve::{self, Choice, Fit};
 use crate::data::Dataset;
+use crate::engine::model;
+use crate::engine::trial::{self, stream_rng, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
-use crate::metrics::{self, GroupCounts};
-use crate::model;
+use crate::estimate::baseline;
 use crate::report::*;
 use crate::settings::{CurveSettings, Settings, SizeRequest};
-use crate::trial::{self, stream_rng, ProgressSink, TrialOutcome};
+use crate::stats::curve::{self, Choice, Fit};
+use crate::stats::metrics::{self, GroupCounts};
 
 /// Fewest rows of one (group, label) cell that the smallest anchor must hold.
 pub const MIN_CELL_ROWS: usize = 10;

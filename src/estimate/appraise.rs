@@ -9,18 +9,18 @@ use rand::seq::SliceRandom;
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::baseline;
-use crate::costs::{self, Acquisition, CostOption};
-use crate::curve;
+use crate::data::costs::{self, Acquisition, CostOption};
 use crate::data::{Column, Dataset};
-use crate::encode::Encoder;
+use crate::engine::encode::Encoder;
+use crate::engine::model;
+use crate::engine::trial::{self, stream_rng, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
-use crate::learning::{self, CurvePlan, FittedCurves, Reading};
-use crate::metrics::{self, estimate, Estimate, GroupCounts};
-use crate::model;
+use crate::estimate::baseline;
+use crate::estimate::learning::{self, CurvePlan, FittedCurves, Reading};
 use crate::report::*;
 use crate::settings::{Choices, Settings};
-use crate::trial::{self, stream_rng, ProgressSink, TrialOutcome};
+use crate::stats::curve;
+use crate::stats::metrics::{self, estimate, Estimate, GroupCounts};
 
 /// The fairness measure whose unfairness the utility counts.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
@@ -1404,10 +1404,10 @@ fn held_features(
                 let span = encoder.span(f);
                 if features > 1 {
                     // The encoding of the other features is the full one without f's columns.
-                    let x = crate::encode::without_span(&x_train, &span);
+                    let x = crate::engine::encode::without_span(&x_train, &span);
                     let model = family.fit(x.view(), &y_train)?;
                     drop(x);
-                    let x = crate::encode::without_span(&x_test, &span);
+                    let x = crate::engine::encode::without_span(&x_test, &span);
                     let (a, u) = score(&model.scores(x.view()));
                     ablation = diff(a, u);
                 }

@@ -4,7 +4,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::data::SourceInfo;
-use crate::metrics::Estimate;
+use crate::stats::metrics::Estimate;
 
 /// Name of the report format, written into every report.
 pub const FORMAT: &str = "acquest-report";
@@ -253,7 +253,7 @@ pub struct AnchorPoint {
 /// One family fitted to a quantity.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FamilyFit {
-    pub family: crate::curve::Family,
+    pub family: crate::stats::curve::Family,
     pub formula: String,
     /// a, b, c of the formula in n (training rows); unused ones are 0.
     pub parameters: [f64; 3],
@@ -261,7 +261,7 @@ pub struct FamilyFit {
     pub rss: Option<f64>,
     /// Weighted RMS error forecasting the held-back anchors from the others.
     pub forecast_error: Option<f64>,
-    pub status: crate::curve::FitStatus,
+    pub status: crate::stats::curve::FitStatus,
 }
 
 /// A value read off a curve at one training size, with its bootstrap band.
@@ -287,7 +287,7 @@ pub struct CurveRecord {
     pub anchors: Vec<AnchorPoint>,
     pub families: Vec<FamilyFit>,
     /// The family with the smallest forecast error; `None` when no family could be fitted.
-    pub chosen: Option<crate::curve::Family>,
+    pub chosen: Option<crate::stats::curve::Family>,
     /// The chosen curve's level as n grows, where it gets there in practice (closes 90% of
     /// its remaining gap by 100× today's training rows); `None` otherwise.
     pub asymptote: Option<f64>,
@@ -485,17 +485,17 @@ pub struct PlanReport {
     pub format_version: u32,
     pub tool_version: String,
     pub command: String,
-    pub rules: crate::plan::PlanRules,
+    pub rules: crate::decide::plan::PlanRules,
     /// How gains are combined: the sum of the options' gains (each read at the plan's rows).
     pub gain_model: String,
-    pub plan: crate::plan::Plan,
+    pub plan: crate::decide::plan::Plan,
     /// What the plan was chosen on: the joint scores of the candidates, or the additive model.
     pub chosen_by: String,
     /// The best plans under the additive model, each re-scored with its options together.
-    pub candidates: Vec<crate::plan::Candidate>,
+    pub candidates: Vec<crate::decide::plan::Candidate>,
     /// Why the plan is empty, when it is.
     pub explanation: Option<String>,
-    pub frontier: Vec<crate::plan::FrontierPoint>,
+    pub frontier: Vec<crate::decide::plan::FrontierPoint>,
     pub appraisal: AppraisalReport,
     pub warnings: Vec<String>,
     pub cautions: Vec<String>,

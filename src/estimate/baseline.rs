@@ -2,12 +2,12 @@
 //! fairness over repeated trials, gathered into a [`BaselineReport`].
 
 use crate::data::{Dataset, Table, Values};
+use crate::engine::model;
+use crate::engine::trial::{self, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
-use crate::metrics::{self, estimate, Estimate, GroupCounts, FOUR_FIFTHS};
-use crate::model;
 use crate::report::*;
 use crate::settings::Settings;
-use crate::trial::{self, ProgressSink, TrialOutcome};
+use crate::stats::metrics::{self, estimate, Estimate, GroupCounts, FOUR_FIFTHS};
 
 /// Reads the data, runs the trials and builds the report.
 pub fn run(settings: &Settings, progress: ProgressSink) -> Result<BaselineReport> {

@@ -4,7 +4,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use crate::costs::{Acquisition, CostOption};
+use crate::data::costs::{Acquisition, CostOption};
 use crate::error::{Error, Result};
 use crate::report::{AppraisalReport, OptionValue, Purchase};
 
@@ -158,7 +158,7 @@ fn four_fifths_hold(rates: &[f64]) -> bool {
     top <= 0.0
         || rates
             .iter()
-            .all(|&r| r / top >= crate::metrics::FOUR_FIFTHS)
+            .all(|&r| r / top >= crate::stats::metrics::FOUR_FIFTHS)
 }
 
 /// Combinations of rows steps the solver will enumerate, at most.
@@ -480,11 +480,12 @@ pub const FRONTIER_POINTS: usize = 24;
 /// Runs `acquest plan`: the appraisal, then the best plan for the budget and the frontier.
 pub fn run(
     settings: &crate::settings::Settings,
-    appraisal: &crate::appraise::AppraisalSettings,
+    appraisal: &crate::estimate::appraise::AppraisalSettings,
     rules: &PlanRules,
-    progress: crate::trial::ProgressSink,
+    progress: crate::engine::trial::ProgressSink,
 ) -> Result<crate::report::PlanReport> {
-    let (report, appraiser) = crate::appraise::run_with_options(settings, appraisal, progress)?;
+    let (report, appraiser) =
+        crate::estimate::appraise::run_with_options(settings, appraisal, progress)?;
     let problem = Problem::new(&report, appraiser.options(), rules.cautious)?;
     let additive_best = problem.solve(rules);
     let frontier = frontier(&problem, rules, FRONTIER_POINTS);
@@ -610,7 +611,7 @@ pub const RESCORED_PLANS: usize = 4;
 pub struct Candidate {
     pub plan: Plan,
     /// The plan's gains with its options taken together, where they could be measured.
-    pub joint: Option<crate::appraise::JointScore>,
+    pub joint: Option<crate::estimate::appraise::JointScore>,
     /// Why there is no joint score.
     pub note: Option<String>,
 }
@@ -705,7 +706,7 @@ mod tests {
 
     #[test]
     fn the_solver_agrees_with_brute_force_on_random_small_problems() {
-        let mut rng = crate::trial::stream_rng(42, 700, 0);
+        let mut rng = crate::engine::trial::stream_rng(42, 700, 0);
         for case in 0..500 {
             let problem = random_problem(&mut rng);
             let rules = PlanRules {

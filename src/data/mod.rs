@@ -1,6 +1,8 @@
 //! Loading: CSV and Parquet through polars, cell cleaning and typing, the schema (target,
 //! favourable value, groups, features) checked against what the file holds.
 
+pub mod costs;
+
 use std::collections::{BTreeMap, HashMap};
 use std::fs::File;
 use std::io::Read;

@@ -11,16 +11,18 @@ use rand::seq::SliceRandom;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
-use crate::appraise::{self, AppraisalInput, AppraisalSettings, FairnessMeasure, OptionReadings};
-use crate::baseline;
-use crate::costs::{Acquisition, CostOption};
+use crate::data::costs::{Acquisition, CostOption};
 use crate::data::{Column, Dataset};
+use crate::engine::model;
+use crate::engine::trial::{self, stream_rng, Progress, ProgressSink, TrialOutcome};
 use crate::error::{nearest_hint, Error, Result};
-use crate::metrics::{self, estimate, GroupCounts};
-use crate::model;
+use crate::estimate::appraise::{
+    self, AppraisalInput, AppraisalSettings, FairnessMeasure, OptionReadings,
+};
+use crate::estimate::baseline;
 use crate::report::{Change, Inputs, CAUTIONS, FORMAT, FORMAT_VERSION};
 use crate::settings::Settings;
-use crate::trial::{self, stream_rng, Progress, ProgressSink, TrialOutcome};
+use crate::stats::metrics::{self, estimate, GroupCounts};
 
 /// Random stream of each round's hold-out and pilots (index: the round).
 const HOLD_STREAM: u64 = 6_000;
@@ -606,7 +608,7 @@ fn run_round(
                 .map(|&q| {
                     let realised =
                         realised_gain(data, q, &outcomes, k, trials.confidence, test_to_train);
-                    let predict = |after: &crate::learning::Reading| {
+                    let predict = |after: &crate::estimate::learning::Reading| {
                         predicted(&reduced, q, trials, readings, after)
                     };
                     QuantityRecord {
@@ -661,7 +663,7 @@ fn predicted(
     q: &str,
     trials: &crate::settings::TrialSettings,
     readings: &OptionReadings,
-    after: &crate::learning::Reading,
+    after: &crate::estimate::learning::Reading,
 ) -> Change {
     let measure = FairnessMeasure::parse(if q == "accuracy" { "eod" } else { q })
         .unwrap_or(FairnessMeasure::Eod);

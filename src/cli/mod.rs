@@ -8,9 +8,11 @@ use anyhow::Context;
 use clap::{Args, Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
+use acquest::decide::plan;
+use acquest::engine::trial::Progress;
+use acquest::estimate::{appraise, baseline, learning};
 use acquest::settings::{Choices, CurveSettings, Settings, PROJECT_FILE};
-use acquest::trial::Progress;
-use acquest::{appraise, baseline, demo, learning, plan, render};
+use acquest::{demo, render};
 
 #[derive(Parser)]
 #[command(
@@ -368,8 +370,9 @@ impl StageClock {
         let mut out = format!(
             "timings: {:.1} s in all, {} models fitted ({:.1} a second)\n",
             started.elapsed().as_secs_f64(),
-            acquest::model::fits_so_far(),
-            acquest::model::fits_so_far() as f64 / started.elapsed().as_secs_f64().max(1e-9)
+            acquest::engine::model::fits_so_far(),
+            acquest::engine::model::fits_so_far() as f64
+                / started.elapsed().as_secs_f64().max(1e-9)
         );
         if let Ok(stages) = self.stages.lock() {
             for (stage, time) in stages.iter() {
@@ -519,7 +522,7 @@ fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
     let choices = args.data.choices(args.trials)?;
     let fairness = args.fairness.or(choices.fairness.clone());
     let settings = Settings::from_choices(choices)?;
-    let backtest = acquest::backtest::BacktestSettings {
+    let backtest = acquest::estimate::backtest::BacktestSettings {
         hold_rows: args.hold_rows.unwrap_or(0.5),
         hold_features: args.hold_features.unwrap_or_default(),
         pilot: args.pilot.unwrap_or(0.2),
@@ -529,7 +532,7 @@ fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
     };
     let bar = progress_bar(args.output.quiet);
     let show = shown_on(&bar);
-    let report = acquest::backtest::run(&settings, &backtest, &show)?;
+    let report = acquest::estimate::backtest::run(&settings, &backtest, &show)?;
     bar.finish_and_clear();
     write_outputs(&report, render::backtest_text(&report), &args.output)
 }

@@ -9,10 +9,10 @@ use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
 use crate::data::{Column, Dataset};
-use crate::encode::Encoder;
+use crate::engine::encode::Encoder;
+use crate::engine::model::ModelFamily;
 use crate::error::Result;
-use crate::metrics::{self, GroupCounts};
-use crate::model::ModelFamily;
+use crate::stats::metrics::{self, GroupCounts};
 
 /// Progress of a long stage, sent to whoever shows it.
 #[derive(Debug, Clone, PartialEq, Eq)]

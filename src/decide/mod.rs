@@ -1,0 +1,3 @@
+//! Decisions from the appraisal: the budgeted selection of options and the frontier of plans.
+
+pub mod plan;
