@@ -1405,7 +1405,7 @@ fn backtest_on_adult_reports_predicted_against_realised_gains() {
     let text = String::from_utf8_lossy(&output.stdout);
     assert!(text.contains("How well each method did"), "{text}");
     assert!(text.contains("Cautions"), "{text}");
-    let report: acquest::estimate::backtest::BacktestReport =
+    let report: acquest::report::BacktestReport =
         serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
     let round = &report.rounds[0];
     // Adult train has 32,561 rows; half are held back within every group and label.

@@ -494,7 +494,7 @@ fn run_plan(
         )
         .into());
     }
-    let rules = plan::PlanRules {
+    let rules = acquest::report::PlanRules {
         budget,
         cautious,
         keep_accuracy,
@@ -522,13 +522,13 @@ fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
     let choices = args.data.choices(args.trials)?;
     let fairness = args.fairness.or(choices.fairness.clone());
     let settings = Settings::from_choices(choices)?;
-    let backtest = acquest::estimate::backtest::BacktestSettings {
+    let backtest = acquest::report::BacktestSettings {
         hold_rows: args.hold_rows.unwrap_or(0.5),
         hold_features: args.hold_features.unwrap_or_default(),
         pilot: args.pilot.unwrap_or(0.2),
         hold_group: args.hold_group,
         rounds: args.rounds.unwrap_or(3),
-        fairness: appraise::FairnessMeasure::parse(fairness.as_deref().unwrap_or("eod"))?,
+        fairness: acquest::report::FairnessMeasure::parse(fairness.as_deref().unwrap_or("eod"))?,
     };
     let bar = progress_bar(args.output.quiet);
     let show = shown_on(&bar);

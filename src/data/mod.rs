@@ -14,6 +14,8 @@ use polars::prelude::{
 use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
+pub use crate::report::SourceInfo;
+
 use crate::error::{nearest_hint, Error, Result};
 use crate::settings::{parse_comparison, CsvSettings, Membership, SchemaSettings, Settings};
 
@@ -124,22 +126,6 @@ impl Column {
             values: values.into(),
         }
     }
-}
-
-/// What was read and from where.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct SourceInfo {
-    /// The path as given.
-    pub path: String,
-    /// SHA-256 of the file's bytes.
-    pub sha256: String,
-    pub bytes: u64,
-    /// "csv" or "parquet".
-    pub format: String,
-    /// The field separator used, for CSV.
-    pub delimiter: Option<String>,
-    /// Data rows read.
-    pub rows: usize,
 }
 
 /// A file read into typed columns.

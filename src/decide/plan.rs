@@ -2,49 +2,11 @@
 //! maximising utility within the budget (optionally under floors), exact for the additive model
 //! of gains used; and the frontier of best plans as the budget grows.
 
-use serde::{Deserialize, Serialize};
-
 use crate::data::costs::{Acquisition, CostOption};
 use crate::error::{Error, Result};
-use crate::report::{AppraisalReport, OptionValue, Purchase};
-
-/// How plans are scored and constrained.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-pub struct PlanRules {
-    pub budget: f64,
-    /// Score by the lower end of each utility interval instead of its mean.
-    pub cautious: bool,
-    /// The plan's accuracy gain may not be negative.
-    pub keep_accuracy: bool,
-    /// No group may fall below four-fifths of the highest group's predicted selection rate
-    /// after the plan (today's rates plus the options' estimated changes).
-    #[serde(default)]
-    pub no_adverse_impact: bool,
-}
-
-/// One choice within a plan.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct PlanItem {
-    pub option: String,
-    pub kind: String,
-    /// New rows bought (rows options) or 0 (features).
-    pub new_rows: usize,
-    pub cost: f64,
-    pub accuracy_gain: f64,
-    pub unfairness_reduction: f64,
-    pub utility: f64,
-}
-
-/// A plan: what to buy, its cost, and its gains as the sum of the items' (the additive model).
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Plan {
-    pub items: Vec<PlanItem>,
-    pub total_cost: f64,
-    pub accuracy_gain: f64,
-    pub unfairness_reduction: f64,
-    /// The score maximised: summed utility, or summed lower ends with `cautious`.
-    pub score: f64,
-}
+use crate::report::{
+    AppraisalReport, Candidate, FrontierPoint, OptionValue, Plan, PlanItem, PlanRules, Purchase,
+};
 
 impl Plan {
     fn empty() -> Plan {
@@ -605,23 +567,6 @@ pub fn run(
 
 /// Plans re-scored jointly, at most.
 pub const RESCORED_PLANS: usize = 4;
-
-/// A plan among the best under the additive model, with its joint score.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Candidate {
-    pub plan: Plan,
-    /// The plan's gains with its options taken together, where they could be measured.
-    pub joint: Option<crate::estimate::appraise::JointScore>,
-    /// Why there is no joint score.
-    pub note: Option<String>,
-}
-
-/// One point of the budget frontier.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct FrontierPoint {
-    pub budget: f64,
-    pub plan: Plan,
-}
 
 /// The best plan at budgets from the cheapest purchase to everything (log-spaced, `points` of
 /// them).

@@ -22,16 +22,6 @@ use crate::settings::{Choices, Settings};
 use crate::stats::curve;
 use crate::stats::metrics::{self, estimate, Estimate, GroupCounts};
 
-/// The fairness measure whose unfairness the utility counts.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum FairnessMeasure {
-    Spd,
-    Di,
-    Eod,
-    Aod,
-}
-
 impl FairnessMeasure {
     /// Reads `spd`, `di`, `eod` or `aod`.
     pub fn parse(text: &str) -> Result<Self> {
@@ -376,16 +366,6 @@ pub fn score_readings(
     };
     let p = scorer.purchase(now, after, 0, 0.0, 0.0, f64::INFINITY);
     (p.accuracy_gain, p.unfairness_reduction)
-}
-
-/// A plan's gains estimated with its options taken together.
-#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
-pub struct JointScore {
-    pub accuracy_gain: Change,
-    pub unfairness_reduction: Change,
-    pub utility: Change,
-    /// How it was estimated.
-    pub method: String,
 }
 
 /// Random stream of joint re-scoring trials: this plus a mask of the options involved.

@@ -7,9 +7,8 @@ pub mod svg;
 use std::fmt::Write as _;
 
 use crate::report::{
-    AppraisalReport, BaselineReport, Change, CurvePoint, CurvesReport, PlanReport,
+    AppraisalReport, BaselineReport, Change, CurvePoint, CurvesReport, Estimate, PlanReport,
 };
-use crate::stats::metrics::Estimate;
 
 /// The report as pretty-printed JSON, ending in a newline.
 pub fn json<T: serde::Serialize>(report: &T) -> String {
@@ -683,7 +682,7 @@ fn appraisal_body(report: &AppraisalReport) -> String {
             "unfairness if scrambled",
         ]);
         for h in &report.held_features {
-            let cell = |e: &Option<crate::stats::metrics::Estimate>| {
+            let cell = |e: &Option<crate::report::Estimate>| {
                 e.as_ref().map_or("n/a".into(), |e| {
                     format!(
                         "{}{}",
@@ -783,7 +782,7 @@ pub fn plan_text(report: &PlanReport) -> String {
         ]);
         for c in &report.candidates {
             let names: Vec<String> = c.plan.items.iter().map(item_label).collect();
-            let joint = |f: &dyn Fn(&crate::estimate::appraise::JointScore) -> &Change| match (
+            let joint = |f: &dyn Fn(&crate::report::JointScore) -> &Change| match (
                 &c.joint,
                 c.plan.items.len(),
             ) {
@@ -1004,7 +1003,7 @@ pub fn plan_markdown(report: &PlanReport) -> String {
 }
 
 /// A plan item in a few words: the option, and the rows bought for a rows option.
-fn item_label(i: &crate::decide::plan::PlanItem) -> String {
+fn item_label(i: &crate::report::PlanItem) -> String {
     if i.kind == "feature" {
         i.option.clone()
     } else {
@@ -1039,7 +1038,7 @@ pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
 }
 
 /// A realised gain with its interval, marked when significant at the backtest's level.
-fn realised_cell(r: &crate::estimate::backtest::RealisedGain, significance: f64) -> String {
+fn realised_cell(r: &crate::report::RealisedGain, significance: f64) -> String {
     signed_cell(
         r.mean,
         r.low,
@@ -1049,7 +1048,7 @@ fn realised_cell(r: &crate::estimate::backtest::RealisedGain, significance: f64)
 }
 
 /// The backtest report as terminal text.
-pub fn backtest_text(report: &crate::estimate::backtest::BacktestReport) -> String {
+pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
     let mut out = String::new();
     let b = &report.backtest;
     let inputs = &report.inputs;

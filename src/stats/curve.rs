@@ -2,23 +2,10 @@
 //! size, measured value) points, family choice by forecasting held-back anchors, and refits on
 //! resampled repeats for bands. A leaf: knows nothing of data, models or files.
 
+pub use crate::report::{Family, FitStatus};
+
 use argmin::core::{CostFunction, Executor, State};
 use argmin::solver::brent::BrentOpt;
-use serde::{Deserialize, Serialize};
-
-/// A curve family, as a function of the training size n.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Family {
-    /// y = a − b·n^(−c), c > 0: a power law levelling off at a.
-    Pow3,
-    /// y = a − b·e^(−c·n), c > 0: an exponential approach to a.
-    Exp3,
-    /// y = a + b·ln n: no level; grows or falls without bound.
-    Log2,
-    /// y = a: no trend.
-    Flat,
-}
 
 /// Every family, in the order they are reported.
 pub const FAMILIES: [Family; 4] = [Family::Pow3, Family::Exp3, Family::Log2, Family::Flat];
@@ -61,18 +48,6 @@ impl Family {
             Family::Flat => 0.0,
         }
     }
-}
-
-/// How a fit ended.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum FitStatus {
-    /// The optimum lies inside the bounds.
-    Converged,
-    /// The best rate c lies on a bound: the family degenerates there (reported, still usable).
-    AtBound,
-    /// No fit: too few points or no finite optimum.
-    Failed,
 }
 
 /// A fitted curve.

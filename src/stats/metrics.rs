@@ -1,6 +1,8 @@
 //! Pure scoring: accuracy, rates per group, the disparity measures, the four-fifths check and the
 //! statistics (tests, intervals) they are reported with. Knows nothing of data frames or files.
 
+pub use crate::report::Estimate;
+
 use serde::{Deserialize, Serialize};
 use statrs::distribution::{ChiSquared, ContinuousCDF, FisherSnedecor, Normal, StudentsT};
 use statrs::function::factorial::ln_binomial;
@@ -345,24 +347,6 @@ pub fn spearman(a: &[f64], b: &[f64]) -> Option<f64> {
     let va: f64 = ra.iter().map(|x| (x - ma).powi(2)).sum();
     let vb: f64 = rb.iter().map(|y| (y - mb).powi(2)).sum();
     (va > 0.0 && vb > 0.0).then(|| cov / (va * vb).sqrt())
-}
-
-/// A mean over trials with its interval and a test against the ideal value.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Estimate {
-    /// Mean over the trials that defined the value.
-    pub mean: f64,
-    /// Lower end of the interval; `None` with fewer than two trials.
-    pub low: Option<f64>,
-    /// Upper end of the interval.
-    pub high: Option<f64>,
-    /// Standard deviation over trials.
-    pub std_dev: Option<f64>,
-    /// Trials in which the value was defined.
-    pub trials: usize,
-    /// Two-sided p-value of the test that the true value equals `ideal` (for disparities), or
-    /// `None` where no ideal applies.
-    pub p_value: Option<f64>,
 }
 
 /// Builds an [`Estimate`] from per-trial values with a t-interval at `confidence`.

@@ -1,0 +1,161 @@
+//! The report of `acquest backtest`: what each round held back, the predicted and realised gains
+//! of buying it back, and how well each method did.
+
+use serde::{Deserialize, Serialize};
+
+use super::{Change, FairnessMeasure, Inputs};
+
+/// What `acquest backtest` holds back and how often.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BacktestSettings {
+    /// Share of the rows held back (0 for none).
+    pub hold_rows: f64,
+    /// Features turned into candidates.
+    pub hold_features: Vec<String>,
+    /// Share of the remaining rows on which a held feature stays filled.
+    pub pilot: f64,
+    /// A group whose held-back rows form an option of their own.
+    pub hold_group: Option<String>,
+    pub rounds: usize,
+    /// The fairness measure the best-by-fairness option is named by.
+    pub fairness: FairnessMeasure,
+}
+
+/// A gain measured for real: the mean over repeats of the paired difference (option against
+/// today, same test rows), its interval and p-value with the corrected resampled variance.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RealisedGain {
+    pub mean: f64,
+    pub low: Option<f64>,
+    pub high: Option<f64>,
+    pub p_value: Option<f64>,
+    pub standard_error: Option<f64>,
+    /// The paired difference of every repeat (missing where a rate was undefined).
+    pub per_repeat: Vec<Option<f64>>,
+}
+
+/// One quantity of one option in one round: the three predictions and what happened.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct QuantityRecord {
+    /// accuracy, or the unfairness reduction of spd, di, eod or aod.
+    pub quantity: String,
+    pub acquest: Change,
+    pub last_anchor: Change,
+    pub pilot_alone: Change,
+    pub realised: RealisedGain,
+}
+
+/// One option of one round.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct OptionRecord {
+    pub option: String,
+    /// rows, group rows or feature.
+    pub kind: String,
+    /// Rows bought (held rows, or the group's held rows), or rows covered by the feature.
+    pub rows: usize,
+    pub quantities: Vec<QuantityRecord>,
+}
+
+/// One round: what was held, and every option.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RoundRecord {
+    pub round: usize,
+    pub kept_rows: usize,
+    pub held_rows: usize,
+    /// Pilot rows of each held feature.
+    pub pilots: Vec<PilotRows>,
+    pub options: Vec<OptionRecord>,
+    /// Warnings of the round's appraisal.
+    pub warnings: Vec<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PilotRows {
+    pub feature: String,
+    pub rows: usize,
+}
+
+/// How well one method did on one quantity, over every option of every round.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct MethodSummary {
+    pub method: String,
+    /// Option-rounds compared.
+    pub entries: usize,
+    /// Mean absolute error of the predicted gains, in percentage points.
+    pub mean_absolute_error_pp: Option<f64>,
+    /// Root mean squared error against the true gain, in percentage points, estimated by taking
+    /// the realised gains' own squared standard errors out of the squared errors
+    /// (E(p − r)² = E(p − t)² + E se²); zero when the noise explains all the error.
+    pub error_net_of_noise_pp: Option<f64>,
+    /// Option-rounds whose predicted interval exists, and whose realised mean falls in it.
+    pub with_interval: usize,
+    pub covered: usize,
+    pub coverage: Option<f64>,
+    /// The same with each predicted interval widened by the realised gain's own measurement
+    /// error (its two sides combined in quadrature with the realised standard error at the same
+    /// level): an exact interval would cover about the nominal share by this count.
+    pub covered_allowing_noise: usize,
+    pub coverage_allowing_noise: Option<f64>,
+    /// Realised gains significantly different from zero, and how many of their signs were
+    /// predicted.
+    pub significant: usize,
+    pub sign_correct: usize,
+    /// Spearman's correlation of predicted and realised gains over the options of a round,
+    /// averaged over rounds.
+    pub spearman_all: Option<f64>,
+    /// The same over each round's chain of options whose realised gains differ significantly
+    /// from each other; the options in those chains, and the rounds with a chain of two or more.
+    pub spearman_distinct: Option<f64>,
+    pub distinct_entries: usize,
+    pub distinct_rounds: usize,
+    /// Rounds whose best option by this quantity was named correctly; named, or the option named
+    /// does not do significantly worse than the best.
+    pub best_named: usize,
+    pub best_named_or_tied: usize,
+    /// Rounds with at least two options (where naming the best means anything).
+    pub rounds_compared: usize,
+}
+
+/// Every method on one quantity.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct QuantitySummary {
+    pub quantity: String,
+    /// The nominal level of the predicted intervals.
+    pub nominal_coverage: f64,
+    pub methods: Vec<MethodSummary>,
+}
+
+/// One of the quality targets, checked on this run.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TargetCheck {
+    pub target: String,
+    pub met: bool,
+    pub figure: String,
+}
+
+/// A named method and what it does.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct MethodNote {
+    pub method: String,
+    pub description: String,
+}
+
+/// The `acquest backtest` report.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BacktestReport {
+    pub format: String,
+    pub format_version: u32,
+    pub tool_version: String,
+    pub command: String,
+    pub inputs: Inputs,
+    pub backtest: BacktestSettings,
+    pub significance: f64,
+    pub methods: Vec<MethodNote>,
+    pub rounds: Vec<RoundRecord>,
+    /// Accuracy first, then each fairness measure.
+    pub summary: Vec<QuantitySummary>,
+    /// The quality targets for accuracy and the chosen fairness measure.
+    pub targets: Vec<TargetCheck>,
+    pub warnings: Vec<String>,
+    pub cautions: Vec<String>,
+}

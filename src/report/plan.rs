@@ -1,0 +1,95 @@
+//! The report of `acquest plan`: the rules, the plan for the budget, the candidates re-scored
+//! jointly, the frontier, and the appraisal it rests on.
+
+use serde::{Deserialize, Serialize};
+
+use super::{AppraisalReport, Change};
+
+/// The report of `acquest plan`: the appraisal it rests on, the plan for the budget, and the
+/// frontier of plans at other budgets.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanReport {
+    pub format: String,
+    pub format_version: u32,
+    pub tool_version: String,
+    pub command: String,
+    pub rules: PlanRules,
+    /// How gains are combined: the sum of the options' gains (each read at the plan's rows).
+    pub gain_model: String,
+    pub plan: Plan,
+    /// What the plan was chosen on: the joint scores of the candidates, or the additive model.
+    pub chosen_by: String,
+    /// The best plans under the additive model, each re-scored with its options together.
+    pub candidates: Vec<Candidate>,
+    /// Why the plan is empty, when it is.
+    pub explanation: Option<String>,
+    pub frontier: Vec<FrontierPoint>,
+    pub appraisal: AppraisalReport,
+    pub warnings: Vec<String>,
+    pub cautions: Vec<String>,
+}
+
+/// How plans are scored and constrained.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct PlanRules {
+    pub budget: f64,
+    /// Score by the lower end of each utility interval instead of its mean.
+    pub cautious: bool,
+    /// The plan's accuracy gain may not be negative.
+    pub keep_accuracy: bool,
+    /// No group may fall below four-fifths of the highest group's predicted selection rate
+    /// after the plan (today's rates plus the options' estimated changes).
+    #[serde(default)]
+    pub no_adverse_impact: bool,
+}
+
+/// One choice within a plan.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanItem {
+    pub option: String,
+    pub kind: String,
+    /// New rows bought (rows options) or 0 (features).
+    pub new_rows: usize,
+    pub cost: f64,
+    pub accuracy_gain: f64,
+    pub unfairness_reduction: f64,
+    pub utility: f64,
+}
+
+/// A plan: what to buy, its cost, and its gains as the sum of the items' (the additive model).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Plan {
+    pub items: Vec<PlanItem>,
+    pub total_cost: f64,
+    pub accuracy_gain: f64,
+    pub unfairness_reduction: f64,
+    /// The score maximised: summed utility, or summed lower ends with `cautious`.
+    pub score: f64,
+}
+
+/// A plan among the best under the additive model, with its joint score.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Candidate {
+    pub plan: Plan,
+    /// The plan's gains with its options taken together, where they could be measured.
+    pub joint: Option<JointScore>,
+    /// Why there is no joint score.
+    pub note: Option<String>,
+}
+
+/// One point of the budget frontier.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FrontierPoint {
+    pub budget: f64,
+    pub plan: Plan,
+}
+
+/// A plan's gains estimated with its options taken together.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct JointScore {
+    pub accuracy_gain: Change,
+    pub unfairness_reduction: Change,
+    pub utility: Change,
+    /// How it was estimated.
+    pub method: String,
+}
