@@ -1226,11 +1226,14 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
     // features is measured where their pilots overlap, or says why it cannot be.
     let wide = plan_for("30000");
     assert!(!wide.candidates.is_empty());
-    for c in wide
-        .candidates
-        .iter()
-        .filter(|c| c.plan.items.iter().filter(|i| i.kind == "feature").count() > 1)
-    {
+    for c in wide.candidates.iter().filter(|c| {
+        c.plan
+            .items
+            .iter()
+            .filter(|i| i.kind == acquest::report::OptionKind::Feature)
+            .count()
+            > 1
+    }) {
         assert!(c.joint.is_some() || c.note.is_some());
     }
     assert!(wide.plan.total_cost <= 30_000.0);
@@ -1342,7 +1345,7 @@ fn the_adverse_impact_floor_is_kept_or_the_plan_says_why_not() {
                 .iter()
                 .find(|o| o.name == item.option)
                 .unwrap();
-            let purchase = if item.kind == "feature" {
+            let purchase = if item.kind == acquest::report::OptionKind::Feature {
                 &option.estimate
             } else {
                 option
@@ -1411,7 +1414,7 @@ fn backtest_on_adult_reports_predicted_against_realised_gains() {
     // Adult train has 32,561 rows; half are held back within every group and label.
     assert_eq!(round.kept_rows + round.held_rows, 32_561);
     assert!(round.held_rows.abs_diff(16_280) < 10, "{}", round.held_rows);
-    let kinds: Vec<&str> = round.options.iter().map(|o| o.kind.as_str()).collect();
+    let kinds: Vec<&str> = round.options.iter().map(|o| o.kind.name()).collect();
     assert_eq!(kinds, ["rows", "group rows", "feature", "feature"]);
     assert_eq!(round.options[0].rows, round.held_rows);
     for p in &round.pilots {
@@ -1431,12 +1434,12 @@ fn backtest_on_adult_reports_predicted_against_realised_gains() {
         .find(|o| o.option == "feature occupation")
         .unwrap();
     let accuracy = &occupation.quantities[0];
-    assert_eq!(accuracy.quantity, "accuracy");
+    assert_eq!(accuracy.quantity, acquest::report::Gain::Accuracy);
     assert!(accuracy.realised.mean > 0.002, "{:?}", accuracy.realised);
     assert!(accuracy.acquest.mean > 0.0, "{:?}", accuracy.acquest);
     assert_eq!(report.summary.len(), 5);
     for s in &report.summary {
-        let methods: Vec<&str> = s.methods.iter().map(|m| m.method.as_str()).collect();
+        let methods: Vec<&str> = s.methods.iter().map(|m| m.method.name()).collect();
         assert_eq!(methods, ["acquest", "last-anchor", "pilot-alone"]);
         assert!(s.methods.iter().all(|m| m.entries == 4));
     }

@@ -528,7 +528,7 @@ fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
         pilot: args.pilot.unwrap_or(0.2),
         hold_group: args.hold_group,
         rounds: args.rounds.unwrap_or(3),
-        fairness: acquest::report::FairnessMeasure::parse(fairness.as_deref().unwrap_or("eod"))?,
+        fairness: acquest::settings::parse_fairness(fairness.as_deref().unwrap_or("eod"))?,
     };
     let bar = progress_bar(args.output.quiet);
     let show = shown_on(&bar);

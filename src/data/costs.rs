@@ -7,6 +7,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::data::{Dataset, Values};
 use crate::error::{nearest_hint, Error, Result};
+use crate::report::OptionKind;
 
 /// What an option buys.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -37,6 +38,15 @@ pub struct CostOption {
 }
 
 impl CostOption {
+    /// What the option buys, as reports name it.
+    pub fn kind(&self) -> OptionKind {
+        match &self.acquisition {
+            Acquisition::Rows { filter: None } => OptionKind::Rows,
+            Acquisition::Rows { filter: Some(_) } => OptionKind::GroupRows,
+            Acquisition::Feature { .. } => OptionKind::Feature,
+        }
+    }
+
     /// Cost of buying this feature for `rows` rows (all rows held plus any new ones).
     pub fn feature_cost(&self, rows: usize) -> f64 {
         self.fixed + self.per_row * rows as f64

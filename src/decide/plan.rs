@@ -5,7 +5,8 @@
 use crate::data::costs::{Acquisition, CostOption};
 use crate::error::{Error, Result};
 use crate::report::{
-    AppraisalReport, Candidate, FrontierPoint, OptionValue, Plan, PlanItem, PlanRules, Purchase,
+    AppraisalReport, Candidate, FrontierPoint, OptionKind, OptionValue, Plan, PlanItem, PlanRules,
+    Purchase,
 };
 
 impl Plan {
@@ -43,7 +44,7 @@ fn value_of(p: &Purchase, cautious: bool) -> Value {
 /// A rows option's choices: (new rows, cost, value), starting with buying nothing.
 struct RowsChoices {
     name: String,
-    kind: String,
+    kind: OptionKind,
     any_case: bool,
     choices: Vec<(usize, f64, Value)>,
     /// Each group's change in selection rate, per choice.
@@ -323,7 +324,7 @@ impl Problem {
             if n > 0 {
                 items.push(PlanItem {
                     option: r.name.clone(),
-                    kind: r.kind.clone(),
+                    kind: r.kind,
                     new_rows: n,
                     cost: c,
                     accuracy_gain: v.accuracy,
@@ -337,7 +338,7 @@ impl Problem {
             let v = f.value(any_rows);
             items.push(PlanItem {
                 option: f.name.clone(),
-                kind: "feature".into(),
+                kind: OptionKind::Feature,
                 new_rows: 0,
                 cost: f.cost(self.rows_held, new_rows),
                 accuracy_gain: v.accuracy,
@@ -375,7 +376,7 @@ fn rows_choices(value: &OptionValue, any_case: bool, cautious: bool) -> RowsChoi
     );
     RowsChoices {
         name: value.name.clone(),
-        kind: value.kind.clone(),
+        kind: value.kind,
         any_case,
         choices,
         selection: std::iter::once(vec![0.0; value.estimate.groups.len()])
@@ -623,7 +624,7 @@ mod tests {
                 RowsChoices {
                     selection: Vec::new(),
                     name: format!("r{r}"),
-                    kind: "rows".into(),
+                    kind: OptionKind::Rows,
                     any_case: r == 0,
                     choices,
                 }
@@ -712,7 +713,7 @@ mod tests {
             rows: vec![RowsChoices {
                 selection: Vec::new(),
                 name: "r".into(),
-                kind: "rows".into(),
+                kind: OptionKind::Rows,
                 any_case: true,
                 choices: vec![(0, 0.0, value(0.0)), (500, 1000.0, value(0.01))],
             }],

@@ -19,62 +19,8 @@ use crate::estimate::baseline;
 use crate::estimate::learning::{self, CurvePlan, FittedCurves, Reading};
 use crate::report::*;
 use crate::settings::{Choices, Settings};
-use crate::stats::curve;
 use crate::stats::metrics::{self, estimate, Estimate, GroupCounts};
-
-impl FairnessMeasure {
-    /// Reads `spd`, `di`, `eod` or `aod`.
-    pub fn parse(text: &str) -> Result<Self> {
-        match text.trim().to_ascii_lowercase().as_str() {
-            "spd" => Ok(FairnessMeasure::Spd),
-            "di" => Ok(FairnessMeasure::Di),
-            "eod" => Ok(FairnessMeasure::Eod),
-            "aod" => Ok(FairnessMeasure::Aod),
-            other => Err(Error::setting(
-                "--fairness",
-                format!("unknown measure '{other}' (choose spd, di, eod or aod)"),
-            )),
-        }
-    }
-
-    /// The short name.
-    pub fn name(self) -> &'static str {
-        match self {
-            FairnessMeasure::Spd => "spd",
-            FairnessMeasure::Di => "di",
-            FairnessMeasure::Eod => "eod",
-            FairnessMeasure::Aod => "aod",
-        }
-    }
-
-    /// Unfairness of u against r from their (selection, TPR, FPR) rates, on a 0-is-fair scale.
-    pub fn unfairness(self, u: [f64; 3], r: [f64; 3]) -> Option<f64> {
-        let value = match self {
-            FairnessMeasure::Spd => (u[0] - r[0]).abs(),
-            FairnessMeasure::Di => {
-                if r[0] <= 0.0 {
-                    return None;
-                }
-                metrics::impact_unfairness(u[0] / r[0])
-            }
-            FairnessMeasure::Eod => (u[1] - r[1]).abs(),
-            FairnessMeasure::Aod => (((u[2] - r[2]) + (u[1] - r[1])) / 2.0).abs(),
-        };
-        value.is_finite().then_some(value)
-    }
-
-    /// The same from counts of one trial.
-    pub fn unfairness_of_counts(self, u: &GroupCounts, r: &GroupCounts) -> Option<f64> {
-        let rates = |c: &GroupCounts| -> Option<[f64; 3]> {
-            Some([
-                c.selection_rate()?,
-                c.true_positive_rate()?,
-                c.false_positive_rate()?,
-            ])
-        };
-        self.unfairness(rates(u)?, rates(r)?)
-    }
-}
+use crate::stats::{curve, fairness};
 
 /// Settings of `acquest appraise`, beyond those of the trials.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -115,7 +61,9 @@ impl AppraisalSettings {
                 .currency
                 .clone()
                 .unwrap_or_else(|| "currency units".into()),
-            fairness: FairnessMeasure::parse(choices.fairness.as_deref().unwrap_or("eod"))?,
+            fairness: crate::settings::parse_fairness(
+                choices.fairness.as_deref().unwrap_or("eod"),
+            )?,
             weigh_accuracy,
             weigh_fairness,
         })
@@ -141,6 +89,16 @@ type GainOf<'a> = &'a dyn Fn(&[f64], &[f64]) -> Option<f64>;
 /// Quantity vector layout (see [`Reading`]): accuracy, then per group selection, TPR, FPR.
 fn rates_of(v: &[f64], g: usize) -> [f64; 3] {
     [v[1 + 3 * g], v[2 + 3 * g], v[3 + 3 * g]]
+}
+
+/// Group g's rates in a quantity vector, as the fairness measures read them.
+fn group_rates(v: &[f64], g: usize) -> fairness::Rates {
+    let [selection, true_positive, false_positive] = rates_of(v, g);
+    fairness::Rates {
+        selection,
+        true_positive,
+        false_positive,
+    }
 }
 
 /// Everything the valuation needs to turn readings into gains.
@@ -169,14 +127,11 @@ impl Scorer<'_> {
     /// Unfairness of the worst compared group, and that group.
     fn unfairness(&self, v: &[f64]) -> Option<(f64, usize)> {
         let r = self.data.reference;
-        (0..self.data.group_list.len())
-            .filter(|&g| g != r)
-            .filter_map(|g| {
-                self.measure
-                    .unfairness(rates_of(v, g), rates_of(v, r))
-                    .map(|u| (u, g))
-            })
-            .max_by(|a, b| a.0.total_cmp(&b.0))
+        fairness::worst_group(self.data.group_list.len(), r, |g| {
+            self.measure
+                .unfairness(&group_rates(v, g), &group_rates(v, r))
+        })
+        .map(|(g, u)| (u, g))
     }
 
     fn change(&self, point: f64, draws: Vec<f64>) -> Change {
@@ -651,7 +606,7 @@ pub fn appraise_dataset(
                         )
                     })
                     .collect();
-                rows_value(option, "rows", None, steps, trials.confidence)
+                rows_value(option, None, steps, trials.confidence)
             }
             Acquisition::Rows {
                 filter: Some((column, value)),
@@ -697,7 +652,6 @@ pub fn appraise_dataset(
                     .collect();
                 rows_value(
                     option,
-                    "group rows",
                     Some(format!("{column}={value}")),
                     steps,
                     trials.confidence,
@@ -804,7 +758,6 @@ fn option_flags(option: &CostOption, headline: &Purchase, confidence: f64) -> Ve
 
 fn rows_value(
     option: &CostOption,
-    kind: &str,
     target: Option<String>,
     steps: Vec<Purchase>,
     confidence: f64,
@@ -813,7 +766,7 @@ fn rows_value(
     OptionValue {
         flags: option_flags(option, &estimate, confidence),
         name: option.name.clone(),
-        kind: kind.into(),
+        kind: option.kind(),
         target,
         sensitive: option.sensitive,
         note: option.note.clone(),
@@ -1132,7 +1085,7 @@ fn feature_value(
     flags.extend(option_flags(option, &estimate, trials.confidence));
     let value = OptionValue {
         name: option.name.clone(),
-        kind: "feature".into(),
+        kind: OptionKind::Feature,
         target: Some(column.to_string()),
         sensitive: option.sensitive,
         note: option.note.clone(),
@@ -1263,17 +1216,8 @@ fn pilot_summary(
     let test_to_train = w
         .first()
         .map_or(0.0, |t| t.test_rows as f64 / t.train_rows.max(1) as f64);
-    let r = data.reference;
-    let unfairness = |t: &TrialOutcome| {
-        (0..data.group_list.len())
-            .filter(|&g| g != r)
-            .filter_map(|g| {
-                scorer
-                    .measure
-                    .unfairness_of_counts(&t.counts[g], &t.counts[r])
-            })
-            .fold(None, |m: Option<f64>, u| Some(m.map_or(u, |m| m.max(u))))
-    };
+    let unfairness =
+        |t: &TrialOutcome| fairness::worst_of_counts(scorer.measure, &t.counts, data.reference);
     let accuracy_with: Vec<f64> = w.iter().map(|t| t.accuracy).collect();
     let accuracy_without: Vec<f64> = o.iter().map(|t| t.accuracy).collect();
     let accuracy_diff: Vec<f64> = accuracy_with
@@ -1322,13 +1266,8 @@ fn held_features(
     let trials = &settings.trials;
     let family = model::family(trials.model);
     let features = data.features.len();
-    let r = data.reference;
-    let unfairness = |counts: &[GroupCounts]| {
-        (0..data.group_list.len())
-            .filter(|&g| g != r)
-            .filter_map(|g| measure.unfairness_of_counts(&counts[g], &counts[r]))
-            .fold(None, |m: Option<f64>, u| Some(m.map_or(u, |m| m.max(u))))
-    };
+    let unfairness =
+        |counts: &[GroupCounts]| fairness::worst_of_counts(measure, counts, data.reference);
     let done = std::sync::atomic::AtomicUsize::new(0);
     let total = trials.repeats;
     progress(trial::Progress {
@@ -1588,16 +1527,5 @@ mod tests {
             let dropped = base - accuracy_of(&m2.scores(e.transform(&kept, &test).view()));
             assert!((dropped - expected_drop[j]).abs() < 1e-9, "{j}: {dropped}");
         }
-    }
-
-    #[test]
-    fn unfairness_on_each_measure() {
-        let u = [0.2, 0.5, 0.1];
-        let r = [0.4, 0.7, 0.2];
-        assert!((FairnessMeasure::Spd.unfairness(u, r).unwrap() - 0.2).abs() < 1e-12);
-        assert!((FairnessMeasure::Di.unfairness(u, r).unwrap() - 0.5).abs() < 1e-12);
-        assert!((FairnessMeasure::Eod.unfairness(u, r).unwrap() - 0.2).abs() < 1e-12);
-        assert!((FairnessMeasure::Aod.unfairness(u, r).unwrap() - 0.15).abs() < 1e-12);
-        assert!(FairnessMeasure::parse("xyz").is_err());
     }
 }

@@ -19,7 +19,8 @@ use crate::estimate::appraise::{self, AppraisalInput, AppraisalSettings, OptionR
 use crate::estimate::baseline;
 use crate::report::*;
 use crate::settings::Settings;
-use crate::stats::metrics::{self, estimate, GroupCounts};
+use crate::stats::fairness;
+use crate::stats::metrics::{self, estimate};
 
 /// Random stream of each round's hold-out and pilots (index: the round).
 const HOLD_STREAM: u64 = 6_000;
@@ -30,29 +31,25 @@ const REALISE_STREAM: u64 = 7_000;
 /// each other, below this p-value (common practice, no source).
 pub const SIGNIFICANCE: f64 = 0.05;
 
-/// The quantities compared: accuracy, then the unfairness of each fairness measure.
-pub const QUANTITIES: [&str; 5] = ["accuracy", "spd", "di", "eod", "aod"];
-
-/// The estimators compared.
-pub const METHODS: [(&str, &str); 3] = [
-    (
-        "acquest",
-        "the appraisal as it stands: rows read off today's learning curves, a feature's paired \
-         pilot difference fitted as a curve and added to today's curve",
-    ),
-    (
-        "last-anchor",
-        "no extrapolation: what the last measured anchor shows (rows: no change, since nothing is \
-         measured beyond today; a feature: the with-minus-without difference at the pilot's full \
-         size)",
-    ),
-    (
-        "pilot-alone",
-        "the pilot's with-feature curve alone, read at today's training rows, against today's \
-         curve (rows options have no pilot and read today's curves as acquest does; a pilot too \
-         small for a curve falls back to its last anchor)",
-    ),
-];
+/// What each estimator compared does.
+fn description(method: Method) -> &'static str {
+    match method {
+        Method::Acquest => {
+            "the appraisal as it stands: rows read off today's learning curves, a feature's paired \
+             pilot difference fitted as a curve and added to today's curve"
+        }
+        Method::LastAnchor => {
+            "no extrapolation: what the last measured anchor shows (rows: no change, since nothing is \
+             measured beyond today; a feature: the with-minus-without difference at the pilot's full \
+             size)"
+        }
+        Method::PilotAlone => {
+            "the pilot's with-feature curve alone, read at today's training rows, against today's \
+             curve (rows options have no pilot and read today's curves as acquest does; a pilot too \
+             small for a curve falls back to its last anchor)"
+        }
+    }
+}
 
 impl BacktestSettings {
     /// Checks the shares and counts.
@@ -306,11 +303,11 @@ pub fn realised_training(data: &Dataset, option: &CostOption, rows: &RealisedSpl
 }
 
 impl QuantityRecord {
-    fn predicted(&self, method: usize) -> &Change {
+    fn predicted(&self, method: Method) -> &Change {
         match method {
-            0 => &self.acquest,
-            1 => &self.last_anchor,
-            _ => &self.pilot_alone,
+            Method::Acquest => &self.acquest,
+            Method::LastAnchor => &self.last_anchor,
+            Method::PilotAlone => &self.pilot_alone,
         }
     }
 }
@@ -368,8 +365,8 @@ pub fn run(
         )?);
     }
     let test_fraction = settings.trials.test_fraction;
-    let summary: Vec<QuantitySummary> = QUANTITIES
-        .iter()
+    let summary: Vec<QuantitySummary> = Gain::ALL
+        .into_iter()
         .map(|q| {
             summarise(
                 &rounds,
@@ -379,7 +376,7 @@ pub fn run(
             )
         })
         .collect();
-    let targets = check_targets(&summary, backtest.fairness.name());
+    let targets = check_targets(&summary, backtest.fairness);
     let mut warnings = data.warnings.clone();
     if data.rows() < 2_000 {
         warnings.push(format!(
@@ -396,11 +393,11 @@ pub fn run(
         inputs,
         backtest: backtest.clone(),
         significance: SIGNIFICANCE,
-        methods: METHODS
-            .iter()
-            .map(|(m, d)| MethodNote {
-                method: m.to_string(),
-                description: d.to_string(),
+        methods: Method::ALL
+            .into_iter()
+            .map(|method| MethodNote {
+                method,
+                description: description(method).to_string(),
             })
             .collect(),
         rounds,
@@ -445,16 +442,16 @@ fn run_round(
         .enumerate()
         .map(|(k, option)| {
             let readings = &appraiser.readings()[k];
-            let quantities = QUANTITIES
-                .iter()
-                .map(|&q| {
+            let quantities = Gain::ALL
+                .into_iter()
+                .map(|q| {
                     let realised =
                         realised_gain(data, q, &outcomes, k, trials.confidence, test_to_train);
                     let predict = |after: &crate::estimate::learning::Reading| {
                         predicted(&reduced, q, trials, readings, after)
                     };
                     QuantityRecord {
-                        quantity: q.to_string(),
+                        quantity: q,
                         acquest: predict(&readings.after),
                         last_anchor: predict(&readings.last_anchor),
                         pilot_alone: predict(readings.direct.as_ref().unwrap_or(
@@ -470,12 +467,7 @@ fn run_round(
                 .collect();
             OptionRecord {
                 option: option.name.clone(),
-                kind: match &option.acquisition {
-                    Acquisition::Rows { filter: None } => "rows",
-                    Acquisition::Rows { .. } => "group rows",
-                    Acquisition::Feature { .. } => "feature",
-                }
-                .into(),
+                kind: option.kind(),
                 rows: option.max_rows.unwrap_or(split.kept.len()),
                 quantities,
             }
@@ -502,19 +494,20 @@ fn run_round(
 /// The predicted change of quantity `q` from the readings' `now` to `after`.
 fn predicted(
     reduced: &Dataset,
-    q: &str,
+    q: Gain,
     trials: &crate::settings::TrialSettings,
     readings: &OptionReadings,
     after: &crate::estimate::learning::Reading,
 ) -> Change {
-    let measure = FairnessMeasure::parse(if q == "accuracy" { "eod" } else { q })
-        .unwrap_or(FairnessMeasure::Eod);
+    let measure = match q {
+        Gain::Accuracy => FairnessMeasure::Eod,
+        Gain::Fairness(m) => m,
+    };
     let (accuracy, fairness) =
         appraise::score_readings(reduced, measure, trials, &readings.now, after);
-    if q == "accuracy" {
-        accuracy
-    } else {
-        fairness
+    match q {
+        Gain::Accuracy => accuracy,
+        Gain::Fairness(_) => fairness,
     }
 }
 
@@ -592,24 +585,11 @@ fn realise(
         .collect()
 }
 
-/// Unfairness of the worst compared group in one trial under `measure`.
-fn trial_unfairness(
-    data: &Dataset,
-    measure: FairnessMeasure,
-    counts: &[GroupCounts],
-) -> Option<f64> {
-    let r = data.reference;
-    (0..data.group_list.len())
-        .filter(|&g| g != r)
-        .filter_map(|g| measure.unfairness_of_counts(&counts[g], &counts[r]))
-        .max_by(f64::total_cmp)
-}
-
 /// The realised gain of option `k` in quantity `q`: accuracy after minus before, or unfairness
 /// before minus after, paired repeat by repeat.
 fn realised_gain(
     data: &Dataset,
-    q: &str,
+    q: Gain,
     outcomes: &[Vec<TrialOutcome>],
     k: usize,
     confidence: f64,
@@ -619,14 +599,12 @@ fn realised_gain(
         .iter()
         .map(|repeat| {
             let (before, after) = (&repeat[0], &repeat[k + 1]);
-            if q == "accuracy" {
-                Some(after.accuracy - before.accuracy)
-            } else {
-                let measure = FairnessMeasure::parse(q).ok()?;
-                Some(
-                    trial_unfairness(data, measure, &before.counts)?
-                        - trial_unfairness(data, measure, &after.counts)?,
-                )
+            match q {
+                Gain::Accuracy => Some(after.accuracy - before.accuracy),
+                Gain::Fairness(measure) => Some(
+                    fairness::worst_of_counts(measure, &before.counts, data.reference)?
+                        - fairness::worst_of_counts(measure, &after.counts, data.reference)?,
+                ),
             }
         })
         .collect();
@@ -682,7 +660,7 @@ fn differ(a: &Entry, b: &Entry, confidence: f64) -> bool {
 
 fn summarise(
     rounds: &[RoundRecord],
-    quantity: &str,
+    quantity: Gain,
     confidence: f64,
     test_to_train: f64,
 ) -> QuantitySummary {
@@ -730,7 +708,8 @@ fn summarise(
             chain
         })
         .collect();
-    let methods = (0..METHODS.len())
+    let methods = Method::ALL
+        .into_iter()
         .map(|m| {
             let predicted = |e: &Entry| e.record.predicted(m).mean;
             let realised = |e: &Entry| e.record.realised.mean;
@@ -838,7 +817,7 @@ fn summarise(
                 }
             }
             MethodSummary {
-                method: METHODS[m].0.to_string(),
+                method: m,
                 entries: entries.len(),
                 mean_absolute_error_pp: (!errors.is_empty())
                     .then(|| errors.iter().sum::<f64>() / errors.len() as f64),
@@ -863,24 +842,20 @@ fn summarise(
         })
         .collect();
     QuantitySummary {
-        quantity: quantity.to_string(),
+        quantity,
         nominal_coverage: confidence,
         methods,
     }
 }
 
 /// The quality targets of the backtest, for accuracy and the chosen fairness measure.
-fn check_targets(summary: &[QuantitySummary], fairness: &str) -> Vec<TargetCheck> {
+fn check_targets(summary: &[QuantitySummary], fairness: FairnessMeasure) -> Vec<TargetCheck> {
     let mut checks = Vec::new();
-    for quantity in ["accuracy", fairness] {
+    for quantity in [Gain::Accuracy, Gain::Fairness(fairness)] {
         let Some(s) = summary.iter().find(|s| s.quantity == quantity) else {
             continue;
         };
-        let label = if quantity == "accuracy" {
-            "accuracy gain".to_string()
-        } else {
-            format!("{quantity} unfairness reduction")
-        };
+        let label = quantity.label();
         let ours = &s.methods[0];
         let pct = |x: Option<f64>| x.map_or("n/a".into(), |x| format!("{:.0}%", x * 100.0));
         let num = |x: Option<f64>| x.map_or("n/a".into(), |x| format!("{x:.2}"));
@@ -923,7 +898,7 @@ fn check_targets(summary: &[QuantitySummary], fairness: &str) -> Vec<TargetCheck
                 ours.with_interval
             ),
         });
-        if quantity == "accuracy" {
+        if quantity == Gain::Accuracy {
             checks.push(TargetCheck {
                 target: "mean absolute error of accuracy gains at most 0.5 percentage points"
                     .into(),
@@ -945,7 +920,7 @@ fn check_targets(summary: &[QuantitySummary], fairness: &str) -> Vec<TargetCheck
                 num(ours.mean_absolute_error_pp),
                 beaten
                     .iter()
-                    .map(|b| format!("{} {} pp", b.method, num(b.mean_absolute_error_pp)))
+                    .map(|b| format!("{} {} pp", b.method.name(), num(b.mean_absolute_error_pp)))
                     .collect::<Vec<_>>()
                     .join(", ")
             ),

@@ -7,6 +7,7 @@ use crate::engine::trial::{self, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
 use crate::report::*;
 use crate::settings::Settings;
+use crate::stats::fairness;
 use crate::stats::metrics::{self, estimate, Estimate, GroupCounts, FOUR_FIFTHS};
 
 /// Reads the data, runs the trials and builds the report.
@@ -32,12 +33,14 @@ pub fn build_report(
     let label_bias = LabelBias {
         comparisons: compared_groups(reference, names.len())
             .map(|g| {
-                let (spd, di) =
-                    metrics::label_disparity(&label_counts[g], &label_counts[reference]);
+                let (u, r) = (
+                    fairness::Labels(&label_counts[g]),
+                    fairness::Labels(&label_counts[reference]),
+                );
                 LabelComparison {
                     group: names[g].clone(),
-                    statistical_parity_difference: spd,
-                    disparate_impact: di,
+                    statistical_parity_difference: FairnessMeasure::Spd.value(&u, &r),
+                    disparate_impact: FairnessMeasure::Di.value(&u, &r),
                 }
             })
             .collect(),
@@ -198,20 +201,16 @@ fn summarise_model(
 
     let mut comparisons = Vec::new();
     for g in compared_groups(reference, names.len()) {
-        let per_trial: Vec<metrics::Disparity> = outcomes
-            .iter()
-            .map(|o| metrics::disparity(&o.counts[g], &o.counts[reference]))
-            .collect();
-        let pick = |f: &dyn Fn(&metrics::Disparity) -> Option<f64>| -> Vec<f64> {
-            per_trial.iter().filter_map(f).collect()
+        let per_trial = |m: FairnessMeasure| -> Vec<f64> {
+            outcomes
+                .iter()
+                .filter_map(|o| m.value(&o.counts[g], &o.counts[reference]))
+                .collect()
         };
-        let spd = pick(&|d| d.statistical_parity_difference);
-        let di = pick(&|d| d.disparate_impact);
-        let eod = pick(&|d| d.equal_opportunity_difference);
-        let aod = pick(&|d| d.average_odds_difference);
+        let [spd, di, eod, aod] = FairnessMeasure::ALL.map(per_trial);
         for (values, measure) in [
-            (&di, "disparate impact"),
-            (&eod, "equal opportunity difference"),
+            (&di, FairnessMeasure::Di.full_name()),
+            (&eod, FairnessMeasure::Eod.full_name()),
         ] {
             if values.len() < outcomes.len() {
                 warnings.push(format!(
@@ -231,32 +230,23 @@ fn summarise_model(
             average_odds_difference: summary(aod, Some(0.0)),
         });
     }
-    let worst_of = |value: &dyn Fn(&Comparison) -> Option<f64>| -> Option<Worst> {
-        comparisons
-            .iter()
-            .filter_map(|c| value(c).map(|u| (c.group.clone(), u)))
-            .max_by(|a, b| a.1.total_cmp(&b.1))
-            .map(|(group, unfairness)| Worst { group, unfairness })
+    // The worst compared group of each measure, by the unfairness of its mean.
+    let worst_of = |m: FairnessMeasure, value: &dyn Fn(&Comparison) -> &Option<Estimate>| {
+        fairness::worst(comparisons.iter().map(|c| {
+            let unfairness = value(c).as_ref().map(|e| m.unfairness_of(e.mean));
+            (c.group.clone(), unfairness)
+        }))
+        .map(|(group, unfairness)| Worst { group, unfairness })
     };
     let worst = WorstGroups {
-        statistical_parity_difference: worst_of(&|c| {
-            c.statistical_parity_difference
-                .as_ref()
-                .map(|e| e.mean.abs())
+        statistical_parity_difference: worst_of(FairnessMeasure::Spd, &|c| {
+            &c.statistical_parity_difference
         }),
-        disparate_impact: worst_of(&|c| {
-            c.disparate_impact
-                .as_ref()
-                .map(|e| metrics::impact_unfairness(e.mean))
+        disparate_impact: worst_of(FairnessMeasure::Di, &|c| &c.disparate_impact),
+        equal_opportunity_difference: worst_of(FairnessMeasure::Eod, &|c| {
+            &c.equal_opportunity_difference
         }),
-        equal_opportunity_difference: worst_of(&|c| {
-            c.equal_opportunity_difference
-                .as_ref()
-                .map(|e| e.mean.abs())
-        }),
-        average_odds_difference: worst_of(&|c| {
-            c.average_odds_difference.as_ref().map(|e| e.mean.abs())
-        }),
+        average_odds_difference: worst_of(FairnessMeasure::Aod, &|c| &c.average_odds_difference),
     };
 
     let per_trial_findings: Vec<Vec<metrics::FourFifthsFinding>> = outcomes

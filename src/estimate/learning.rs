@@ -12,7 +12,8 @@ use crate::estimate::baseline;
 use crate::report::*;
 use crate::settings::{CurveSettings, Settings, SizeRequest};
 use crate::stats::curve::{self, Choice, Fit};
-use crate::stats::metrics::{self, GroupCounts};
+use crate::stats::fairness;
+use crate::stats::metrics::GroupCounts;
 
 /// Fewest rows of one (group, label) cell that the smallest anchor must hold.
 pub const MIN_CELL_ROWS: usize = 10;
@@ -108,22 +109,14 @@ impl Quantity {
     }
 }
 
-/// The four disparity measures, derived from group rates.
-const MEASURES: [&str; 4] = [
-    "statistical parity difference",
-    "disparate impact",
-    "equal opportunity difference",
-    "average odds difference",
-];
-
 /// A measure of group u against reference r from their (selection, TPR, FPR) rates.
-fn derive(measure: usize, u: [f64; 3], r: [f64; 3]) -> Option<f64> {
-    match measure {
-        0 => Some(u[0] - r[0]),
-        1 => (r[0] > 0.0).then(|| u[0] / r[0]),
-        2 => Some(u[1] - r[1]),
-        _ => Some(((u[2] - r[2]) + (u[1] - r[1])) / 2.0),
-    }
+fn derive(measure: FairnessMeasure, u: [f64; 3], r: [f64; 3]) -> Option<f64> {
+    let rates = |[selection, true_positive, false_positive]: [f64; 3]| fairness::Rates {
+        selection,
+        true_positive,
+        false_positive,
+    };
+    measure.value(&rates(u), &rates(r))
 }
 
 /// The curve-fitting part of the work, on trial outcomes already run: used by `curves` and, in
@@ -751,7 +744,7 @@ pub fn fit_curves(
             fits[rate_index(g, k)].choice.is_some()
                 && fits[rate_index(reference, k)].choice.is_some()
         });
-        for (m, measure) in MEASURES.iter().enumerate() {
+        for m in FairnessMeasure::ALL {
             let at_point = |n: f64| -> Option<f64> {
                 if !usable {
                     return None;
@@ -811,32 +804,21 @@ pub fn fit_curves(
             } else {
                 None
             };
-            let (label_spd, label_di) =
-                metrics::label_disparity(&label_counts[g], &label_counts[reference]);
             let measured: Vec<Vec<Option<f64>>> = outcomes
                 .iter()
                 .map(|row| {
                     row.iter()
-                        .map(|o| {
-                            let d = metrics::disparity(&o.counts[g], &o.counts[reference]);
-                            [
-                                d.statistical_parity_difference,
-                                d.disparate_impact,
-                                d.equal_opportunity_difference,
-                                d.average_odds_difference,
-                            ][m]
-                        })
+                        .map(|o| m.value(&o.counts[g], &o.counts[reference]))
                         .collect()
                 })
                 .collect();
             disparities.push(DisparityCurve {
-                measure: measure.to_string(),
+                measure: m.full_name().to_string(),
                 group: data.group_list[g].name.clone(),
-                in_labels: match m {
-                    0 => label_spd,
-                    1 => label_di,
-                    _ => None,
-                },
+                in_labels: m.value(
+                    &fairness::Labels(&label_counts[g]),
+                    &fairness::Labels(&label_counts[reference]),
+                ),
                 anchors: anchors(&measured, sizes),
                 asymptote,
                 grid: read_at(&grid),
@@ -901,10 +883,11 @@ mod tests {
     fn disparities_from_rates() {
         let u = [0.2, 0.5, 0.1];
         let r = [0.4, 0.7, 0.2];
-        assert!((derive(0, u, r).unwrap() + 0.2).abs() < 1e-12);
-        assert!((derive(1, u, r).unwrap() - 0.5).abs() < 1e-12);
-        assert!((derive(2, u, r).unwrap() + 0.2).abs() < 1e-12);
-        assert!((derive(3, u, r).unwrap() + 0.15).abs() < 1e-12);
-        assert_eq!(derive(1, u, [0.0, 0.7, 0.2]), None);
+        use FairnessMeasure as M;
+        assert!((derive(M::Spd, u, r).unwrap() + 0.2).abs() < 1e-12);
+        assert!((derive(M::Di, u, r).unwrap() - 0.5).abs() < 1e-12);
+        assert!((derive(M::Eod, u, r).unwrap() + 0.2).abs() < 1e-12);
+        assert!((derive(M::Aod, u, r).unwrap() + 0.15).abs() < 1e-12);
+        assert_eq!(derive(M::Di, u, [0.0, 0.7, 0.2]), None);
     }
 }

@@ -300,7 +300,7 @@ pub fn plan_html(report: &PlanReport) -> String {
                     out,
                     "<tr><td>{}</td><td>{}</td><td>{}</td><td>{:+.4}</td><td>{:+.4}</td></tr>",
                     escape(&i.option),
-                    if i.kind == "feature" {
+                    if i.kind == crate::report::OptionKind::Feature {
                         "all rows held".to_string()
                     } else {
                         thousands(i.new_rows)

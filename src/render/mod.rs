@@ -7,7 +7,8 @@ pub mod svg;
 use std::fmt::Write as _;
 
 use crate::report::{
-    AppraisalReport, BaselineReport, Change, CurvePoint, CurvesReport, Estimate, PlanReport,
+    AppraisalReport, BaselineReport, Change, CurvePoint, CurvesReport, Estimate, Gain, OptionKind,
+    PlanReport,
 };
 
 /// The report as pretty-printed JSON, ending in a newline.
@@ -564,14 +565,14 @@ fn appraisal_body(report: &AppraisalReport) -> String {
             continue;
         };
         let e = &o.estimate;
-        let buys = match o.kind.as_str() {
-            "feature" => format!("feature {}", o.target.as_deref().unwrap_or("")),
-            "group rows" => format!(
+        let buys = match o.kind {
+            OptionKind::Feature => format!("feature {}", o.target.as_deref().unwrap_or("")),
+            OptionKind::GroupRows => format!(
                 "{} rows of {}",
                 thousands(e.new_rows),
                 o.target.as_deref().unwrap_or("")
             ),
-            _ => format!("{} rows", thousands(e.new_rows)),
+            OptionKind::Rows => format!("{} rows", thousands(e.new_rows)),
         };
         t.row(vec![
             r.rank.to_string(),
@@ -593,7 +594,11 @@ fn appraisal_body(report: &AppraisalReport) -> String {
         }
     }
 
-    for o in report.options.iter().filter(|o| o.kind == "feature") {
+    for o in report
+        .options
+        .iter()
+        .filter(|o| o.kind == OptionKind::Feature)
+    {
         let Some(p) = &o.pilot else { continue };
         let _ = writeln!(
             out,
@@ -644,7 +649,11 @@ fn appraisal_body(report: &AppraisalReport) -> String {
             }
         }
     }
-    for o in report.options.iter().filter(|o| o.kind == "group rows") {
+    for o in report
+        .options
+        .iter()
+        .filter(|o| o.kind == OptionKind::GroupRows)
+    {
         let _ = writeln!(
             out,
             "\nRows option '{}' ({}): every group's rates move",
@@ -712,9 +721,11 @@ fn plan_lines(report: &PlanReport) -> Vec<String> {
         .items
         .iter()
         .map(|i| {
-            let what = match i.kind.as_str() {
-                "feature" => format!("{} (feature)", i.option),
-                _ => format!("{} ({} rows)", i.option, thousands(i.new_rows)),
+            let what = match i.kind {
+                OptionKind::Feature => format!("{} (feature)", i.option),
+                OptionKind::Rows | OptionKind::GroupRows => {
+                    format!("{} ({} rows)", i.option, thousands(i.new_rows))
+                }
             };
             format!(
                 "{what}: {} {currency}, accuracy {:+.4}, unfairness reduction {:+.4}",
@@ -1004,7 +1015,7 @@ pub fn plan_markdown(report: &PlanReport) -> String {
 
 /// A plan item in a few words: the option, and the rows bought for a rows option.
 fn item_label(i: &crate::report::PlanItem) -> String {
-    if i.kind == "feature" {
+    if i.kind == OptionKind::Feature {
         i.option.clone()
     } else {
         format!("{} {}", i.option, thousands(i.new_rows))
@@ -1081,13 +1092,9 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
         "Each option is appraised on what is left, then bought for real and measured with the same trials ({} repeats, {} model).",
         inputs.repeats, inputs.model
     );
-    let fairness = b.fairness.name();
-    for quantity in ["accuracy", fairness] {
-        let title = if quantity == "accuracy" {
-            "accuracy gain".to_string()
-        } else {
-            format!("{quantity} unfairness reduction")
-        };
+    let shown = [Gain::Accuracy, Gain::Fairness(b.fairness)];
+    for quantity in shown {
+        let title = quantity.label();
         let _ = writeln!(
             out,
             "\nPredicted and realised {title} ({:.0}% intervals; * realised differs from 0 at p < {})",
@@ -1121,16 +1128,12 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
     for summary in report
         .summary
         .iter()
-        .filter(|s| s.quantity == "accuracy" || s.quantity == fairness)
+        .filter(|s| shown.contains(&s.quantity))
     {
         let _ = writeln!(
             out,
             "\nHow well each method did: {} (over every option and round)",
-            if summary.quantity == "accuracy" {
-                "accuracy gain".to_string()
-            } else {
-                format!("{} unfairness reduction", summary.quantity)
-            }
+            summary.quantity.label()
         );
         let mut table = Table::new(&[
             "method",
@@ -1144,7 +1147,7 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
         ]);
         for m in &summary.methods {
             table.row(vec![
-                m.method.clone(),
+                m.method.name().to_string(),
                 m.mean_absolute_error_pp
                     .map_or("n/a".into(), |e| format!("{e:.2}")),
                 m.error_net_of_noise_pp
@@ -1191,7 +1194,7 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
     }
     out.push_str("\nMethods\n");
     for m in &report.methods {
-        let _ = writeln!(out, "  - {}: {}", m.method, m.description);
+        let _ = writeln!(out, "  - {}: {}", m.method.name(), m.description);
     }
     warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
     out

@@ -131,7 +131,7 @@ pub struct PilotSummary {
 pub struct OptionValue {
     pub name: String,
     /// "feature", "rows" or "group rows".
-    pub kind: String,
+    pub kind: OptionKind,
     /// The candidate column, or the group filter.
     pub target: Option<String>,
     pub sensitive: bool,
@@ -170,12 +170,64 @@ pub struct HeldFeature {
     pub permutation_unfairness: Option<Estimate>,
 }
 
-/// The fairness measure whose unfairness the utility counts.
+/// A disparity measure between a compared group and the reference (defined in
+/// `stats::fairness`); named in reports by its short name.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum FairnessMeasure {
+    /// Statistical parity difference.
     Spd,
+    /// Disparate impact.
     Di,
+    /// Equal opportunity difference.
     Eod,
+    /// Average odds difference.
     Aod,
+}
+
+impl FairnessMeasure {
+    /// The short name: `spd`, `di`, `eod` or `aod`.
+    pub fn name(self) -> &'static str {
+        match self {
+            FairnessMeasure::Spd => "spd",
+            FairnessMeasure::Di => "di",
+            FairnessMeasure::Eod => "eod",
+            FairnessMeasure::Aod => "aod",
+        }
+    }
+
+    /// The measure's name in words.
+    pub fn full_name(self) -> &'static str {
+        match self {
+            FairnessMeasure::Spd => "statistical parity difference",
+            FairnessMeasure::Di => "disparate impact",
+            FairnessMeasure::Eod => "equal opportunity difference",
+            FairnessMeasure::Aod => "average odds difference",
+        }
+    }
+}
+
+/// What an option of the cost sheet buys.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum OptionKind {
+    /// A new attribute for the rows held.
+    #[serde(rename = "feature")]
+    Feature,
+    /// More rows of any group.
+    #[serde(rename = "rows")]
+    Rows,
+    /// More rows of one group.
+    #[serde(rename = "group rows")]
+    GroupRows,
+}
+
+impl OptionKind {
+    /// The name in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            OptionKind::Feature => "feature",
+            OptionKind::Rows => "rows",
+            OptionKind::GroupRows => "group rows",
+        }
+    }
 }

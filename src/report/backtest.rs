@@ -3,7 +3,87 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::{Change, FairnessMeasure, Inputs};
+use super::{Change, FairnessMeasure, Inputs, OptionKind};
+
+/// A gain the backtest compares: in accuracy, or the fall in unfairness on one measure. Named
+/// in reports `accuracy`, `spd`, `di`, `eod` or `aod`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(into = "String", try_from = "String")]
+pub enum Gain {
+    /// The accuracy gain.
+    Accuracy,
+    /// The unfairness reduction on one measure.
+    Fairness(FairnessMeasure),
+}
+
+impl Gain {
+    /// Accuracy, then each fairness measure, in report order.
+    pub const ALL: [Gain; 5] = [
+        Gain::Accuracy,
+        Gain::Fairness(FairnessMeasure::Spd),
+        Gain::Fairness(FairnessMeasure::Di),
+        Gain::Fairness(FairnessMeasure::Eod),
+        Gain::Fairness(FairnessMeasure::Aod),
+    ];
+
+    /// The name in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            Gain::Accuracy => "accuracy",
+            Gain::Fairness(m) => m.name(),
+        }
+    }
+
+    /// What the gain is, in words ("accuracy gain", "eod unfairness reduction").
+    pub fn label(self) -> String {
+        match self {
+            Gain::Accuracy => "accuracy gain".to_string(),
+            Gain::Fairness(m) => format!("{} unfairness reduction", m.name()),
+        }
+    }
+}
+
+impl From<Gain> for String {
+    fn from(gain: Gain) -> String {
+        gain.name().to_string()
+    }
+}
+
+impl TryFrom<String> for Gain {
+    type Error = String;
+    fn try_from(name: String) -> Result<Gain, String> {
+        Gain::ALL
+            .into_iter()
+            .find(|g| g.name() == name)
+            .ok_or_else(|| format!("unknown gain '{name}'"))
+    }
+}
+
+/// An estimator the backtest compares.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Method {
+    /// The appraisal as it stands.
+    Acquest,
+    /// No extrapolation: what the last measured anchor shows.
+    LastAnchor,
+    /// The pilot's with-feature curve alone.
+    PilotAlone,
+}
+
+impl Method {
+    /// Every method, acquest's first.
+    pub const ALL: [Method; 3] = [Method::Acquest, Method::LastAnchor, Method::PilotAlone];
+
+    /// The name in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            Method::Acquest => "acquest",
+            Method::LastAnchor => "last-anchor",
+            Method::PilotAlone => "pilot-alone",
+        }
+    }
+}
 
 /// What `acquest backtest` holds back and how often.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -38,7 +118,7 @@ pub struct RealisedGain {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct QuantityRecord {
     /// accuracy, or the unfairness reduction of spd, di, eod or aod.
-    pub quantity: String,
+    pub quantity: Gain,
     pub acquest: Change,
     pub last_anchor: Change,
     pub pilot_alone: Change,
@@ -50,7 +130,7 @@ pub struct QuantityRecord {
 pub struct OptionRecord {
     pub option: String,
     /// rows, group rows or feature.
-    pub kind: String,
+    pub kind: OptionKind,
     /// Rows bought (held rows, or the group's held rows), or rows covered by the feature.
     pub rows: usize,
     pub quantities: Vec<QuantityRecord>,
@@ -78,7 +158,7 @@ pub struct PilotRows {
 /// How well one method did on one quantity, over every option of every round.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct MethodSummary {
-    pub method: String,
+    pub method: Method,
     /// Option-rounds compared.
     pub entries: usize,
     /// Mean absolute error of the predicted gains, in percentage points.
@@ -119,7 +199,7 @@ pub struct MethodSummary {
 /// Every method on one quantity.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct QuantitySummary {
-    pub quantity: String,
+    pub quantity: Gain,
     /// The nominal level of the predicted intervals.
     pub nominal_coverage: f64,
     pub methods: Vec<MethodSummary>,
@@ -136,7 +216,7 @@ pub struct TargetCheck {
 /// A named method and what it does.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct MethodNote {
-    pub method: String,
+    pub method: Method,
     pub description: String,
 }
 

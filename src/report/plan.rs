@@ -3,7 +3,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::{AppraisalReport, Change};
+use super::{AppraisalReport, Change, OptionKind};
 
 /// The report of `acquest plan`: the appraisal it rests on, the plan for the budget, and the
 /// frontier of plans at other budgets.
@@ -47,7 +47,7 @@ pub struct PlanRules {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PlanItem {
     pub option: String,
-    pub kind: String,
+    pub kind: OptionKind,
     /// New rows bought (rows options) or 0 (features).
     pub new_rows: usize,
     pub cost: f64,

@@ -484,6 +484,23 @@ impl CurveSettings {
     }
 }
 
+/// Reads `--fairness`: `spd`, `di`, `eod` or `aod`.
+pub fn parse_fairness(text: &str) -> Result<crate::report::FairnessMeasure> {
+    use crate::report::FairnessMeasure;
+    FairnessMeasure::ALL
+        .into_iter()
+        .find(|m| m.name() == text.trim().to_ascii_lowercase())
+        .ok_or_else(|| {
+            Error::setting(
+                "--fairness",
+                format!(
+                    "unknown measure '{}' (choose spd, di, eod or aod)",
+                    text.trim().to_ascii_lowercase()
+                ),
+            )
+        })
+}
+
 /// Reads a delimiter given as one character or as a name (`tab`, `space`, `comma`, `semicolon`).
 pub fn parse_delimiter(text: &str) -> Result<u8> {
     let byte = match text {
@@ -583,6 +600,18 @@ pub fn parse_groups(text: &str) -> Result<Vec<GroupRule>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn fairness_measures_by_short_name() {
+        use crate::report::FairnessMeasure;
+        assert_eq!(parse_fairness(" EOD").unwrap(), FairnessMeasure::Eod);
+        assert_eq!(parse_fairness("di").unwrap(), FairnessMeasure::Di);
+        let error = parse_fairness("xyz").unwrap_err().to_string();
+        assert!(
+            error.contains("--fairness") && error.contains("'xyz'"),
+            "{error}"
+        );
+    }
 
     fn minimal() -> Choices {
         Choices {

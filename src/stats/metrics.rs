@@ -1,4 +1,4 @@
-//! Pure scoring: accuracy, rates per group, the disparity measures, the four-fifths check and the
+//! Pure scoring: accuracy, rates per group, the four-fifths check and the
 //! statistics (tests, intervals) they are reported with. Knows nothing of data frames or files.
 
 pub use crate::report::Estimate;
@@ -115,70 +115,6 @@ pub fn area_under_curve(labels: &[bool], scores: &[f64]) -> Option<f64> {
         start = end + 1;
     }
     Some((rank_sum - positives * (positives + 1.0) / 2.0) / (positives * negatives))
-}
-
-/// The disparity measures of one compared group against the reference group.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-pub struct Disparity {
-    /// Statistical parity difference P(ŷ=1|u) − P(ŷ=1|r); ideal 0.
-    pub statistical_parity_difference: Option<f64>,
-    /// Disparate impact P(ŷ=1|u) / P(ŷ=1|r); ideal 1. `None` when the reference rate is 0.
-    pub disparate_impact: Option<f64>,
-    /// Equal opportunity difference TPR_u − TPR_r; ideal 0.
-    pub equal_opportunity_difference: Option<f64>,
-    /// Average odds difference ½[(FPR_u − FPR_r) + (TPR_u − TPR_r)]; ideal 0.
-    pub average_odds_difference: Option<f64>,
-}
-
-/// Disparities of `compared` against `reference`, from predictions.
-pub fn disparity(compared: &GroupCounts, reference: &GroupCounts) -> Disparity {
-    let su = compared.selection_rate();
-    let sr = reference.selection_rate();
-    let eod = difference(
-        compared.true_positive_rate(),
-        reference.true_positive_rate(),
-    );
-    let fpr_gap = difference(
-        compared.false_positive_rate(),
-        reference.false_positive_rate(),
-    );
-    Disparity {
-        statistical_parity_difference: difference(su, sr),
-        disparate_impact: quotient(su, sr),
-        equal_opportunity_difference: eod,
-        average_odds_difference: match (fpr_gap, eod) {
-            (Some(f), Some(t)) => Some((f + t) / 2.0),
-            _ => None,
-        },
-    }
-}
-
-/// Difference and ratio of the label (favourable) rates: the bias already in the data.
-pub fn label_disparity(
-    compared: &GroupCounts,
-    reference: &GroupCounts,
-) -> (Option<f64>, Option<f64>) {
-    let lu = compared.label_rate();
-    let lr = reference.label_rate();
-    (difference(lu, lr), quotient(lu, lr))
-}
-
-fn difference(a: Option<f64>, b: Option<f64>) -> Option<f64> {
-    Some(a? - b?)
-}
-
-fn quotient(a: Option<f64>, b: Option<f64>) -> Option<f64> {
-    let b = b?;
-    (b > 0.0).then_some(a? / b)
-}
-
-/// Unfairness of a disparate impact ratio on a 0-is-fair scale: 1 − min(DI, 1/DI).
-pub fn impact_unfairness(disparate_impact: f64) -> f64 {
-    if disparate_impact <= 0.0 {
-        1.0
-    } else {
-        1.0 - disparate_impact.min(1.0 / disparate_impact)
-    }
 }
 
 /// The four-fifths rule threshold of 29 CFR 1607.4(D).
@@ -568,15 +504,12 @@ mod tests {
         let predicted = [true, false, true, false, true, true, true, false];
         let groups = [1, 1, 1, 1, 0, 0, 0, 0];
         let counts = group_counts(&labels, &predicted, &groups, 2);
-        let d = disparity(&counts[1], &counts[0]);
-        assert!(close(
-            d.statistical_parity_difference.unwrap(),
-            -0.25,
-            1e-12
-        ));
-        assert!(close(d.disparate_impact.unwrap(), 2.0 / 3.0, 1e-12));
-        assert!(close(d.equal_opportunity_difference.unwrap(), -0.5, 1e-12));
-        assert!(close(d.average_odds_difference.unwrap(), -0.25, 1e-12));
+        use crate::report::FairnessMeasure as M;
+        let d = |m: M| m.value(&counts[1], &counts[0]).unwrap();
+        assert!(close(d(M::Spd), -0.25, 1e-12));
+        assert!(close(d(M::Di), 2.0 / 3.0, 1e-12));
+        assert!(close(d(M::Eod), -0.5, 1e-12));
+        assert!(close(d(M::Aod), -0.25, 1e-12));
         // 5 of 8 right; TPR 3/4 and TNR 2/4 overall.
         assert!(close(accuracy(&labels, &predicted), 0.625, 1e-12));
         assert!(close(

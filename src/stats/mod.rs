@@ -2,4 +2,5 @@
 //! and intervals, and the learning-curve families with their fitting.
 
 pub mod curve;
+pub mod fairness;
 pub mod metrics;
