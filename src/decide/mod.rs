@@ -1,3 +1,4 @@
 //! Decisions from the appraisal: the budgeted selection of options and the frontier of plans.
 
 pub mod plan;
+pub mod select;
