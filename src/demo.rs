@@ -6,7 +6,7 @@ use std::path::Path;
 
 use rand::Rng;
 
-use crate::engine::trial::stream_rng;
+use crate::engine::streams::{stream_rng, Stream};
 use crate::error::{Error, Result};
 
 /// Seed of the committed demo.
@@ -90,7 +90,12 @@ pub fn draw_applicant(rng: &mut impl Rng, disabled_share: f64) -> Applicant {
 }
 
 /// Draws `rows` applicants from random stream `stream` of `seed`.
-pub fn draw_applicants(rows: usize, seed: u64, stream: u64, disabled_share: f64) -> Vec<Applicant> {
+pub fn draw_applicants(
+    rows: usize,
+    seed: u64,
+    stream: Stream,
+    disabled_share: f64,
+) -> Vec<Applicant> {
     let mut rng = stream_rng(seed, stream, 0);
     (0..rows)
         .map(|_| draw_applicant(&mut rng, disabled_share))
@@ -101,7 +106,7 @@ pub fn draw_applicants(rows: usize, seed: u64, stream: u64, disabled_share: f64)
 /// with the rows when the demo is drawn larger.
 fn pilot_masks(rows: usize, seed: u64) -> [Vec<bool>; 3] {
     use rand::seq::index::sample;
-    let mut rng = stream_rng(seed, 101, 0);
+    let mut rng = stream_rng(seed, Stream::DemoPilots, 0);
     let mut mask = |size: usize| {
         let mut m = vec![false; rows];
         for i in sample(&mut rng, rows, size.min(rows)).into_iter() {
@@ -131,9 +136,6 @@ pub fn applications_csv(applicants: &[Applicant], seed: u64) -> String {
     String::from_utf8(out).unwrap_or_default()
 }
 
-/// Random stream of the extra survey columns of a scaled demo.
-const EXTRA_STREAM: u64 = 102;
-
 /// Writes the data file row by row: `rows` applicants, with `extra` invented survey columns
 /// (answers 1 to 5, or a letter for every fifth, some weakly tied to the hidden qualities).
 pub fn write_applications(
@@ -153,7 +155,7 @@ pub fn write_applications(
     header.push_str(",shortlisted\n");
     out.write_all(header.as_bytes())?;
     let yes_no = |b: bool| if b { "yes" } else { "no" };
-    let mut survey = stream_rng(seed, EXTRA_STREAM, 0);
+    let mut survey = stream_rng(seed, Stream::DemoExtraColumns, 0);
     let mut line = String::new();
     for (i, a) in applicants.enumerate().take(rows) {
         let pilot = |on: bool, text: String| if on { text } else { String::new() };
@@ -279,7 +281,7 @@ pub fn write_demo(folder: &Path, size: DemoSize) -> Result<()> {
     std::fs::create_dir_all(folder).map_err(io)?;
     let file = std::fs::File::create(folder.join("applications.csv")).map_err(io)?;
     let mut out = std::io::BufWriter::new(file);
-    let mut rng = stream_rng(DEMO_SEED, 100, 0);
+    let mut rng = stream_rng(DEMO_SEED, Stream::DemoApplicants, 0);
     let applicants = std::iter::repeat_with(|| draw_applicant(&mut rng, DISABLED_SHARE));
     write_applications(
         &mut out,
@@ -329,8 +331,11 @@ mod tests {
 
     #[test]
     fn generator_repeats_and_follows_its_model() {
-        let a = draw_applicants(20_000, 1, 100, DISABLED_SHARE);
-        assert_eq!(a[..50], draw_applicants(50, 1, 100, DISABLED_SHARE)[..]);
+        let a = draw_applicants(20_000, 1, Stream::DemoApplicants, DISABLED_SHARE);
+        assert_eq!(
+            a[..50],
+            draw_applicants(50, 1, Stream::DemoApplicants, DISABLED_SHARE)[..]
+        );
         let share = a.iter().filter(|x| x.disabled).count() as f64 / a.len() as f64;
         assert!((share - DISABLED_SHARE).abs() < 0.015, "{share}");
         let mean_aptitude = a.iter().map(|x| x.aptitude).sum::<f64>() / a.len() as f64;

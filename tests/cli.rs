@@ -835,6 +835,7 @@ fn appraise_ranks_the_demo_options() {
 fn demo_appraisal_against_the_truth_of_its_generating_model() {
     use acquest::data::Dataset;
     use acquest::demo::{complete_csv, draw_applicants, DEMO_ROWS, DEMO_SEED, DISABLED_SHARE};
+    use acquest::engine::streams::Stream;
     use acquest::settings::{Choices, Settings};
     use rand::seq::SliceRandom;
 
@@ -862,18 +863,33 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
     // The truth: the same 3,000 applicants, extra rows and a large test population, all drawn
     // from the generating model.
     let repetitions = 6;
-    let demo = draw_applicants(DEMO_ROWS, DEMO_SEED, 100, DISABLED_SHARE);
+    let demo = draw_applicants(DEMO_ROWS, DEMO_SEED, Stream::DemoApplicants, DISABLED_SHARE);
     let mut everyone = demo.clone();
     let extra_start = everyone.len();
     for k in 0..repetitions {
-        everyone.extend(draw_applicants(3_000, DEMO_SEED, 300 + k, DISABLED_SHARE));
+        everyone.extend(draw_applicants(
+            3_000,
+            DEMO_SEED,
+            Stream::DemoPopulation(300 + k),
+            DISABLED_SHARE,
+        ));
     }
     let declared_start = everyone.len();
     for k in 0..repetitions {
-        everyone.extend(draw_applicants(600, DEMO_SEED, 400 + k, 1.0));
+        everyone.extend(draw_applicants(
+            600,
+            DEMO_SEED,
+            Stream::DemoPopulation(400 + k),
+            1.0,
+        ));
     }
     let test_start = everyone.len();
-    everyone.extend(draw_applicants(30_000, DEMO_SEED, 200, DISABLED_SHARE));
+    everyone.extend(draw_applicants(
+        30_000,
+        DEMO_SEED,
+        Stream::DemoPopulation(200),
+        DISABLED_SHARE,
+    ));
     let path = dir.path().join("complete.csv");
     std::fs::write(&path, complete_csv(&everyone)).unwrap();
     let settings = Settings::from_choices(Choices {
@@ -944,7 +960,11 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
     let training = report.today.training_rows;
     for k in 0..repetitions {
         let mut rows: Vec<usize> = (0..DEMO_ROWS).collect();
-        rows.shuffle(&mut acquest::engine::trial::stream_rng(7, 500, k));
+        rows.shuffle(&mut acquest::engine::streams::stream_rng(
+            7,
+            Stream::Check(500),
+            k,
+        ));
         let train = &rows[..training];
         let (a0, u0) = measure(&base, train);
         for (i, variant) in variants.iter().enumerate() {

@@ -729,7 +729,8 @@ mod tests {
 
     #[test]
     fn the_solver_agrees_with_brute_force_on_random_small_problems() {
-        let mut rng = crate::engine::trial::stream_rng(42, 700, 0);
+        let mut rng =
+            crate::engine::streams::stream_rng(42, crate::engine::streams::Stream::Check(700), 0);
         for case in 0..500 {
             let problem = random_problem(&mut rng);
             let rules = PlanRules {
@@ -752,7 +753,8 @@ mod tests {
 
     #[test]
     fn the_bounded_search_agrees_with_brute_force_under_the_floors() {
-        let mut rng = crate::engine::trial::stream_rng(42, 701, 0);
+        let mut rng =
+            crate::engine::streams::stream_rng(42, crate::engine::streams::Stream::Check(701), 0);
         let (mut binding, mut compared) = (0, 0);
         for case in 0..300 {
             let shape = Shape {

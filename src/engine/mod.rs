@@ -3,4 +3,5 @@
 
 pub mod encode;
 pub mod model;
+pub mod streams;
 pub mod trial;

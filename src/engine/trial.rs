@@ -4,10 +4,9 @@
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rand::seq::SliceRandom;
-use rand::SeedableRng;
-use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
+pub use super::streams::{stream_rng, Stream};
 use crate::data::{Column, Dataset};
 use crate::engine::encode::Encoder;
 use crate::engine::model::ModelFamily;
@@ -28,30 +27,6 @@ pub type ProgressSink<'a> = &'a (dyn Fn(Progress) + Sync);
 
 /// A progress sink that drops every event.
 pub fn no_progress(_: Progress) {}
-
-/// The random stream of one unit of work: derived from the master seed, a stream number (which
-/// kind of work) and the index within it, so that no two units share a stream and none depends
-/// on scheduling.
-pub fn stream_rng(seed: u64, stream: u64, index: u64) -> ChaCha8Rng {
-    let mut state = seed ^ stream.wrapping_mul(0xA076_1D64_78BD_642F);
-    state = splitmix64(&mut state) ^ index.wrapping_mul(0xE703_7ED1_A0B4_28DB);
-    let mut bytes = [0u8; 32];
-    for chunk in bytes.chunks_mut(8) {
-        chunk.copy_from_slice(&splitmix64(&mut state).to_le_bytes());
-    }
-    ChaCha8Rng::from_seed(bytes)
-}
-
-fn splitmix64(state: &mut u64) -> u64 {
-    *state = state.wrapping_add(0x9E37_79B9_7F4A_7C15);
-    let mut z = *state;
-    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-    z ^ (z >> 31)
-}
-
-/// Stream number of the baseline's train/test splits.
-pub const BASELINE_STREAM: u64 = 1;
 
 /// Splits rows into training and test parts within every (group, label) cell, so both parts keep
 /// the data's group and label mix. A cell of one row goes to training; larger cells put at
@@ -194,9 +169,6 @@ fn measure(
     }
 }
 
-/// Stream number of the learning curves' splits and nested orders.
-pub const CURVE_STREAM: u64 = 2;
-
 /// Orders `rows` so that every prefix keeps the (group, label) mix of the whole: each cell is
 /// shuffled, and its k-th row of m is placed at position (k + ½)/m of the way through.
 pub fn nested_order(
@@ -235,7 +207,7 @@ pub struct Schedule<'a> {
     /// Sizes of the subsampled part (all training rows, or group g's).
     pub sizes: &'a [usize],
     /// Random stream of the splits and orders.
-    pub stream: u64,
+    pub stream: Stream,
     /// Name of the stage in progress events.
     pub stage: &'static str,
     /// Cap on the training rows of a repeat (see [`cap_split`]).
@@ -334,7 +306,7 @@ pub fn repeated_trials(
     (0..repeats)
         .into_par_iter()
         .map(|index| {
-            let mut rng = stream_rng(seed, BASELINE_STREAM, index as u64);
+            let mut rng = stream_rng(seed, Stream::BaselineSplits, index as u64);
             let split = stratified_split(
                 &data.labels,
                 &data.groups,
@@ -363,7 +335,7 @@ mod tests {
     fn split_keeps_every_cell_in_both_parts() {
         let labels: Vec<bool> = (0..100).map(|i| i % 4 == 0).collect();
         let groups: Vec<u32> = (0..100).map(|i| u32::from(i % 5 == 0)).collect();
-        let mut rng = stream_rng(7, 1, 0);
+        let mut rng = stream_rng(7, Stream::Check(1), 0);
         let (train, test) = stratified_split(&labels, &groups, 2, 0.3, &mut rng);
         assert_eq!(train.len() + test.len(), 100);
         for g in 0..2u32 {
@@ -383,7 +355,13 @@ mod tests {
         let labels: Vec<bool> = (0..1000).map(|i| i % 4 == 0).collect();
         let groups: Vec<u32> = (0..1000).map(|i| u32::from(i % 10 < 3)).collect();
         let rows: Vec<usize> = (0..1000).collect();
-        let order = nested_order(&rows, &labels, &groups, 2, &mut stream_rng(3, 2, 0));
+        let order = nested_order(
+            &rows,
+            &labels,
+            &groups,
+            2,
+            &mut stream_rng(3, Stream::Check(2), 0),
+        );
         let mut sorted = order.clone();
         sorted.sort_unstable();
         assert_eq!(sorted, rows, "a permutation");
@@ -430,12 +408,22 @@ mod tests {
             dropped_missing_group: 0,
             warnings: Vec::new(),
         };
-        let split =
-            || stratified_split(&data.labels, &data.groups, 2, 0.3, &mut stream_rng(5, 1, 0));
+        let split = || {
+            stratified_split(
+                &data.labels,
+                &data.groups,
+                2,
+                0.3,
+                &mut stream_rng(5, Stream::Check(1), 0),
+            )
+        };
         // Within the cap: unchanged, and nothing drawn from the generator.
-        let mut rng = stream_rng(5, 9, 0);
+        let mut rng = stream_rng(5, Stream::Check(9), 0);
         assert_eq!(cap_split(&data, split(), 7_000, 0.3, &mut rng), split());
-        assert_eq!(rng.gen::<u64>(), stream_rng(5, 9, 0).gen::<u64>());
+        assert_eq!(
+            rng.gen::<u64>(),
+            stream_rng(5, Stream::Check(9), 0).gen::<u64>()
+        );
         // Beyond it: 2,000 training rows and 857 test rows (2,000 × 0.3 / 0.7), subsets of the
         // split's parts with the same (group, label) mix.
         let (train, test) = split();
@@ -452,16 +440,5 @@ mod tests {
         };
         assert!((share(&small_train) - share(&train)).abs() < 0.002);
         assert!((share(&small_test) - share(&test)).abs() < 0.003);
-    }
-
-    #[test]
-    fn streams_differ_by_index_and_repeat_by_seed() {
-        use rand::Rng;
-        let a: u64 = stream_rng(1, 1, 0).gen();
-        let b: u64 = stream_rng(1, 1, 1).gen();
-        let c: u64 = stream_rng(1, 2, 0).gen();
-        assert_ne!(a, b);
-        assert_ne!(a, c);
-        assert_eq!(a, stream_rng(1, 1, 0).gen::<u64>());
     }
 }

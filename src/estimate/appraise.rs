@@ -13,7 +13,8 @@ use crate::data::costs::{self, Acquisition, CostOption};
 use crate::data::{Column, Dataset};
 use crate::engine::encode::Encoder;
 use crate::engine::model;
-use crate::engine::trial::{self, stream_rng, ProgressSink, TrialOutcome};
+use crate::engine::streams::{stream_rng, Stream};
+use crate::engine::trial::{self, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
 use crate::estimate::baseline;
 use crate::estimate::learning::{self, CurvePlan, FittedCurves, Reading};
@@ -74,11 +75,6 @@ impl AppraisalSettings {
 pub const SMALL_PILOT_ROWS: usize = 300;
 /// Permutations of each held feature per trial.
 pub const PERMUTATIONS: usize = 5;
-/// Random streams of the pilot curves and group curves: this plus the option's index.
-const PILOT_STREAM: u64 = 1_000;
-const GROUP_STREAM: u64 = 2_000;
-const PERMUTATION_STREAM: u64 = 3_000;
-const PILOT_BOOTSTRAP_STREAM: u64 = 4;
 
 /// Trial outcomes as `[repeat][size]`.
 type Outcomes = Vec<Vec<TrialOutcome>>;
@@ -323,9 +319,6 @@ pub fn score_readings(
     (p.accuracy_gain, p.unfairness_reduction)
 }
 
-/// Random stream of joint re-scoring trials: this plus a mask of the options involved.
-const JOINT_STREAM: u64 = 5_000;
-
 impl Appraiser {
     /// The checked cost-sheet options.
     pub fn options(&self) -> &[CostOption] {
@@ -396,7 +389,7 @@ impl Appraiser {
                     with_columns.push(c.clone());
                 }
             }
-            let stream = JOINT_STREAM + mask;
+            let stream = Stream::JointRescoring(mask);
             let plan = |cols| CurvePlan {
                 rows: &pilot,
                 columns: cols,
@@ -534,7 +527,7 @@ pub fn appraise_dataset(
         &CurvePlan {
             rows: &all_rows,
             columns: &data.features,
-            stream: trial::CURVE_STREAM,
+            stream: Stream::CurveSplits,
             stage: "learning curves",
             smallest: None,
         },
@@ -620,7 +613,7 @@ pub fn appraise_dataset(
                     &data,
                     settings,
                     g,
-                    GROUP_STREAM + index as u64,
+                    Stream::GroupCurves(index),
                     progress,
                     &mut warnings,
                 )?;
@@ -806,7 +799,7 @@ fn group_curves(
     data: &Dataset,
     settings: &Settings,
     g: usize,
-    stream: u64,
+    stream: Stream,
     progress: ProgressSink,
     warnings: &mut Vec<String>,
 ) -> Result<(FittedCurves, f64, f64)> {
@@ -917,7 +910,7 @@ fn feature_value(
         .ok_or_else(|| Error::Internal(format!("candidate '{column}' vanished")))?;
     let mut with_columns: Vec<Column> = data.features.clone();
     with_columns.push(candidate.clone());
-    let stream = PILOT_STREAM + index as u64;
+    let stream = Stream::PilotCurves(index);
 
     // Is the pilot like the rest? Compare its group × label mix with the other rows.
     let cells = data.group_list.len() * 2;
@@ -1104,7 +1097,7 @@ fn pilot_at_full_size(
     settings: &Settings,
     pilot: &[usize],
     with_columns: &[Column],
-    stream: u64,
+    stream: Stream,
     progress: ProgressSink,
 ) -> Result<(Outcomes, Outcomes)> {
     let trials = &settings.trials;
@@ -1181,7 +1174,7 @@ fn reading_from_outcomes(data: &Dataset, outcomes: &[Vec<TrialOutcome>], seed: u
     };
     let repeats = outcomes.len();
     let all: Vec<usize> = (0..repeats).collect();
-    let mut rng = stream_rng(seed, PILOT_BOOTSTRAP_STREAM, 0);
+    let mut rng = stream_rng(seed, Stream::PilotBootstrap, 0);
     use rand::Rng;
     let draws = (0..learning::BOOTSTRAP_DRAWS)
         .map(|_| {
@@ -1280,7 +1273,7 @@ fn held_features(
     let per_trial: Vec<(Changes, f64)> = (0..trials.repeats)
         .into_par_iter()
         .map(|repeat| -> Result<(Changes, f64)> {
-            let mut rng = stream_rng(trials.seed, trial::BASELINE_STREAM, repeat as u64);
+            let mut rng = stream_rng(trials.seed, Stream::BaselineSplits, repeat as u64);
             let split = trial::stratified_split(
                 &data.labels,
                 &data.groups,
@@ -1315,7 +1308,7 @@ fn held_features(
                     u.zip(base_unfairness).map(|(u, b)| u - b),
                 ]
             };
-            let mut perm_rng = stream_rng(trials.seed, PERMUTATION_STREAM, repeat as u64);
+            let mut perm_rng = stream_rng(trials.seed, Stream::Permutations, repeat as u64);
             let mut changes = Vec::with_capacity(features);
             let mut work = x_test.clone();
             for f in 0..features {
@@ -1496,7 +1489,7 @@ mod tests {
         assert!((base - 0.7166666666666667).abs() < 1e-9, "{base}");
         let expected_permutation = [0.1930833333333333, 0.10307500000000001, 0.01095000000000002];
         let expected_drop = [0.18333333333333335, 0.08333333333333337, 0.0];
-        let mut rng = stream_rng(1, 77, 0);
+        let mut rng = stream_rng(1, Stream::Check(77), 0);
         let mut work = x_test.clone();
         for j in 0..3 {
             let repeats = 2000;

@@ -13,7 +13,8 @@ use rayon::prelude::*;
 use crate::data::costs::{Acquisition, CostOption};
 use crate::data::{Column, Dataset};
 use crate::engine::model;
-use crate::engine::trial::{self, stream_rng, Progress, ProgressSink, TrialOutcome};
+use crate::engine::streams::{stream_rng, Stream};
+use crate::engine::trial::{self, Progress, ProgressSink, TrialOutcome};
 use crate::error::{nearest_hint, Error, Result};
 use crate::estimate::appraise::{self, AppraisalInput, AppraisalSettings, OptionReadings};
 use crate::estimate::baseline;
@@ -21,11 +22,6 @@ use crate::report::*;
 use crate::settings::Settings;
 use crate::stats::fairness;
 use crate::stats::metrics::{self, estimate};
-
-/// Random stream of each round's hold-out and pilots (index: the round).
-const HOLD_STREAM: u64 = 6_000;
-/// Random stream of the realised trials (index: round × 1,000 + repeat).
-const REALISE_STREAM: u64 = 7_000;
 
 /// A realised gain counts as different from zero, and two realised gains as different from
 /// each other, below this p-value (common practice, no source).
@@ -108,7 +104,7 @@ pub fn split_round(
     seed: u64,
     round: usize,
 ) -> RoundSplit {
-    let mut rng = stream_rng(seed, HOLD_STREAM, round as u64);
+    let mut rng = stream_rng(seed, Stream::BacktestHoldOut, round as u64);
     let all: Vec<usize> = (0..data.rows()).collect();
     let (kept, held) = if settings.hold_rows > 0.0 {
         trial::stratified_split_of(
@@ -257,7 +253,11 @@ pub fn realised_split(
     round: usize,
     repeat: usize,
 ) -> RealisedSplit {
-    let mut rng = stream_rng(seed, REALISE_STREAM, (round * 1_000 + repeat) as u64);
+    let mut rng = stream_rng(
+        seed,
+        Stream::BacktestRealised,
+        (round * 1_000 + repeat) as u64,
+    );
     let group_count = data.group_list.len();
     let (train, test) = trial::stratified_split_of(
         &split.kept,

@@ -6,7 +6,8 @@ use rand::Rng;
 
 use crate::data::Dataset;
 use crate::engine::model;
-use crate::engine::trial::{self, stream_rng, ProgressSink, TrialOutcome};
+use crate::engine::streams::{stream_rng, Stream};
+use crate::engine::trial::{self, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
 use crate::estimate::baseline;
 use crate::report::*;
@@ -29,8 +30,6 @@ pub const BOOTSTRAP_DRAWS: usize = 200;
 pub const RELIABLE_MULTIPLE: f64 = 4.0;
 /// Points of the chart grid.
 const GRID_POINTS: usize = 40;
-/// Random stream of the bootstrap draws.
-const BOOTSTRAP_STREAM: u64 = 3;
 
 /// The anchor sizes: from `smallest` up by [`SIZE_RATIO`] to all `training` rows (a geometric
 /// size within 10% of the top is dropped for the top). With fewer than [`MIN_ANCHORS`] that way,
@@ -176,7 +175,7 @@ pub fn run(
     let plan = CurvePlan {
         rows: &all_rows,
         columns: &data.features,
-        stream: trial::CURVE_STREAM,
+        stream: Stream::CurveSplits,
         stage: "learning curves",
         smallest: curve_settings.smallest,
     };
@@ -224,7 +223,7 @@ pub fn run(
 pub struct CurvePlan<'a> {
     pub rows: &'a [usize],
     pub columns: &'a [crate::data::Column],
-    pub stream: u64,
+    pub stream: Stream,
     pub stage: &'static str,
     pub smallest: Option<usize>,
 }
@@ -477,7 +476,7 @@ impl QuantityFit {
 
 /// Bootstrap draws of repeat indices, seeded from the master seed.
 fn bootstrap_draws(seed: u64, repeats: usize) -> Vec<Vec<usize>> {
-    let mut rng = stream_rng(seed, BOOTSTRAP_STREAM, 0);
+    let mut rng = stream_rng(seed, Stream::CurveBootstrap, 0);
     (0..BOOTSTRAP_DRAWS)
         .map(|_| (0..repeats).map(|_| rng.gen_range(0..repeats)).collect())
         .collect()

@@ -493,7 +493,11 @@ mod tests {
         let mut covered = 0;
         let seeds = 200;
         for seed in 0..seeds {
-            let mut rng = crate::engine::trial::stream_rng(seed, 900, 0);
+            let mut rng = crate::engine::streams::stream_rng(
+                seed,
+                crate::engine::streams::Stream::Check(900),
+                0,
+            );
             let repeats = 10;
             let per_repeat: Vec<Vec<Option<f64>>> = (0..repeats)
                 .map(|_| {

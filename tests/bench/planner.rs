@@ -6,7 +6,7 @@
 use std::time::Instant;
 
 use acquest::decide::plan::{frontier, Problem, Shape, FRONTIER_POINTS};
-use acquest::engine::trial::stream_rng;
+use acquest::engine::streams::{stream_rng, Stream};
 use acquest::report::PlanRules;
 
 fn main() {
@@ -23,7 +23,7 @@ fn main() {
     println!("seed  floors                      wall (s)  plan score  items  cut short");
     let mut worst: f64 = 0.0;
     for seed in 1..=3 {
-        let problem = Problem::synthetic(shape, &mut stream_rng(seed, 702, 0));
+        let problem = Problem::synthetic(shape, &mut stream_rng(seed, Stream::Check(702), 0));
         let budget = problem.everything() / 3.0;
         for (name, keep_accuracy, no_adverse_impact) in [
             ("none", false, false),
