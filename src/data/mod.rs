@@ -665,6 +665,38 @@ pub struct Dataset {
 }
 
 impl Dataset {
+    /// A dataset of the given labels, groups (indices into `names`) and features, no file
+    /// behind it: for checks of the estimators and for data built by the program itself.
+    pub fn from_parts(
+        labels: Vec<bool>,
+        groups: Vec<u32>,
+        names: &[&str],
+        reference: usize,
+        features: Vec<Column>,
+    ) -> Dataset {
+        Dataset {
+            rows_read: labels.len(),
+            labels,
+            groups,
+            group_list: names
+                .iter()
+                .map(|n| Group {
+                    name: n.to_string(),
+                    definition: String::new(),
+                })
+                .collect(),
+            reference,
+            reference_rule: String::new(),
+            features,
+            candidates: Vec::new(),
+            favourable: "yes".into(),
+            unfavourable: "no".into(),
+            dropped_missing_label: 0,
+            dropped_missing_group: 0,
+            warnings: Vec::new(),
+        }
+    }
+
     /// Rows used.
     pub fn rows(&self) -> usize {
         self.labels.len()

@@ -384,30 +384,13 @@ mod tests {
         use crate::data::Group;
         use rand::Rng;
         let rows = 10_000;
-        let data = Dataset {
-            labels: (0..rows).map(|i| i % 4 == 0).collect(),
-            groups: (0..rows).map(|i| u32::from(i % 10 < 3)).collect(),
-            group_list: vec![
-                Group {
-                    name: "a".into(),
-                    definition: String::new(),
-                },
-                Group {
-                    name: "b".into(),
-                    definition: String::new(),
-                },
-            ],
-            reference: 0,
-            reference_rule: String::new(),
-            features: Vec::new(),
-            candidates: Vec::new(),
-            favourable: "y".into(),
-            unfavourable: "n".into(),
-            rows_read: rows,
-            dropped_missing_label: 0,
-            dropped_missing_group: 0,
-            warnings: Vec::new(),
-        };
+        let data = Dataset::from_parts(
+            (0..rows).map(|i| i % 4 == 0).collect(),
+            (0..rows).map(|i| u32::from(i % 10 < 3)).collect(),
+            &["a", "b"],
+            0,
+            Vec::new(),
+        );
         let split = || {
             stratified_split(
                 &data.labels,

@@ -17,11 +17,12 @@ use crate::engine::streams::{stream_rng, Stream};
 use crate::engine::trial::{self, ProgressSink, TrialOutcome};
 use crate::error::{Error, Result};
 use crate::estimate::baseline;
-use crate::estimate::learning::{self, CurvePlan, FittedCurves, Reading};
+use crate::estimate::learning::{self, CurvePlan, FittedCurves, Quantities, Reading};
 use crate::report::*;
 use crate::settings::{Choices, Settings};
+use crate::stats::curve;
+use crate::stats::fairness::{self, Rates};
 use crate::stats::metrics::{self, estimate, Estimate, GroupCounts};
-use crate::stats::{curve, fairness};
 
 /// Settings of `acquest appraise`, beyond those of the trials.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -79,23 +80,8 @@ pub const PERMUTATIONS: usize = 5;
 /// Trial outcomes as `[repeat][size]`.
 type Outcomes = Vec<Vec<TrialOutcome>>;
 
-/// A gain computed from the quantity vectors before and after.
-type GainOf<'a> = &'a dyn Fn(&[f64], &[f64]) -> Option<f64>;
-
-/// Quantity vector layout (see [`Reading`]): accuracy, then per group selection, TPR, FPR.
-fn rates_of(v: &[f64], g: usize) -> [f64; 3] {
-    [v[1 + 3 * g], v[2 + 3 * g], v[3 + 3 * g]]
-}
-
-/// Group g's rates in a quantity vector, as the fairness measures read them.
-fn group_rates(v: &[f64], g: usize) -> fairness::Rates {
-    let [selection, true_positive, false_positive] = rates_of(v, g);
-    fairness::Rates {
-        selection,
-        true_positive,
-        false_positive,
-    }
-}
+/// A gain computed from the quantities before and after.
+type GainOf<'a> = &'a dyn Fn(&Quantities, &Quantities) -> Option<f64>;
 
 /// Everything the valuation needs to turn readings into gains.
 struct Scorer<'a> {
@@ -121,11 +107,10 @@ pub fn overlap_spread(trials: &crate::settings::TrialSettings) -> f64 {
 
 impl Scorer<'_> {
     /// Unfairness of the worst compared group, and that group.
-    fn unfairness(&self, v: &[f64]) -> Option<(f64, usize)> {
+    fn unfairness(&self, v: &Quantities) -> Option<(f64, usize)> {
         let r = self.data.reference;
-        fairness::worst_group(self.data.group_list.len(), r, |g| {
-            self.measure
-                .unfairness(&group_rates(v, g), &group_rates(v, r))
+        fairness::worst_group(v.groups.len(), r, |g| {
+            self.measure.unfairness(&v.groups[g], &v.groups[r])
         })
         .map(|(g, u)| (u, g))
     }
@@ -176,9 +161,10 @@ impl Scorer<'_> {
                 .map(|(n, a)| f(n, a).unwrap_or(f64::NAN))
                 .collect()
         };
-        let accuracy = |n: &[f64], a: &[f64]| Some(a[0] - n[0]);
-        let fairness = |n: &[f64], a: &[f64]| Some(self.unfairness(n)?.0 - self.unfairness(a)?.0);
-        let utility = |n: &[f64], a: &[f64]| {
+        let accuracy = |n: &Quantities, a: &Quantities| Some(a.accuracy - n.accuracy);
+        let fairness =
+            |n: &Quantities, a: &Quantities| Some(self.unfairness(n)?.0 - self.unfairness(a)?.0);
+        let utility = |n: &Quantities, a: &Quantities| {
             Some(self.weigh_accuracy * accuracy(n, a)? + self.weigh_fairness * fairness(n, a)?)
         };
         let accuracy_gain = self.change(
@@ -200,20 +186,17 @@ impl Scorer<'_> {
             .iter()
             .enumerate()
             .map(|(g, group)| {
-                let rate = |k: usize| {
-                    let draws = per_draw(&|n: &[f64], a: &[f64]| {
-                        Some(rates_of(a, g)[k] - rates_of(n, g)[k])
+                let rate = |k: fn(&Rates) -> f64| {
+                    let draws = per_draw(&|n: &Quantities, a: &Quantities| {
+                        Some(k(&a.groups[g]) - k(&n.groups[g]))
                     });
-                    self.change(
-                        rates_of(&after.point, g)[k] - rates_of(&now.point, g)[k],
-                        draws,
-                    )
+                    self.change(k(&after.point.groups[g]) - k(&now.point.groups[g]), draws)
                 };
                 GroupChange {
                     group: group.name.clone(),
-                    selection_rate: rate(0),
-                    true_positive_rate: rate(1),
-                    false_positive_rate: rate(2),
+                    selection_rate: rate(|r| r.selection),
+                    true_positive_rate: rate(|r| r.true_positive),
+                    false_positive_rate: rate(|r| r.false_positive),
                 }
             })
             .collect();
@@ -234,30 +217,15 @@ impl Scorer<'_> {
     }
 }
 
-/// Two readings combined quantity by quantity and draw by draw.
-fn zip_readings(a: &Reading, b: &Reading, f: impl Fn(f64, f64) -> f64) -> Reading {
-    let combine =
-        |x: &[f64], y: &[f64]| -> Vec<f64> { x.iter().zip(y).map(|(x, y)| f(*x, *y)).collect() };
-    Reading {
-        point: combine(&a.point, &b.point),
-        draws: a
-            .draws
-            .iter()
-            .zip(&b.draws)
-            .map(|(x, y)| combine(x, y))
-            .collect(),
-    }
-}
-
 /// `full + difference`, clipped to [0, 1]: the full-data curve moved by the pilot's
 /// with-feature difference.
 fn anchored(full: &Reading, difference: &Reading) -> Reading {
-    zip_readings(full, difference, |f, d| (f + d).clamp(0.0, 1.0))
+    full.zip(difference, |f, d| (f + d).clamp(0.0, 1.0))
 }
 
 /// `with − without` of two readings.
 fn difference_of(with: &Reading, without: &Reading) -> Reading {
-    zip_readings(with, without, |a, b| a - b)
+    with.zip(without, |a, b| a - b)
 }
 
 /// Runs `acquest appraise`.
@@ -697,7 +665,7 @@ pub fn appraise_dataset(
         today: Today {
             rows,
             training_rows: main.schedule.training_rows,
-            accuracy: now.point[0],
+            accuracy: now.point.accuracy,
             unfairness: if today_unfairness.is_finite() {
                 today_unfairness
             } else {
@@ -705,7 +673,7 @@ pub fn appraise_dataset(
             },
             worst_group: data.group_list[worst].name.clone(),
             selection_rates: (0..data.group_list.len())
-                .map(|g| rates_of(&now.point, g)[0])
+                .map(|g| now.point.groups[g].selection)
                 .collect(),
         },
         curves: main.fitted.curves.clone(),
@@ -1151,26 +1119,10 @@ fn pilot_at_full_size(
 /// A reading from measured outcomes at one size: the mean over repeats, and bootstrap draws of
 /// it over repeats.
 fn reading_from_outcomes(data: &Dataset, outcomes: &[Vec<TrialOutcome>], seed: u64) -> Reading {
-    let vector = |draw: &[usize]| -> Vec<f64> {
-        let mut v = Vec::with_capacity(1 + 3 * data.group_list.len());
-        let mean = |f: &dyn Fn(&TrialOutcome) -> Option<f64>| {
-            let values: Vec<f64> = draw
-                .iter()
-                .filter_map(|&r| f(outcomes[r].last()?))
-                .collect();
-            if values.is_empty() {
-                f64::NAN
-            } else {
-                values.iter().sum::<f64>() / values.len() as f64
-            }
-        };
-        v.push(mean(&|o| Some(o.accuracy)));
-        for g in 0..data.group_list.len() {
-            v.push(mean(&|o| o.counts[g].selection_rate()));
-            v.push(mean(&|o| o.counts[g].true_positive_rate()));
-            v.push(mean(&|o| o.counts[g].false_positive_rate()));
-        }
-        v
+    let groups = data.group_list.len();
+    let mean = |draw: &[usize]| -> Quantities {
+        let last: Vec<&TrialOutcome> = draw.iter().filter_map(|&r| outcomes[r].last()).collect();
+        Quantities::mean_of(&last, groups)
     };
     let repeats = outcomes.len();
     let all: Vec<usize> = (0..repeats).collect();
@@ -1178,7 +1130,7 @@ fn reading_from_outcomes(data: &Dataset, outcomes: &[Vec<TrialOutcome>], seed: u
     use rand::Rng;
     let draws = (0..learning::BOOTSTRAP_DRAWS)
         .map(|_| {
-            vector(
+            mean(
                 &(0..repeats)
                     .map(|_| rng.gen_range(0..repeats))
                     .collect::<Vec<_>>(),
@@ -1186,7 +1138,7 @@ fn reading_from_outcomes(data: &Dataset, outcomes: &[Vec<TrialOutcome>], seed: u
         })
         .collect();
     Reading {
-        point: vector(&all),
+        point: mean(&all),
         draws,
     }
 }
@@ -1519,6 +1471,102 @@ mod tests {
             let (e, m2) = fit(&kept);
             let dropped = base - accuracy_of(&m2.scores(e.transform(&kept, &test).view()));
             assert!((dropped - expected_drop[j]).abs() < 1e-9, "{j}: {dropped}");
+        }
+    }
+
+    fn quantities(accuracy: f64, groups: &[[f64; 3]]) -> Quantities {
+        Quantities {
+            accuracy,
+            groups: groups
+                .iter()
+                .map(|&[selection, true_positive, false_positive]| Rates {
+                    selection,
+                    true_positive,
+                    false_positive,
+                })
+                .collect(),
+        }
+    }
+
+    fn scorer(data: &Dataset, spread: f64) -> Scorer<'_> {
+        Scorer {
+            data,
+            measure: FairnessMeasure::Eod,
+            weigh_accuracy: 1.0,
+            weigh_fairness: 2.0,
+            confidence: 0.9,
+            spread,
+        }
+    }
+
+    #[test]
+    fn a_purchase_is_scored_from_the_readings_before_and_after() {
+        // Worked by hand. Reference r: TPR 0.8; compared u: TPR 0.6 today, 0.7 after, so the
+        // equal-opportunity unfairness falls from 0.2 to 0.1; accuracy 0.80 -> 0.83. Utility
+        // 1 x 0.03 + 2 x 0.1 = 0.23; at a cost of 460, 0.5 per 1,000.
+        let data = Dataset::from_parts(vec![true, false], vec![0, 1], &["r", "u"], 0, Vec::new());
+        let now = quantities(0.80, &[[0.5, 0.8, 0.2], [0.3, 0.6, 0.1]]);
+        let after = quantities(0.83, &[[0.5, 0.8, 0.2], [0.35, 0.7, 0.1]]);
+        // 20 draws whose accuracy gains are 0.03 + (b - 9.5)/1000.
+        let draws = |q: &Quantities, shift: bool| -> Vec<Quantities> {
+            (0..20)
+                .map(|b| {
+                    let mut d = q.clone();
+                    if shift {
+                        d.accuracy += (b as f64 - 9.5) / 1000.0;
+                    }
+                    d
+                })
+                .collect()
+        };
+        let now = Reading {
+            draws: draws(&now, false),
+            point: now,
+        };
+        let after = Reading {
+            draws: draws(&after, true),
+            point: after,
+        };
+        let close = |a: f64, b: f64| (a - b).abs() < 1e-12;
+        let p = scorer(&data, 1.0).purchase(&now, &after, 100, 460.0, 1000.0, 500.0);
+        assert!(close(p.accuracy_gain.mean, 0.03));
+        assert!(close(p.unfairness_reduction.mean, 0.1));
+        assert!(close(p.utility.mean, 0.23));
+        assert!(close(p.utility_per_1000, 0.5));
+        // Type-7 (linear) quantiles of the 20 gains: 5% at position 0.95, 95% at 18.05.
+        assert!(close(p.accuracy_gain.low.unwrap(), 0.02145));
+        assert!(close(p.accuracy_gain.high.unwrap(), 0.03855));
+        assert_eq!(p.accuracy_gain.p_value, Some(0.0), "no draw at or below 0");
+        assert_eq!(p.unfairness_reduction.p_value, Some(0.0));
+        assert!(close(p.groups[1].selection_rate.mean, 0.05));
+        assert!(close(p.groups[1].true_positive_rate.mean, 0.1));
+        assert!(!p.extrapolated_too_far, "1,000 rows is within 4 x 500");
+        // The spread widens the draws about the point: half-widths double.
+        let wide = scorer(&data, 2.0).purchase(&now, &after, 100, 460.0, 1000.0, 200.0);
+        assert!(close(wide.accuracy_gain.mean, 0.03));
+        assert!(close(wide.accuracy_gain.low.unwrap(), 0.03 - 2.0 * 0.00855));
+        assert!(close(
+            wide.accuracy_gain.high.unwrap(),
+            0.03 + 2.0 * 0.00855
+        ));
+        assert!(wide.extrapolated_too_far, "1,000 rows is beyond 4 x 200");
+    }
+
+    #[test]
+    fn the_anchored_estimate_adds_the_pilot_difference_and_clips_to_rates() {
+        // Worked by hand: 0.95 + 0.1 clips to 1; 0.2 - 0.3 clips to 0; 0.5 + 0.1 = 0.6.
+        let full = quantities(0.95, &[[0.2, 0.5, 0.1]]);
+        let difference = quantities(0.1, &[[-0.3, 0.1, 0.0]]);
+        let reading = |q: Quantities| Reading {
+            draws: vec![q.clone(), q.clone()],
+            point: q,
+        };
+        let a = anchored(&reading(full), &reading(difference));
+        for q in std::iter::once(&a.point).chain(&a.draws) {
+            assert_eq!(q.accuracy, 1.0);
+            assert_eq!(q.groups[0].selection, 0.0);
+            assert!((q.groups[0].true_positive - 0.6).abs() < 1e-12);
+            assert!((q.groups[0].false_positive - 0.1).abs() < 1e-12);
         }
     }
 }

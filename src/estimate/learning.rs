@@ -13,7 +13,7 @@ use crate::estimate::baseline;
 use crate::report::*;
 use crate::settings::{CurveSettings, Settings, SizeRequest};
 use crate::stats::curve::{self, Choice, Fit};
-use crate::stats::fairness;
+use crate::stats::fairness::{self, Rates};
 use crate::stats::metrics::GroupCounts;
 
 /// Fewest rows of one (group, label) cell that the smallest anchor must hold.
@@ -98,6 +98,16 @@ impl Quantity {
         }
     }
 
+    /// Position in [`Quantity::all`].
+    fn index(self) -> usize {
+        match self {
+            Quantity::Accuracy => 0,
+            Quantity::Selection(g) => 1 + 3 * g,
+            Quantity::TruePositive(g) => 2 + 3 * g,
+            Quantity::FalsePositive(g) => 3 + 3 * g,
+        }
+    }
+
     fn group(self) -> Option<usize> {
         match self {
             Quantity::Accuracy => None,
@@ -129,33 +139,99 @@ pub struct FittedCurves {
     fits: Vec<QuantityFit>,
 }
 
-/// Every quantity (accuracy, then per group selection rate, TPR, FPR) read off the fitted
-/// curves at one size: the fit's value and the value under every bootstrap draw (NaN where a
-/// quantity has no curve or a draw could not be fitted). Values are clipped to [0, 1].
+/// Accuracy and each group's rates at one training size (NaN where a quantity has no value).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Quantities {
+    pub accuracy: f64,
+    /// Each group's selection, true positive and false positive rates, in the dataset's order.
+    pub groups: Vec<Rates>,
+}
+
+impl Quantities {
+    /// Builds the quantities of `groups` groups from a value per quantity.
+    fn from_fn(groups: usize, value: impl Fn(Quantity) -> f64) -> Quantities {
+        Quantities {
+            accuracy: value(Quantity::Accuracy),
+            groups: (0..groups)
+                .map(|g| Rates {
+                    selection: value(Quantity::Selection(g)),
+                    true_positive: value(Quantity::TruePositive(g)),
+                    false_positive: value(Quantity::FalsePositive(g)),
+                })
+                .collect(),
+        }
+    }
+
+    /// The means over `repeats` of what trials measured (each quantity over the repeats where
+    /// it is defined; NaN where none defines it).
+    pub fn mean_of(outcomes: &[&TrialOutcome], groups: usize) -> Quantities {
+        Quantities::from_fn(groups, |q| {
+            let values: Vec<f64> = outcomes.iter().filter_map(|o| q.read(o)).collect();
+            if values.is_empty() {
+                f64::NAN
+            } else {
+                values.iter().sum::<f64>() / values.len() as f64
+            }
+        })
+    }
+
+    /// The two combined value by value.
+    pub fn zip(&self, other: &Quantities, f: impl Fn(f64, f64) -> f64) -> Quantities {
+        Quantities {
+            accuracy: f(self.accuracy, other.accuracy),
+            groups: self
+                .groups
+                .iter()
+                .zip(&other.groups)
+                .map(|(a, b)| Rates {
+                    selection: f(a.selection, b.selection),
+                    true_positive: f(a.true_positive, b.true_positive),
+                    false_positive: f(a.false_positive, b.false_positive),
+                })
+                .collect(),
+        }
+    }
+}
+
+/// Every quantity read off fitted curves at one size: the fit's value and the value under
+/// every bootstrap draw (NaN where a quantity has no curve or a draw could not be fitted).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Reading {
-    pub point: Vec<f64>,
-    /// `draws[b][q]`.
-    pub draws: Vec<Vec<f64>>,
+    pub point: Quantities,
+    /// One per bootstrap draw.
+    pub draws: Vec<Quantities>,
+}
+
+impl Reading {
+    /// The two combined quantity by quantity and draw by draw.
+    pub fn zip(&self, other: &Reading, f: impl Fn(f64, f64) -> f64 + Copy) -> Reading {
+        Reading {
+            point: self.point.zip(&other.point, f),
+            draws: self
+                .draws
+                .iter()
+                .zip(&other.draws)
+                .map(|(a, b)| a.zip(b, f))
+                .collect(),
+        }
+    }
+
+    /// Reads fits laid out as [`Quantity::all`] at size n, each value passed through `finish`.
+    fn of_fits(fits: &[QuantityFit], n: f64, finish: impl Fn(f64) -> f64 + Copy) -> Reading {
+        let groups = (fits.len() - 1) / 3;
+        Reading {
+            point: Quantities::from_fn(groups, |q| finish(fits[q.index()].value(n))),
+            draws: (0..BOOTSTRAP_DRAWS)
+                .map(|b| Quantities::from_fn(groups, |q| finish(fits[q.index()].draw_value(b, n))))
+                .collect(),
+        }
+    }
 }
 
 impl FittedCurves {
-    /// Reads every quantity at size `n`.
+    /// Reads every quantity at size `n`, clipped to [0, 1].
     pub fn read(&self, n: f64) -> Reading {
-        let point = self
-            .fits
-            .iter()
-            .map(|f| f.value(n).clamp(0.0, 1.0))
-            .collect();
-        let draws = (0..BOOTSTRAP_DRAWS)
-            .map(|b| {
-                self.fits
-                    .iter()
-                    .map(|f| f.draw_value(b, n).clamp(0.0, 1.0))
-                    .collect()
-            })
-            .collect();
-        Reading { point, draws }
+        Reading::of_fits(&self.fits, n, |v| v.clamp(0.0, 1.0))
     }
 
     /// The largest measured size.
@@ -598,14 +674,9 @@ impl DifferenceCurves {
         DifferenceCurves { fits, families }
     }
 
-    /// Every quantity's difference at size n, laid out as a [`Reading`] (not clipped).
+    /// Every quantity's difference at size n (not clipped).
     pub fn read(&self, n: f64) -> Reading {
-        Reading {
-            point: self.fits.iter().map(|f| f.value(n)).collect(),
-            draws: (0..BOOTSTRAP_DRAWS)
-                .map(|b| self.fits.iter().map(|f| f.draw_value(b, n)).collect())
-                .collect(),
-        }
+        Reading::of_fits(&self.fits, n, |v| v)
     }
 }
 
@@ -735,7 +806,15 @@ pub fn fit_curves(
     }
 
     // Disparities from the fitted rates of each compared group and the reference.
-    let rate_index = |g: usize, k: usize| 1 + 3 * g + k;
+    // A group's three rates, as (selection, true positive, false positive) positions of `fits`.
+    let rate_index = |g: usize, k: usize| {
+        [
+            Quantity::Selection(g),
+            Quantity::TruePositive(g),
+            Quantity::FalsePositive(g),
+        ][k]
+            .index()
+    };
     let reference = data.reference;
     let mut disparities = Vec::new();
     for g in (0..group_count).filter(|&g| g != reference) {
