@@ -381,7 +381,6 @@ mod tests {
 
     #[test]
     fn a_split_is_cut_to_the_cap_keeping_its_mix() {
-        use crate::data::Group;
         use rand::Rng;
         let rows = 10_000;
         let data = Dataset::from_parts(
