@@ -934,9 +934,20 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
         .position(|g| g.name == "none")
         .unwrap();
     let test: Vec<usize> = (test_start..everyone.len()).collect();
-    let family = acquest::engine::model::family(acquest::settings::ModelKind::Logistic);
     let measure = |data: &Dataset, train: &[usize]| {
-        let o = acquest::engine::trial::run_trial(data, family.as_ref(), train, &test).unwrap();
+        use acquest::engine::trial::{self, Arm, GivenSplit, Rows, TrialDesign};
+        let splits = [GivenSplit {
+            test: test.clone(),
+            train: vec![train.to_vec()],
+        }];
+        let design = TrialDesign {
+            stage: "truth",
+            rows: Rows::Given(&splits),
+            arms: vec![Arm::of(&data.features)],
+        };
+        let o = trial::run(data, &settings.trials, &design, &trial::no_progress).unwrap()[0][0]
+            .sizes[0]
+            .clone();
         let eod = (o.counts[declared].true_positive_rate().unwrap()
             - o.counts[none].true_positive_rate().unwrap())
         .abs();

@@ -3,5 +3,6 @@
 
 pub mod encode;
 pub mod model;
+pub mod split;
 pub mod streams;
 pub mod trial;

@@ -1,16 +1,23 @@
-//! Seeded, stratified trials run in parallel: split, encode on the training part, fit, score the
-//! held-out part. Results come back in trial order whatever the thread count.
+//! The one trial engine. Every estimate asks for its fits through one value, a
+//! [`TrialDesign`]: which rows each repeat draws (or is given), which training sizes, which
+//! feature sets (arms, fitted on the same rows so that they pair), and what to probe. [`run`]
+//! executes it, repeats in parallel, and returns the outcomes in index order whatever the
+//! thread count; it is the only place a model is fitted.
 
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rand::seq::SliceRandom;
 use rayon::prelude::*;
 
+pub use super::split::{
+    cap_split, draw_split, nested_order, stratified_split, stratified_split_of, Split,
+};
 pub use super::streams::{stream_rng, Stream};
 use crate::data::{Column, Dataset};
-use crate::engine::encode::Encoder;
-use crate::engine::model::ModelFamily;
+use crate::engine::encode::{self, Encoder};
+use crate::engine::model::{self, FittedModel, ModelFamily};
 use crate::error::Result;
+use crate::settings::TrialSettings;
 use crate::stats::metrics::{self, GroupCounts};
 
 /// Progress of a long stage, sent to whoever shows it.
@@ -28,83 +35,7 @@ pub type ProgressSink<'a> = &'a (dyn Fn(Progress) + Sync);
 /// A progress sink that drops every event.
 pub fn no_progress(_: Progress) {}
 
-/// Splits rows into training and test parts within every (group, label) cell, so both parts keep
-/// the data's group and label mix. A cell of one row goes to training; larger cells put at
-/// least one row in each part. Both parts come back sorted.
-pub fn stratified_split(
-    labels: &[bool],
-    groups: &[u32],
-    group_count: usize,
-    test_fraction: f64,
-    rng: &mut impl rand::Rng,
-) -> (Vec<usize>, Vec<usize>) {
-    let all: Vec<usize> = (0..labels.len()).collect();
-    stratified_split_of(&all, labels, groups, group_count, test_fraction, rng)
-}
-
-/// [`stratified_split`] of the listed rows only (a pilot, say).
-pub fn stratified_split_of(
-    rows: &[usize],
-    labels: &[bool],
-    groups: &[u32],
-    group_count: usize,
-    test_fraction: f64,
-    rng: &mut impl rand::Rng,
-) -> (Vec<usize>, Vec<usize>) {
-    let mut cells: Vec<Vec<usize>> = vec![Vec::new(); group_count * 2];
-    for &i in rows {
-        cells[groups[i] as usize * 2 + usize::from(labels[i])].push(i);
-    }
-    let mut train = Vec::with_capacity(rows.len());
-    let mut test = Vec::with_capacity(rows.len());
-    for mut cell in cells {
-        cell.shuffle(rng);
-        let size = cell.len();
-        let take = if size < 2 {
-            0
-        } else {
-            ((size as f64 * test_fraction).round() as usize).clamp(1, size - 1)
-        };
-        test.extend_from_slice(&cell[..take]);
-        train.extend_from_slice(&cell[take..]);
-    }
-    train.sort_unstable();
-    test.sort_unstable();
-    (train, test)
-}
-
-/// Cuts a split down to at most `cap` training rows and the test rows in proportion
-/// (`cap × test_fraction / (1 − test_fraction)`), each a stratified subsample (a prefix of a
-/// nested order, so it keeps the group and label mix). A split within the cap comes back as it
-/// is and draws nothing from `rng`, so data below the cap give the same trials as without one.
-pub fn cap_split(
-    data: &Dataset,
-    (train, test): (Vec<usize>, Vec<usize>),
-    cap: usize,
-    test_fraction: f64,
-    rng: &mut impl rand::Rng,
-) -> (Vec<usize>, Vec<usize>) {
-    if train.len() <= cap {
-        return (train, test);
-    }
-    let group_count = data.group_list.len();
-    let mut cut = |rows: &[usize], keep: usize| -> Vec<usize> {
-        let mut order = nested_order(rows, &data.labels, &data.groups, group_count, &mut *rng);
-        order.truncate(keep);
-        order.sort_unstable();
-        order
-    };
-    let test_cap = ((cap as f64 * test_fraction / (1.0 - test_fraction)).round() as usize).max(1);
-    let train = cut(&train, cap);
-    let test = if test.len() > test_cap {
-        cut(&test, test_cap)
-    } else {
-        test
-    };
-    (train, test)
-}
-
-/// What one trial measured on its held-out rows.
+/// What one fitted model measured on its held-out rows.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TrialOutcome {
     pub accuracy: f64,
@@ -116,32 +47,360 @@ pub struct TrialOutcome {
     pub test_rows: usize,
 }
 
-/// Fits on `train` and measures on `test`.
-pub fn run_trial(
-    data: &Dataset,
-    family: &dyn ModelFamily,
-    train: &[usize],
-    test: &[usize],
-) -> Result<TrialOutcome> {
-    run_trial_on(data, &data.features, family, train, test)
+/// The trials an estimate needs.
+pub struct TrialDesign<'a> {
+    /// Name of the stage in progress events.
+    pub stage: &'static str,
+    /// How each repeat's rows are found.
+    pub rows: Rows<'a>,
+    /// The feature sets fitted in every repeat, on the same rows.
+    pub arms: Vec<Arm<'a>>,
 }
 
-/// [`run_trial`] on the given feature columns (indexed by row, like the dataset's).
-pub fn run_trial_on(
+/// How each repeat's training and test rows are found.
+pub enum Rows<'a> {
+    /// Repeat r draws its split of `rows` from stream `stream` at index r ([`draw_split`]);
+    /// there are as many repeats as the trial settings say.
+    Drawn {
+        rows: &'a [usize],
+        stream: Stream,
+        sizes: Sizes<'a>,
+    },
+    /// Splits given per repeat, each with every arm's own training rows (purchases made for
+    /// real); one fit per arm on the whole of its rows.
+    Given(&'a [GivenSplit]),
+}
+
+/// Which training sizes a drawn split is fitted at.
+pub enum Sizes<'a> {
+    /// One fit on the whole training part (rows in order).
+    Whole,
+    /// A learning curve: the training part in a nested order ([`nested_order`]), one encoding
+    /// fitted on all of it, and a model per size fitted on the first rows (warm-started from
+    /// the size before), all measured on the repeat's test part. With `vary_group`, only that
+    /// group's training rows are ordered and counted by the sizes; every other training row is
+    /// always used.
+    Nested {
+        sizes: &'a [usize],
+        vary_group: Option<u32>,
+    },
+}
+
+/// A split given from outside: the test rows, and each arm's training rows.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GivenSplit {
+    pub test: Vec<usize>,
+    pub train: Vec<Vec<usize>>,
+}
+
+/// One feature set of a design.
+pub struct Arm<'a> {
+    /// Feature columns, indexed by row like the dataset's.
+    pub columns: &'a [Column],
+    /// For a whole-part fit: what each feature does, by ablation and permutation.
+    pub probe: Option<HeldProbe>,
+}
+
+impl<'a> Arm<'a> {
+    /// An arm that fits `columns` and nothing more.
+    pub fn of(columns: &'a [Column]) -> Arm<'a> {
+        Arm {
+            columns,
+            probe: None,
+        }
+    }
+}
+
+/// Probes of every feature of an arm's whole-part fit: the model refitted without the feature
+/// (dropping its encoded columns from the same encoding), and the fitted model scored with the
+/// feature's columns permuted across the test rows `permutations` times (from `stream`, index:
+/// the repeat).
+#[derive(Debug, Clone, Copy)]
+pub struct HeldProbe {
+    pub permutations: usize,
+    pub stream: Stream,
+}
+
+/// What one arm measured in one repeat.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ArmOutcome {
+    /// One per training size (one for a whole-part fit).
+    pub sizes: Vec<TrialOutcome>,
+    /// With a probe, one per feature.
+    pub held: Vec<HeldOutcome>,
+}
+
+/// One feature's probes in one repeat.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HeldOutcome {
+    /// The model refitted without the feature (`None` when it is the only feature).
+    pub ablation: Option<TrialOutcome>,
+    /// The full model scored with the feature permuted, once per permutation.
+    pub permutations: Vec<TrialOutcome>,
+}
+
+impl TrialDesign<'_> {
+    fn repeats(&self, trials: &TrialSettings) -> usize {
+        match &self.rows {
+            Rows::Drawn { .. } => trials.repeats,
+            Rows::Given(splits) => splits.len(),
+        }
+    }
+
+    /// Models fitted (and probes scored) per repeat, for progress.
+    fn fits_per_repeat(&self) -> usize {
+        let sizes = match &self.rows {
+            Rows::Drawn {
+                sizes: Sizes::Nested { sizes, .. },
+                ..
+            } => sizes.len(),
+            _ => 1,
+        };
+        self.arms.len() * sizes
+    }
+}
+
+/// Runs a design: every repeat in parallel, returned as `[repeat][arm]` in index order.
+pub fn run(
     data: &Dataset,
-    columns: &[Column],
+    trials: &TrialSettings,
+    design: &TrialDesign,
+    progress: ProgressSink,
+) -> Result<Vec<Vec<ArmOutcome>>> {
+    let family = model::family(trials.model);
+    let family = family.as_ref();
+    let repeats = design.repeats(trials);
+    let total = repeats * design.fits_per_repeat();
+    let done = AtomicUsize::new(0);
+    let stage = design.stage;
+    progress(Progress {
+        stage,
+        done: 0,
+        total,
+    });
+    let tick = || {
+        progress(Progress {
+            stage,
+            done: done.fetch_add(1, Ordering::Relaxed) + 1,
+            total,
+        })
+    };
+    (0..repeats)
+        .into_par_iter()
+        .map(|repeat| -> Result<Vec<ArmOutcome>> {
+            match &design.rows {
+                Rows::Drawn {
+                    rows,
+                    stream,
+                    sizes,
+                } => {
+                    let mut rng = stream_rng(trials.seed, *stream, repeat as u64);
+                    let split = draw_split(data, rows, trials, &mut rng);
+                    match sizes {
+                        Sizes::Whole => design
+                            .arms
+                            .iter()
+                            .map(|arm| {
+                                let outcome = whole(
+                                    data,
+                                    family,
+                                    arm,
+                                    &split.train,
+                                    &split.test,
+                                    trials.seed,
+                                    repeat,
+                                );
+                                tick();
+                                outcome
+                            })
+                            .collect(),
+                        Sizes::Nested { sizes, vary_group } => {
+                            let (order, fixed_rows) =
+                                training_order(data, split.train, *vary_group, &mut rng);
+                            design
+                                .arms
+                                .iter()
+                                .map(|arm| {
+                                    nested(
+                                        data,
+                                        family,
+                                        arm.columns,
+                                        &order,
+                                        fixed_rows,
+                                        sizes,
+                                        &split.test,
+                                        &tick,
+                                    )
+                                })
+                                .collect()
+                        }
+                    }
+                }
+                Rows::Given(splits) => {
+                    let split = &splits[repeat];
+                    design
+                        .arms
+                        .iter()
+                        .zip(&split.train)
+                        .map(|(arm, train)| {
+                            let outcome =
+                                whole(data, family, arm, train, &split.test, trials.seed, repeat);
+                            tick();
+                            outcome
+                        })
+                        .collect()
+                }
+            }
+        })
+        .collect()
+}
+
+/// The training part in the order a learning curve grows it: every row outside `vary_group`
+/// first (always used), then the varied rows in a nested order. Returns the order and how many
+/// rows are always used.
+fn training_order(
+    data: &Dataset,
+    train: Vec<usize>,
+    vary_group: Option<u32>,
+    rng: &mut impl rand::Rng,
+) -> (Vec<usize>, usize) {
+    let (fixed, varied): (Vec<usize>, Vec<usize>) = match vary_group {
+        None => (Vec::new(), train),
+        Some(g) => train.into_iter().partition(|&i| data.groups[i] != g),
+    };
+    let mut order = fixed;
+    let fixed_rows = order.len();
+    order.extend(nested_order(
+        &varied,
+        &data.labels,
+        &data.groups,
+        data.group_list.len(),
+        rng,
+    ));
+    (order, fixed_rows)
+}
+
+/// One arm's learning curve in one repeat (see [`Sizes::Nested`]).
+#[allow(clippy::too_many_arguments)]
+fn nested(
+    data: &Dataset,
     family: &dyn ModelFamily,
+    columns: &[Column],
+    order: &[usize],
+    fixed_rows: usize,
+    sizes: &[usize],
+    test: &[usize],
+    tick: &(dyn Fn() + Sync),
+) -> Result<ArmOutcome> {
+    let encoder = Encoder::fit(columns, order);
+    let x_pool = encoder.transform(columns, order);
+    let y_pool: Vec<bool> = order.iter().map(|&i| data.labels[i]).collect();
+    let x_test = encoder.transform(columns, test);
+    let mut start: Option<Vec<f64>> = None;
+    let mut outcomes = Vec::with_capacity(sizes.len());
+    for &size in sizes {
+        let rows = (fixed_rows + size).min(order.len());
+        let x = x_pool.slice(ndarray::s![..rows, ..]);
+        let model = family.fit_from(x, &y_pool[..rows], start.as_deref())?;
+        start = model.warm_start();
+        let scores = model.scores(x_test.view());
+        outcomes.push(measure(data, family, test, &scores, rows));
+        tick();
+    }
+    Ok(ArmOutcome {
+        sizes: outcomes,
+        held: Vec::new(),
+    })
+}
+
+/// One arm fitted on the whole of `train` and measured on `test`, with its probes.
+fn whole(
+    data: &Dataset,
+    family: &dyn ModelFamily,
+    arm: &Arm,
     train: &[usize],
     test: &[usize],
-) -> Result<TrialOutcome> {
+    seed: u64,
+    repeat: usize,
+) -> Result<ArmOutcome> {
+    let columns = arm.columns;
     let encoder = Encoder::fit(columns, train);
     let x_train = encoder.transform(columns, train);
     let y_train: Vec<bool> = train.iter().map(|&i| data.labels[i]).collect();
     let model = family.fit(x_train.view(), &y_train)?;
-    drop(x_train);
     let x_test = encoder.transform(columns, test);
     let scores = model.scores(x_test.view());
-    Ok(measure(data, family, test, &scores, train.len()))
+    let outcome = measure(data, family, test, &scores, train.len());
+    let Some(probe) = arm.probe else {
+        return Ok(ArmOutcome {
+            sizes: vec![outcome],
+            held: Vec::new(),
+        });
+    };
+    let features = columns.len();
+    let mut rng = stream_rng(seed, probe.stream, repeat as u64);
+    let mut work = x_test.clone();
+    let mut held = Vec::with_capacity(features);
+    for f in 0..features {
+        let span = encoder.span(f);
+        let ablation = if features > 1 {
+            // The encoding of the other features is the full one without f's columns.
+            let x = encode::without_span(&x_train, &span);
+            let refit = family.fit(x.view(), &y_train)?;
+            drop(x);
+            let x = encode::without_span(&x_test, &span);
+            Some(measure(
+                data,
+                family,
+                test,
+                &refit.scores(x.view()),
+                train.len(),
+            ))
+        } else {
+            None
+        };
+        let permutations = (0..probe.permutations)
+            .map(|_| {
+                let scores =
+                    permuted_scores(model.as_ref(), &x_test, &mut work, span.clone(), &mut rng);
+                measure(data, family, test, &scores, train.len())
+            })
+            .collect();
+        held.push(HeldOutcome {
+            ablation,
+            permutations,
+        });
+    }
+    Ok(ArmOutcome {
+        sizes: vec![outcome],
+        held,
+    })
+}
+
+/// Scores of the test rows with the encoded columns `span` (one input feature) permuted
+/// together across rows, the rest left as they are.
+pub fn permuted_scores(
+    model: &dyn FittedModel,
+    x_test: &ndarray::Array2<f64>,
+    work: &mut ndarray::Array2<f64>,
+    span: std::ops::Range<usize>,
+    rng: &mut impl rand::Rng,
+) -> Vec<f64> {
+    // `work` holds a copy of `x_test`; only the permuted columns are written, and they are put
+    // back afterwards, so no trial copies the whole matrix per permutation.
+    let mut order: Vec<usize> = (0..x_test.nrows()).collect();
+    order.shuffle(rng);
+    for j in span.clone() {
+        let column = x_test.column(j);
+        for (row, &from) in order.iter().enumerate() {
+            work[(row, j)] = column[from];
+        }
+    }
+    let scores = model.scores(work.view());
+    for j in span {
+        work.column_mut(j).assign(&x_test.column(j));
+    }
+    scores
 }
 
 /// Scores on the test rows turned into the trial's measurements (favourable when score ≥ 0.5).
@@ -169,258 +428,93 @@ fn measure(
     }
 }
 
-/// Orders `rows` so that every prefix keeps the (group, label) mix of the whole: each cell is
-/// shuffled, and its k-th row of m is placed at position (k + ½)/m of the way through.
-pub fn nested_order(
-    rows: &[usize],
-    labels: &[bool],
-    groups: &[u32],
-    group_count: usize,
-    rng: &mut impl rand::Rng,
-) -> Vec<usize> {
-    let mut cells: Vec<Vec<usize>> = vec![Vec::new(); group_count * 2];
-    for &i in rows {
-        cells[groups[i] as usize * 2 + usize::from(labels[i])].push(i);
-    }
-    let mut keyed: Vec<(f64, usize, usize)> = Vec::with_capacity(rows.len());
-    for (c, mut cell) in cells.into_iter().enumerate() {
-        cell.shuffle(rng);
-        let m = cell.len() as f64;
-        for (k, i) in cell.into_iter().enumerate() {
-            keyed.push(((k as f64 + 0.5) / m, c, i));
-        }
-    }
-    keyed.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-    keyed.into_iter().map(|(_, _, i)| i).collect()
-}
-
-/// What a set of nested trials varies.
-#[derive(Debug, Clone)]
-pub struct Schedule<'a> {
-    /// Rows taking part: all rows, or a pilot.
-    pub rows: &'a [usize],
-    /// Feature columns (indexed by row, like the dataset's).
-    pub columns: &'a [Column],
-    /// `None`: the whole training part is subsampled. `Some(g)`: only group g's training rows
-    /// are, while every other training row is always used.
-    pub vary_group: Option<u32>,
-    /// Sizes of the subsampled part (all training rows, or group g's).
-    pub sizes: &'a [usize],
-    /// Random stream of the splits and orders.
-    pub stream: Stream,
-    /// Name of the stage in progress events.
-    pub stage: &'static str,
-    /// Cap on the training rows of a repeat (see [`cap_split`]).
-    pub max_train: usize,
-}
-
-/// Learning-curve trials: for each repeat, one stratified split of the schedule's rows, one
-/// nested order of the varied part of its training rows, one encoding fitted on the whole
-/// training part, then a model per size fitted on the fixed rows plus the first `size` rows of
-/// the order (warm-started from the size before) and measured on the repeat's fixed test part.
-/// Two schedules that differ only in their columns get the same splits and orders (paired).
-/// Returns outcomes as `[repeat][size]`.
-pub fn nested_trials(
-    data: &Dataset,
-    family: &dyn ModelFamily,
-    schedule: &Schedule,
-    repeats: usize,
-    test_fraction: f64,
-    seed: u64,
-    progress: ProgressSink,
-) -> Result<Vec<Vec<TrialOutcome>>> {
-    let sizes = schedule.sizes;
-    let total = repeats * sizes.len();
-    let done = AtomicUsize::new(0);
-    let stage = schedule.stage;
-    progress(Progress {
-        stage,
-        done: 0,
-        total,
-    });
-    (0..repeats)
-        .into_par_iter()
-        .map(|repeat| {
-            let mut rng = stream_rng(seed, schedule.stream, repeat as u64);
-            let group_count = data.group_list.len();
-            let split = stratified_split_of(
-                schedule.rows,
-                &data.labels,
-                &data.groups,
-                group_count,
-                test_fraction,
-                &mut rng,
-            );
-            let (train, test) = cap_split(data, split, schedule.max_train, test_fraction, &mut rng);
-            let (fixed, varied): (Vec<usize>, Vec<usize>) = match schedule.vary_group {
-                None => (Vec::new(), train),
-                Some(g) => train.into_iter().partition(|&i| data.groups[i] != g),
-            };
-            let mut order = fixed;
-            let fixed_rows = order.len();
-            order.extend(nested_order(
-                &varied,
-                &data.labels,
-                &data.groups,
-                group_count,
-                &mut rng,
-            ));
-            let encoder = Encoder::fit(schedule.columns, &order);
-            let x_pool = encoder.transform(schedule.columns, &order);
-            let y_pool: Vec<bool> = order.iter().map(|&i| data.labels[i]).collect();
-            let x_test = encoder.transform(schedule.columns, &test);
-            let mut start: Option<Vec<f64>> = None;
-            let mut outcomes = Vec::with_capacity(sizes.len());
-            for &size in sizes {
-                let rows = (fixed_rows + size).min(order.len());
-                let x = x_pool.slice(ndarray::s![..rows, ..]);
-                let model = family.fit_from(x, &y_pool[..rows], start.as_deref())?;
-                start = model.warm_start();
-                let scores = model.scores(x_test.view());
-                outcomes.push(measure(data, family, &test, &scores, rows));
-                progress(Progress {
-                    stage,
-                    done: done.fetch_add(1, Ordering::Relaxed) + 1,
-                    total,
-                });
-            }
-            Ok(outcomes)
-        })
-        .collect()
-}
-
-/// Runs `repeats` stratified train/test trials on all rows, in parallel, in trial order.
-pub fn repeated_trials(
-    data: &Dataset,
-    family: &dyn ModelFamily,
-    trials: &crate::settings::TrialSettings,
-    progress: ProgressSink,
-) -> Result<Vec<TrialOutcome>> {
-    let (repeats, test_fraction, seed) = (trials.repeats, trials.test_fraction, trials.seed);
-    let done = AtomicUsize::new(0);
-    progress(Progress {
-        stage: "baseline trials",
-        done: 0,
-        total: repeats,
-    });
-    (0..repeats)
-        .into_par_iter()
-        .map(|index| {
-            let mut rng = stream_rng(seed, Stream::BaselineSplits, index as u64);
-            let split = stratified_split(
-                &data.labels,
-                &data.groups,
-                data.group_list.len(),
-                test_fraction,
-                &mut rng,
-            );
-            let (train, test) =
-                cap_split(data, split, trials.max_train_rows, test_fraction, &mut rng);
-            let outcome = run_trial(data, family, &train, &test);
-            progress(Progress {
-                stage: "baseline trials",
-                done: done.fetch_add(1, Ordering::Relaxed) + 1,
-                total: repeats,
-            });
-            outcome
-        })
-        .collect()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
 
     #[test]
-    fn split_keeps_every_cell_in_both_parts() {
-        let labels: Vec<bool> = (0..100).map(|i| i % 4 == 0).collect();
-        let groups: Vec<u32> = (0..100).map(|i| u32::from(i % 5 == 0)).collect();
-        let mut rng = stream_rng(7, Stream::Check(1), 0);
-        let (train, test) = stratified_split(&labels, &groups, 2, 0.3, &mut rng);
-        assert_eq!(train.len() + test.len(), 100);
-        for g in 0..2u32 {
-            for l in [false, true] {
-                let cell = |part: &[usize]| {
-                    part.iter()
-                        .filter(|&&i| groups[i] == g && labels[i] == l)
-                        .count()
-                };
-                assert!(cell(&test) >= 1 && cell(&train) >= 1, "cell ({g}, {l})");
-            }
-        }
-    }
-
-    #[test]
-    fn nested_prefixes_keep_the_mix() {
-        let labels: Vec<bool> = (0..1000).map(|i| i % 4 == 0).collect();
-        let groups: Vec<u32> = (0..1000).map(|i| u32::from(i % 10 < 3)).collect();
-        let rows: Vec<usize> = (0..1000).collect();
-        let order = nested_order(
-            &rows,
-            &labels,
-            &groups,
-            2,
-            &mut stream_rng(3, Stream::Check(2), 0),
-        );
-        let mut sorted = order.clone();
-        sorted.sort_unstable();
-        assert_eq!(sorted, rows, "a permutation");
-        for prefix in [100, 250, 500] {
-            let share = order[..prefix]
-                .iter()
-                .filter(|&&i| groups[i] == 1 && labels[i])
-                .count();
-            let expected =
-                (0..1000).filter(|&i| groups[i] == 1 && labels[i]).count() * prefix / 1000;
-            assert!(
-                share.abs_diff(expected) <= 1,
-                "{prefix}: {share} vs {expected}"
-            );
-        }
-    }
-
-    #[test]
-    fn a_split_is_cut_to_the_cap_keeping_its_mix() {
-        use rand::Rng;
-        let rows = 10_000;
-        let data = Dataset::from_parts(
-            (0..rows).map(|i| i % 4 == 0).collect(),
-            (0..rows).map(|i| u32::from(i % 10 < 3)).collect(),
-            &["a", "b"],
-            0,
-            Vec::new(),
-        );
-        let split = || {
-            stratified_split(
-                &data.labels,
-                &data.groups,
-                2,
-                0.3,
-                &mut stream_rng(5, Stream::Check(1), 0),
-            )
+    fn permutation_and_drop_column_importance_match_scikit_learn() {
+        // scikit-learn 1.9.1 (tests/reference/reference.py, data in tests/reference/importance.csv):
+        // LogisticRegression(C=1) on standardised columns, trained on rows 0..180, scored on
+        // 180..240: accuracy 0.7166666666666667; permutation_importance means (2,000 repeats)
+        // [0.19308, 0.10308, 0.01095]; drop-column importances [0.18333, 0.08333, 0.0].
+        let text = std::fs::read_to_string(concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/reference/importance.csv"
+        ))
+        .unwrap();
+        let rows: Vec<Vec<f64>> = text
+            .lines()
+            .skip(1)
+            .map(|l| l.split(',').map(|v| v.parse().unwrap()).collect())
+            .collect();
+        let columns: Vec<Column> = (0..3)
+            .map(|j| Column {
+                name: ["a", "b", "c"][j].into(),
+                values: crate::data::Values::Numeric(rows.iter().map(|r| Some(r[j])).collect())
+                    .into(),
+            })
+            .collect();
+        let labels: Vec<bool> = rows.iter().map(|r| r[3] == 1.0).collect();
+        let train: Vec<usize> = (0..180).collect();
+        let test: Vec<usize> = (180..240).collect();
+        let family = model::Logistic {
+            alpha: 1.0,
+            max_iterations: 1000,
+            gradient_tolerance: 1e-10,
         };
-        // Within the cap: unchanged, and nothing drawn from the generator.
-        let mut rng = stream_rng(5, Stream::Check(9), 0);
-        assert_eq!(cap_split(&data, split(), 7_000, 0.3, &mut rng), split());
-        assert_eq!(
-            rng.gen::<u64>(),
-            stream_rng(5, Stream::Check(9), 0).gen::<u64>()
-        );
-        // Beyond it: 2,000 training rows and 857 test rows (2,000 × 0.3 / 0.7), subsets of the
-        // split's parts with the same (group, label) mix.
-        let (train, test) = split();
-        let (small_train, small_test) = cap_split(&data, split(), 2_000, 0.3, &mut rng);
-        assert_eq!(small_train.len(), 2_000);
-        assert_eq!(small_test.len(), 857);
-        assert!(small_train.iter().all(|i| train.binary_search(i).is_ok()));
-        assert!(small_test.iter().all(|i| test.binary_search(i).is_ok()));
-        let share = |part: &[usize]| {
-            part.iter()
-                .filter(|&&i| data.groups[i] == 1 && data.labels[i])
+        use model::ModelFamily;
+        let accuracy_of = |scores: &[f64]| {
+            test.iter()
+                .zip(scores)
+                .filter(|(&i, &s)| (s >= 0.5) == labels[i])
                 .count() as f64
-                / part.len() as f64
+                / test.len() as f64
         };
-        assert!((share(&small_train) - share(&train)).abs() < 0.002);
-        assert!((share(&small_test) - share(&test)).abs() < 0.003);
+        let fit = |cols: &[Column]| {
+            let encoder = Encoder::fit(cols, &train);
+            let y: Vec<bool> = train.iter().map(|&i| labels[i]).collect();
+            let m = family
+                .fit(encoder.transform(cols, &train).view(), &y)
+                .unwrap();
+            (encoder, m)
+        };
+        let (encoder, m) = fit(&columns);
+        let x_test = encoder.transform(&columns, &test);
+        let base = accuracy_of(&m.scores(x_test.view()));
+        assert!((base - 0.7166666666666667).abs() < 1e-9, "{base}");
+        let expected_permutation = [0.1930833333333333, 0.10307500000000001, 0.01095000000000002];
+        let expected_drop = [0.18333333333333335, 0.08333333333333337, 0.0];
+        let mut rng = stream_rng(1, Stream::Check(77), 0);
+        let mut work = x_test.clone();
+        for j in 0..3 {
+            let repeats = 2000;
+            let mean_drop = (0..repeats)
+                .map(|_| {
+                    base - accuracy_of(&permuted_scores(
+                        m.as_ref(),
+                        &x_test,
+                        &mut work,
+                        encoder.span(j),
+                        &mut rng,
+                    ))
+                })
+                .sum::<f64>()
+                / repeats as f64;
+            // Different random permutations: the means agree within 0.01 (2,000 repeats each).
+            assert!(
+                (mean_drop - expected_permutation[j]).abs() < 0.01,
+                "{j}: {mean_drop}"
+            );
+            let kept: Vec<Column> = columns
+                .iter()
+                .enumerate()
+                .filter(|&(k, _)| k != j)
+                .map(|(_, c)| c.clone())
+                .collect();
+            let (e, m2) = fit(&kept);
+            let dropped = base - accuracy_of(&m2.scores(e.transform(&kept, &test).view()));
+            assert!((dropped - expected_drop[j]).abs() < 1e-9, "{j}: {dropped}");
+        }
     }
 }

@@ -5,16 +5,14 @@
 
 use std::path::PathBuf;
 
-use rand::seq::SliceRandom;
-use rayon::prelude::*;
 use serde::Serialize;
 
 use crate::data::costs::{self, Acquisition, CostOption};
 use crate::data::{Column, Dataset};
-use crate::engine::encode::Encoder;
-use crate::engine::model;
 use crate::engine::streams::{stream_rng, Stream};
-use crate::engine::trial::{self, ProgressSink, TrialOutcome};
+use crate::engine::trial::{
+    self, Arm, HeldProbe, ProgressSink, Rows, Sizes, TrialDesign, TrialOutcome,
+};
 use crate::error::{Error, Result};
 use crate::estimate::baseline;
 use crate::estimate::learning::{self, CurvePlan, FittedCurves, Quantities, Reading};
@@ -22,7 +20,7 @@ use crate::report::*;
 use crate::settings::{Choices, Settings};
 use crate::stats::curve;
 use crate::stats::fairness::{self, Rates};
-use crate::stats::metrics::{self, estimate, Estimate, GroupCounts};
+use crate::stats::metrics::{self, estimate, Estimate};
 
 /// Settings of `acquest appraise`, beyond those of the trials.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -357,53 +355,22 @@ impl Appraiser {
                     with_columns.push(c.clone());
                 }
             }
-            let stream = Stream::JointRescoring(mask);
-            let plan = |cols| CurvePlan {
-                rows: &pilot,
-                columns: cols,
-                stream,
-                stage: "joint re-scoring",
-                smallest: None,
-            };
-            let trials = &self.settings.trials;
-            let without = learning::measure_curves(
+            let measured = measure_pilot(
                 data,
                 &self.settings,
-                &plan(&data.features),
-                &|_| Vec::new(),
+                &pilot,
+                &with_columns,
+                Stream::JointRescoring(mask),
+                "joint re-scoring",
                 progress,
-            );
-            let with = learning::measure_curves(
-                data,
-                &self.settings,
-                &plan(&with_columns),
-                &|_| Vec::new(),
-                progress,
-            );
-            match (without, with) {
-                (Ok(without), Ok(with)) => {
-                    let difference = learning::DifferenceCurves::fit(
-                        &with.outcomes,
-                        &without.outcomes,
-                        &with.schedule.sizes,
-                        data.group_list.len(),
-                        trials.seed,
-                    );
+            )?;
+            match &measured {
+                PilotMeasurement::Curves { difference, .. } => {
                     (anchored(&full, &difference.read(at)), format!("{} measured together on the {} rows where their pilots overlap, extrapolated to {at:.0} training rows", columns.join(" + "), pilot.len()))
                 }
-                _ => {
-                    let (without, with) = pilot_at_full_size(
-                        data,
-                        &self.settings,
-                        &pilot,
-                        &with_columns,
-                        stream,
-                        progress,
-                    )?;
-                    let difference = difference_of(
-                        &reading_from_outcomes(data, &with, trials.seed),
-                        &reading_from_outcomes(data, &without, trials.seed),
-                    );
+                PilotMeasurement::AtPilotSize { .. } => {
+                    let difference =
+                        measured.difference_at_pilot_size(data, self.settings.trials.seed);
                     (anchored(&full, &difference), format!("{} measured together on the {} rows where their pilots overlap (too few for a curve: the difference there is carried over)", columns.join(" + "), pilot.len()))
                 }
             }
@@ -494,7 +461,7 @@ pub fn appraise_dataset(
         settings,
         &CurvePlan {
             rows: &all_rows,
-            columns: &data.features,
+            arms: vec![&data.features],
             stream: Stream::CurveSplits,
             stage: "learning curves",
             smallest: None,
@@ -509,7 +476,8 @@ pub fn appraise_dataset(
             vec![training as f64 * (rows + most) as f64 / rows as f64]
         },
         progress,
-    )?;
+    )?
+    .swap_remove(0);
     warnings.extend(main.warnings.iter().cloned());
     warnings.extend(main.fitted.warnings.iter().cloned());
     let training_now = main.schedule.training_rows as f64;
@@ -775,14 +743,11 @@ fn group_curves(
     let all_rows: Vec<usize> = (0..data.rows()).collect();
     // Repeat 0's split, cut to the cap as the trials cut it: the group's rows there give the
     // sizes; its rows before the cut are today's count, read by extrapolation when capped.
-    let mut rng = stream_rng(trials.seed, stream, 0);
-    let split = trial::stratified_split_of(
+    let split = trial::draw_split(
+        data,
         &all_rows,
-        &data.labels,
-        &data.groups,
-        data.group_list.len(),
-        trials.test_fraction,
-        &mut rng,
+        trials,
+        &mut stream_rng(trials.seed, stream, 0),
     );
     let in_group_of = |rows: &[usize]| -> Vec<usize> {
         rows.iter()
@@ -790,15 +755,8 @@ fn group_curves(
             .filter(|&i| data.groups[i] as usize == g)
             .collect()
     };
-    let m_today = in_group_of(&split.0).len();
-    let (train, _) = trial::cap_split(
-        data,
-        split,
-        trials.max_train_rows,
-        trials.test_fraction,
-        &mut rng,
-    );
-    let in_group = in_group_of(&train);
+    let m_today = in_group_of(&split.drawn_train).len();
+    let in_group = in_group_of(&split.train);
     let m_all = in_group.len();
     let favourable = in_group.iter().filter(|&&i| data.labels[i]).count();
     let rarest = favourable.min(m_all - favourable).max(1);
@@ -821,25 +779,19 @@ fn group_curves(
             })?
         }
     };
-    let family = model::family(trials.model);
-    let schedule = trial::Schedule {
-        rows: &all_rows,
-        columns: &data.features,
-        vary_group: Some(g as u32),
-        sizes: &sizes,
-        stream,
+    let design = TrialDesign {
         stage: "group curves",
-        max_train: trials.max_train_rows,
+        rows: Rows::Drawn {
+            rows: &all_rows,
+            stream,
+            sizes: Sizes::Nested {
+                sizes: &sizes,
+                vary_group: Some(g as u32),
+            },
+        },
+        arms: vec![Arm::of(&data.features)],
     };
-    let outcomes = trial::nested_trials(
-        data,
-        family.as_ref(),
-        &schedule,
-        trials.repeats,
-        trials.test_fraction,
-        trials.seed,
-        progress,
-    )?;
+    let outcomes = learning::by_arm(trial::run(data, trials, &design, progress)?, 1).swap_remove(0);
     let fitted = learning::fit_curves(
         data,
         &outcomes,
@@ -893,27 +845,15 @@ fn feature_value(
     }
     let mix = metrics::chi_square_independence(&table);
 
-    let plan = |columns| CurvePlan {
-        rows: &pilot,
-        columns,
+    let measured = measure_pilot(
+        data,
+        settings,
+        &pilot,
+        &with_columns,
         stream,
-        stage: "pilot curves",
-        smallest: None,
-    };
-    let without = learning::measure_curves(
-        data,
-        settings,
-        &plan(&data.features),
-        &|_| Vec::new(),
+        "pilot curves",
         progress,
-    );
-    let with = learning::measure_curves(
-        data,
-        settings,
-        &plan(&with_columns),
-        &|_| Vec::new(),
-        progress,
-    );
+    )?;
     let training_now = training_at(0);
     let mut flags = Vec::new();
     // The pilot's with-minus-without difference as a function of training size, how far it
@@ -926,24 +866,15 @@ fn feature_value(
         PilotSummary,
         Reading,
         Option<Reading>,
-    ) = match (without, with) {
-        (Ok(without), Ok(with)) => {
-            let difference = learning::DifferenceCurves::fit(
-                &with.outcomes,
-                &without.outcomes,
-                &with.schedule.sizes,
-                data.group_list.len(),
-                trials.seed,
-            );
+    ) = match measured {
+        PilotMeasurement::Curves {
+            ref without,
+            ref with,
+            ..
+        } => {
             let reach = with.fitted.largest() as f64;
             let direct_reading = with.fitted.read(training_now);
-            let last_anchor = anchored(
-                now,
-                &difference_of(
-                    &reading_from_outcomes(data, &with.outcomes, trials.seed),
-                    &reading_from_outcomes(data, &without.outcomes, trials.seed),
-                ),
-            );
+            let last_anchor = anchored(now, &measured.difference_at_pilot_size(data, trials.seed));
             let direct = scorer.purchase(
                 now,
                 &direct_reading,
@@ -962,6 +893,9 @@ fn feature_value(
                 true,
                 trials.confidence,
             );
+            let PilotMeasurement::Curves { difference, .. } = measured else {
+                unreachable!("matched as curves above")
+            };
             (
                 Box::new(move |at| difference.read(at)),
                 reach,
@@ -971,32 +905,23 @@ fn feature_value(
                 Some(direct_reading),
             )
         }
-        (without, with) => {
-            // Too small for a curve: measure at the pilot's own size and carry the
-            // difference over unchanged.
-            let reason = without
-                .err()
-                .or(with.err())
-                .map(|e| e.to_string())
-                .unwrap_or_default();
+        PilotMeasurement::AtPilotSize { ref reason, .. } => {
+            // Too small for a curve: measured at the pilot's own size, the difference
+            // carried over unchanged.
             warnings.push(format!(
                     "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
                     option.name,
                     pilot.len()
                 ));
             flags.push("pilot too small for a curve: gain measured at pilot size".into());
-            let (without_outcomes, with_outcomes) =
-                pilot_at_full_size(data, settings, &pilot, &with_columns, stream, progress)?;
-            let difference = difference_of(
-                &reading_from_outcomes(data, &with_outcomes, trials.seed),
-                &reading_from_outcomes(data, &without_outcomes, trials.seed),
-            );
+            let difference = measured.difference_at_pilot_size(data, trials.seed);
+            let (without_outcomes, with_outcomes) = measured.outcomes();
             let summary = pilot_summary(
                 data,
                 scorer,
                 &pilot,
-                &without_outcomes,
-                &with_outcomes,
+                without_outcomes,
+                with_outcomes,
                 mix,
                 false,
                 trials.confidence,
@@ -1059,61 +984,111 @@ fn feature_value(
     Ok((value, readings))
 }
 
-/// Trials on the pilot at its full size only, without and with the candidate (paired).
-fn pilot_at_full_size(
+/// A candidate feature measured on its pilot, without and with it on the same splits and
+/// orders (paired): as learning curves where the pilot is large enough for one, else at the
+/// pilot's own size only.
+enum PilotMeasurement {
+    Curves {
+        without: Box<learning::MeasuredCurves>,
+        with: Box<learning::MeasuredCurves>,
+        /// The paired with-minus-without difference, fitted as curves.
+        difference: learning::DifferenceCurves,
+    },
+    AtPilotSize {
+        /// Why there are no curves.
+        reason: String,
+        without: Outcomes,
+        with: Outcomes,
+    },
+}
+
+impl PilotMeasurement {
+    /// The trials without and with the candidate, `[repeat][size]`.
+    fn outcomes(&self) -> (&Outcomes, &Outcomes) {
+        match self {
+            PilotMeasurement::Curves { without, with, .. } => (&without.outcomes, &with.outcomes),
+            PilotMeasurement::AtPilotSize { without, with, .. } => (without, with),
+        }
+    }
+
+    /// The with-minus-without difference measured at the pilot's full size (the last anchor).
+    fn difference_at_pilot_size(&self, data: &Dataset, seed: u64) -> Reading {
+        let (without, with) = self.outcomes();
+        difference_of(
+            &reading_from_outcomes(data, with, seed),
+            &reading_from_outcomes(data, without, seed),
+        )
+    }
+}
+
+/// Measures `with_columns` against today's features on the `pilot` rows (stream `stream`).
+fn measure_pilot(
     data: &Dataset,
     settings: &Settings,
     pilot: &[usize],
     with_columns: &[Column],
     stream: Stream,
+    stage: &'static str,
     progress: ProgressSink,
-) -> Result<(Outcomes, Outcomes)> {
+) -> Result<PilotMeasurement> {
     let trials = &settings.trials;
-    let mut rng = stream_rng(trials.seed, stream, 0);
-    let split = trial::stratified_split_of(
-        pilot,
-        &data.labels,
-        &data.groups,
-        data.group_list.len(),
-        trials.test_fraction,
-        &mut rng,
-    );
-    let (train, _) = trial::cap_split(
-        data,
-        split,
-        trials.max_train_rows,
-        trials.test_fraction,
-        &mut rng,
-    );
-    if train.len() < 10 {
-        return Err(Error::NotEnoughData(format!(
-            "a pilot of {} rows is too small to train on",
-            pilot.len()
-        )));
-    }
-    let sizes = [train.len()];
-    let family = model::family(trials.model);
-    let run = |columns: &[Column]| {
-        let schedule = trial::Schedule {
-            rows: pilot,
-            columns,
-            vary_group: None,
-            sizes: &sizes,
-            stream,
-            stage: "pilot trials",
-            max_train: trials.max_train_rows,
-        };
-        trial::nested_trials(
-            data,
-            family.as_ref(),
-            &schedule,
-            trials.repeats,
-            trials.test_fraction,
-            trials.seed,
-            progress,
-        )
+    let plan = CurvePlan {
+        rows: pilot,
+        arms: vec![&data.features, with_columns],
+        stream,
+        stage,
+        smallest: None,
     };
-    Ok((run(&data.features)?, run(with_columns)?))
+    match learning::measure_curves(data, settings, &plan, &|_| Vec::new(), progress) {
+        Ok(mut measured) => {
+            let with = measured.swap_remove(1);
+            let without = measured.swap_remove(0);
+            let difference = learning::DifferenceCurves::fit(
+                &with.outcomes,
+                &without.outcomes,
+                &with.schedule.sizes,
+                data.group_list.len(),
+                trials.seed,
+            );
+            Ok(PilotMeasurement::Curves {
+                without: Box::new(without),
+                with: Box::new(with),
+                difference,
+            })
+        }
+        Err(error) => {
+            // Too small for a curve: the trials at the pilot's full size only.
+            let split =
+                trial::draw_split(data, pilot, trials, &mut stream_rng(trials.seed, stream, 0));
+            if split.train.len() < 10 {
+                return Err(Error::NotEnoughData(format!(
+                    "a pilot of {} rows is too small to train on",
+                    pilot.len()
+                )));
+            }
+            let sizes = [split.train.len()];
+            let design = TrialDesign {
+                stage: "pilot trials",
+                rows: Rows::Drawn {
+                    rows: pilot,
+                    stream,
+                    sizes: Sizes::Nested {
+                        sizes: &sizes,
+                        vary_group: None,
+                    },
+                },
+                arms: vec![Arm::of(&data.features), Arm::of(with_columns)],
+            };
+            let mut outcomes = learning::by_arm(trial::run(data, trials, &design, progress)?, 2);
+            let with = outcomes.swap_remove(1);
+            let without = outcomes.swap_remove(0);
+            Ok(PilotMeasurement::AtPilotSize {
+                reason: error.to_string(),
+                without,
+                with,
+            })
+        }
+    }
 }
 
 /// A reading from measured outcomes at one size: the mean over repeats, and bootstrap draws of
@@ -1209,107 +1184,73 @@ fn held_features(
     progress: ProgressSink,
 ) -> Result<Vec<HeldFeature>> {
     let trials = &settings.trials;
-    let family = model::family(trials.model);
-    let features = data.features.len();
-    let unfairness =
-        |counts: &[GroupCounts]| fairness::worst_of_counts(measure, counts, data.reference);
-    let done = std::sync::atomic::AtomicUsize::new(0);
-    let total = trials.repeats;
-    progress(trial::Progress {
+    let all: Vec<usize> = (0..data.rows()).collect();
+    let design = TrialDesign {
         stage: "held features",
-        done: 0,
-        total,
-    });
-    // Per trial: for each feature, (ablation Δaccuracy, Δunfairness, permutation Δaccuracy, Δunfairness).
+        rows: Rows::Drawn {
+            rows: &all,
+            stream: Stream::BaselineSplits,
+            sizes: Sizes::Whole,
+        },
+        arms: vec![Arm {
+            columns: &data.features,
+            probe: Some(HeldProbe {
+                permutations: PERMUTATIONS,
+                stream: Stream::Permutations,
+            }),
+        }],
+    };
+    let outcomes = trial::run(data, trials, &design, progress)?;
+    let unfairness =
+        |o: &TrialOutcome| fairness::worst_of_counts(measure, &o.counts, data.reference);
+    // Per trial: for each feature, (ablation Δaccuracy, Δunfairness, permutation Δaccuracy,
+    // Δunfairness) against the full model.
     type Changes = Vec<[Option<f64>; 4]>;
-    let per_trial: Vec<(Changes, f64)> = (0..trials.repeats)
-        .into_par_iter()
-        .map(|repeat| -> Result<(Changes, f64)> {
-            let mut rng = stream_rng(trials.seed, Stream::BaselineSplits, repeat as u64);
-            let split = trial::stratified_split(
-                &data.labels,
-                &data.groups,
-                data.group_list.len(),
-                trials.test_fraction,
-                &mut rng,
-            );
-            let (train, test) = trial::cap_split(
-                data,
-                split,
-                trials.max_train_rows,
-                trials.test_fraction,
-                &mut rng,
-            );
-            let labels: Vec<bool> = test.iter().map(|&i| data.labels[i]).collect();
-            let groups: Vec<u32> = test.iter().map(|&i| data.groups[i]).collect();
-            let y_train: Vec<bool> = train.iter().map(|&i| data.labels[i]).collect();
-            let score = |scores: &[f64]| -> (f64, Option<f64>) {
-                let predicted: Vec<bool> = scores.iter().map(|&s| s >= 0.5).collect();
-                let counts =
-                    metrics::group_counts(&labels, &predicted, &groups, data.group_list.len());
-                (metrics::accuracy(&labels, &predicted), unfairness(&counts))
-            };
-            let encoder = Encoder::fit(&data.features, &train);
-            let x_train = encoder.transform(&data.features, &train);
-            let x_test = encoder.transform(&data.features, &test);
-            let model = family.fit(x_train.view(), &y_train)?;
-            let (base_accuracy, base_unfairness) = score(&model.scores(x_test.view()));
-            let diff = |a: f64, u: Option<f64>| {
+    let mut test_to_train = 0.0;
+    let per_trial: Vec<Changes> = outcomes
+        .iter()
+        .enumerate()
+        .map(|(repeat, arms)| {
+            let arm = &arms[0];
+            let base = &arm.sizes[0];
+            if repeat == 0 {
+                test_to_train = base.test_rows as f64 / base.train_rows as f64;
+            }
+            let (base_accuracy, base_unfairness) = (base.accuracy, unfairness(base));
+            let diff = |o: &TrialOutcome| {
                 [
-                    Some(a - base_accuracy),
-                    u.zip(base_unfairness).map(|(u, b)| u - b),
+                    Some(o.accuracy - base_accuracy),
+                    unfairness(o).zip(base_unfairness).map(|(u, b)| u - b),
                 ]
             };
-            let mut perm_rng = stream_rng(trials.seed, Stream::Permutations, repeat as u64);
-            let mut changes = Vec::with_capacity(features);
-            let mut work = x_test.clone();
-            for f in 0..features {
-                let mut ablation = [None, None];
-                let span = encoder.span(f);
-                if features > 1 {
-                    // The encoding of the other features is the full one without f's columns.
-                    let x = crate::engine::encode::without_span(&x_train, &span);
-                    let model = family.fit(x.view(), &y_train)?;
-                    drop(x);
-                    let x = crate::engine::encode::without_span(&x_test, &span);
-                    let (a, u) = score(&model.scores(x.view()));
-                    ablation = diff(a, u);
-                }
-                let (mut sum_a, mut sum_u, mut count_u) = (0.0, 0.0, 0usize);
-                for _ in 0..PERMUTATIONS {
-                    let (a, u) = score(&permuted_scores(
-                        model.as_ref(),
-                        &x_test,
-                        &mut work,
-                        span.clone(),
-                        &mut perm_rng,
-                    ));
-                    let [da, du] = diff(a, u);
-                    sum_a += da.unwrap_or(0.0);
-                    if let Some(du) = du {
-                        sum_u += du;
-                        count_u += 1;
+            arm.held
+                .iter()
+                .map(|held| {
+                    let ablation = held.ablation.as_ref().map_or([None, None], diff);
+                    let (mut sum_a, mut sum_u, mut count_u) = (0.0, 0.0, 0usize);
+                    for permuted in &held.permutations {
+                        let [da, du] = diff(permuted);
+                        sum_a += da.unwrap_or(0.0);
+                        if let Some(du) = du {
+                            sum_u += du;
+                            count_u += 1;
+                        }
                     }
-                }
-                let permutation = [
-                    Some(sum_a / PERMUTATIONS as f64),
-                    (count_u > 0).then(|| sum_u / count_u as f64),
-                ];
-                changes.push([ablation[0], ablation[1], permutation[0], permutation[1]]);
-            }
-            progress(trial::Progress {
-                stage: "held features",
-                done: done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1,
-                total,
-            });
-            Ok((changes, test.len() as f64 / train.len() as f64))
+                    let permutations = held.permutations.len() as f64;
+                    [
+                        ablation[0],
+                        ablation[1],
+                        Some(sum_a / permutations),
+                        (count_u > 0).then(|| sum_u / count_u as f64),
+                    ]
+                })
+                .collect()
         })
-        .collect::<Result<_>>()?;
-    let test_to_train = per_trial.first().map_or(0.0, |t| t.1);
-    Ok((0..features)
+        .collect();
+    Ok((0..data.features.len())
         .map(|f| {
             let pick = |k: usize| -> Option<Estimate> {
-                let values: Vec<f64> = per_trial.iter().filter_map(|(c, _)| c[f][k]).collect();
+                let values: Vec<f64> = per_trial.iter().filter_map(|c| c[f][k]).collect();
                 estimate(&values, trials.confidence, test_to_train, Some(0.0))
             };
             HeldFeature {
@@ -1321,32 +1262,6 @@ fn held_features(
             }
         })
         .collect())
-}
-
-/// Scores of the test rows with the encoded columns `span` (one input feature) permuted
-/// together across rows, the rest left as they are.
-pub fn permuted_scores(
-    model: &dyn model::FittedModel,
-    x_test: &ndarray::Array2<f64>,
-    work: &mut ndarray::Array2<f64>,
-    span: std::ops::Range<usize>,
-    rng: &mut impl rand::Rng,
-) -> Vec<f64> {
-    // `work` holds a copy of `x_test`; only the permuted columns are written, and they are put
-    // back afterwards, so no trial copies the whole matrix per permutation.
-    let mut order: Vec<usize> = (0..x_test.nrows()).collect();
-    order.shuffle(rng);
-    for j in span.clone() {
-        let column = x_test.column(j);
-        for (row, &from) in order.iter().enumerate() {
-            work[(row, j)] = column[from];
-        }
-    }
-    let scores = model.scores(work.view());
-    for j in span {
-        work.column_mut(j).assign(&x_test.column(j));
-    }
-    scores
 }
 
 /// Ranks by utility per 1,000 and by its cautious lower end (highest first; ties by name).
@@ -1387,92 +1302,6 @@ fn rank(values: &[OptionValue]) -> Vec<Ranked> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn permutation_and_drop_column_importance_match_scikit_learn() {
-        // scikit-learn 1.9.1 (tests/reference/reference.py, data in tests/reference/importance.csv):
-        // LogisticRegression(C=1) on standardised columns, trained on rows 0..180, scored on
-        // 180..240: accuracy 0.7166666666666667; permutation_importance means (2,000 repeats)
-        // [0.19308, 0.10308, 0.01095]; drop-column importances [0.18333, 0.08333, 0.0].
-        let text = std::fs::read_to_string(concat!(
-            env!("CARGO_MANIFEST_DIR"),
-            "/tests/reference/importance.csv"
-        ))
-        .unwrap();
-        let rows: Vec<Vec<f64>> = text
-            .lines()
-            .skip(1)
-            .map(|l| l.split(',').map(|v| v.parse().unwrap()).collect())
-            .collect();
-        let columns: Vec<Column> = (0..3)
-            .map(|j| Column {
-                name: ["a", "b", "c"][j].into(),
-                values: crate::data::Values::Numeric(rows.iter().map(|r| Some(r[j])).collect())
-                    .into(),
-            })
-            .collect();
-        let labels: Vec<bool> = rows.iter().map(|r| r[3] == 1.0).collect();
-        let train: Vec<usize> = (0..180).collect();
-        let test: Vec<usize> = (180..240).collect();
-        let family = model::Logistic {
-            alpha: 1.0,
-            max_iterations: 1000,
-            gradient_tolerance: 1e-10,
-        };
-        use model::ModelFamily;
-        let accuracy_of = |scores: &[f64]| {
-            test.iter()
-                .zip(scores)
-                .filter(|(&i, &s)| (s >= 0.5) == labels[i])
-                .count() as f64
-                / test.len() as f64
-        };
-        let fit = |cols: &[Column]| {
-            let encoder = Encoder::fit(cols, &train);
-            let y: Vec<bool> = train.iter().map(|&i| labels[i]).collect();
-            let m = family
-                .fit(encoder.transform(cols, &train).view(), &y)
-                .unwrap();
-            (encoder, m)
-        };
-        let (encoder, m) = fit(&columns);
-        let x_test = encoder.transform(&columns, &test);
-        let base = accuracy_of(&m.scores(x_test.view()));
-        assert!((base - 0.7166666666666667).abs() < 1e-9, "{base}");
-        let expected_permutation = [0.1930833333333333, 0.10307500000000001, 0.01095000000000002];
-        let expected_drop = [0.18333333333333335, 0.08333333333333337, 0.0];
-        let mut rng = stream_rng(1, Stream::Check(77), 0);
-        let mut work = x_test.clone();
-        for j in 0..3 {
-            let repeats = 2000;
-            let mean_drop = (0..repeats)
-                .map(|_| {
-                    base - accuracy_of(&permuted_scores(
-                        m.as_ref(),
-                        &x_test,
-                        &mut work,
-                        encoder.span(j),
-                        &mut rng,
-                    ))
-                })
-                .sum::<f64>()
-                / repeats as f64;
-            // Different random permutations: the means agree within 0.01 (2,000 repeats each).
-            assert!(
-                (mean_drop - expected_permutation[j]).abs() < 0.01,
-                "{j}: {mean_drop}"
-            );
-            let kept: Vec<Column> = columns
-                .iter()
-                .enumerate()
-                .filter(|&(k, _)| k != j)
-                .map(|(_, c)| c.clone())
-                .collect();
-            let (e, m2) = fit(&kept);
-            let dropped = base - accuracy_of(&m2.scores(e.transform(&kept, &test).view()));
-            assert!((dropped - expected_drop[j]).abs() < 1e-9, "{j}: {dropped}");
-        }
-    }
 
     fn quantities(accuracy: f64, groups: &[[f64; 3]]) -> Quantities {
         Quantities {

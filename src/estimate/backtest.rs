@@ -8,13 +8,11 @@
 use std::path::PathBuf;
 
 use rand::seq::SliceRandom;
-use rayon::prelude::*;
 
 use crate::data::costs::{Acquisition, CostOption};
 use crate::data::{Column, Dataset};
-use crate::engine::model;
 use crate::engine::streams::{stream_rng, Stream};
-use crate::engine::trial::{self, Progress, ProgressSink, TrialOutcome};
+use crate::engine::trial::{self, Arm, GivenSplit, ProgressSink, Rows, TrialDesign, TrialOutcome};
 use crate::error::{nearest_hint, Error, Result};
 use crate::estimate::appraise::{self, AppraisalInput, AppraisalSettings, OptionReadings};
 use crate::estimate::baseline;
@@ -523,30 +521,25 @@ fn realise(
     progress: ProgressSink,
 ) -> Result<Vec<Vec<TrialOutcome>>> {
     let trials = &settings.trials;
-    let family = model::family(trials.model);
     let today: Vec<Column> = data
         .features
         .iter()
         .filter(|c| !backtest.hold_features.contains(&c.name))
         .cloned()
         .collect();
-    let total = trials.repeats * (options.len() + 1);
-    let done = std::sync::atomic::AtomicUsize::new(0);
-    let stage = "realised trials";
-    progress(Progress {
-        stage,
-        done: 0,
-        total,
-    });
-    let tick = || {
-        progress(Progress {
-            stage,
-            done: done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1,
-            total,
+    // Each option's columns: today's, with a feature option's column filled on every row.
+    let columns: Vec<Vec<Column>> = options
+        .iter()
+        .map(|option| match &option.acquisition {
+            Acquisition::Feature { column } => {
+                let mut with = today.clone();
+                with.extend(data.features.iter().find(|c| &c.name == column).cloned());
+                with
+            }
+            Acquisition::Rows { .. } => today.clone(),
         })
-    };
-    (0..trials.repeats)
-        .into_par_iter()
+        .collect();
+    let splits: Vec<GivenSplit> = (0..trials.repeats)
         .map(|repeat| {
             let rows = realised_split(
                 data,
@@ -556,33 +549,25 @@ fn realise(
                 round,
                 repeat,
             );
-            let mut outcomes = Vec::with_capacity(options.len() + 1);
-            outcomes.push(trial::run_trial_on(
-                data,
-                &today,
-                family.as_ref(),
-                &rows.train,
-                &rows.test,
-            )?);
-            tick();
-            for option in options {
-                let train = realised_training(data, option, &rows);
-                let outcome = match &option.acquisition {
-                    Acquisition::Feature { column } => {
-                        let mut with = today.clone();
-                        with.extend(data.features.iter().find(|c| &c.name == column).cloned());
-                        trial::run_trial_on(data, &with, family.as_ref(), &train, &rows.test)?
-                    }
-                    Acquisition::Rows { .. } => {
-                        trial::run_trial_on(data, &today, family.as_ref(), &train, &rows.test)?
-                    }
-                };
-                outcomes.push(outcome);
-                tick();
+            let mut train = vec![rows.train.clone()];
+            train.extend(options.iter().map(|o| realised_training(data, o, &rows)));
+            GivenSplit {
+                test: rows.test,
+                train,
             }
-            Ok(outcomes)
         })
-        .collect()
+        .collect();
+    let mut arms = vec![Arm::of(&today)];
+    arms.extend(columns.iter().map(|c| Arm::of(c)));
+    let design = TrialDesign {
+        stage: "realised trials",
+        rows: Rows::Given(&splits),
+        arms,
+    };
+    Ok(trial::run(data, trials, &design, progress)?
+        .into_iter()
+        .map(|arms| arms.into_iter().filter_map(|mut a| a.sizes.pop()).collect())
+        .collect())
 }
 
 /// The realised gain of option `k` in quantity `q`: accuracy after minus before, or unfairness

@@ -3,7 +3,9 @@
 
 use crate::data::{Dataset, Table, Values};
 use crate::engine::model;
-use crate::engine::trial::{self, ProgressSink, TrialOutcome};
+use crate::engine::trial::{
+    self, Arm, ProgressSink, Rows, Sizes, Stream, TrialDesign, TrialOutcome,
+};
 use crate::error::{Error, Result};
 use crate::report::*;
 use crate::settings::Settings;
@@ -13,8 +15,20 @@ use crate::stats::metrics::{self, estimate, Estimate, GroupCounts, FOUR_FIFTHS};
 /// Reads the data, runs the trials and builds the report.
 pub fn run(settings: &Settings, progress: ProgressSink) -> Result<BaselineReport> {
     let (table, data) = Dataset::load(settings)?;
-    let family = model::family(settings.trials.model);
-    let outcomes = trial::repeated_trials(&data, family.as_ref(), &settings.trials, progress)?;
+    let all: Vec<usize> = (0..data.rows()).collect();
+    let design = TrialDesign {
+        stage: "baseline trials",
+        rows: Rows::Drawn {
+            rows: &all,
+            stream: Stream::BaselineSplits,
+            sizes: Sizes::Whole,
+        },
+        arms: vec![Arm::of(&data.features)],
+    };
+    let outcomes: Vec<TrialOutcome> = trial::run(&data, &settings.trials, &design, progress)?
+        .into_iter()
+        .filter_map(|mut arms| arms.swap_remove(0).sizes.pop())
+        .collect();
     build_report(settings, &table, &data, &outcomes)
 }
 

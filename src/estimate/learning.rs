@@ -5,9 +5,10 @@
 use rand::Rng;
 
 use crate::data::Dataset;
-use crate::engine::model;
 use crate::engine::streams::{stream_rng, Stream};
-use crate::engine::trial::{self, ProgressSink, TrialOutcome};
+use crate::engine::trial::{
+    self, Arm, ArmOutcome, ProgressSink, Rows, Sizes, TrialDesign, TrialOutcome,
+};
 use crate::error::{Error, Result};
 use crate::estimate::baseline;
 use crate::report::*;
@@ -250,7 +251,7 @@ pub fn run(
     let all_rows: Vec<usize> = (0..data.rows()).collect();
     let plan = CurvePlan {
         rows: &all_rows,
-        columns: &data.features,
+        arms: vec![&data.features],
         stream: Stream::CurveSplits,
         stage: "learning curves",
         smallest: curve_settings.smallest,
@@ -265,7 +266,7 @@ pub fn run(
             })
             .collect()
     };
-    let measured = measure_curves(&data, settings, &plan, &requested, progress)?;
+    let measured = measure_curves(&data, settings, &plan, &requested, progress)?.swap_remove(0);
     let mut warnings = measured.warnings;
     warnings.extend(data.warnings.iter().cloned());
     let fitted = measured.fitted;
@@ -298,7 +299,8 @@ pub fn run(
 /// Which rows and columns a set of learning curves is measured on.
 pub struct CurvePlan<'a> {
     pub rows: &'a [usize],
-    pub columns: &'a [crate::data::Column],
+    /// The feature sets measured, on the same splits and orders (paired).
+    pub arms: Vec<&'a [crate::data::Column]>,
     pub stream: Stream,
     pub stage: &'static str,
     pub smallest: Option<usize>,
@@ -313,36 +315,26 @@ pub struct MeasuredCurves {
     pub outcomes: Vec<Vec<TrialOutcome>>,
 }
 
-/// Runs the nested trials of a plan and fits the curves; `requested` gives the sizes to read
-/// them at from the number of training rows.
+/// Runs the nested trials of a plan and fits the curves of every arm; `requested` gives the
+/// sizes to read them at from the number of training rows.
 pub fn measure_curves(
     data: &Dataset,
     settings: &Settings,
     plan: &CurvePlan,
     requested: &dyn Fn(usize) -> Vec<f64>,
     progress: ProgressSink,
-) -> Result<MeasuredCurves> {
+) -> Result<Vec<MeasuredCurves>> {
     let trials = &settings.trials;
-    let group_count = data.group_list.len();
     // The split of repeat 0 gives the sizes of every repeat (cells are cut the same way).
-    let mut rng = stream_rng(trials.seed, plan.stream, 0);
-    let (train, test) = trial::stratified_split_of(
-        plan.rows,
-        &data.labels,
-        &data.groups,
-        group_count,
-        trials.test_fraction,
-        &mut rng,
-    );
-    let (training_rows, test_rows) = (train.len(), test.len());
-    let (train, _) = trial::cap_split(
+    let split = trial::draw_split(
         data,
-        (train, test),
-        trials.max_train_rows,
-        trials.test_fraction,
-        &mut rng,
+        plan.rows,
+        trials,
+        &mut stream_rng(trials.seed, plan.stream, 0),
     );
-    let capped = train.len() < training_rows;
+    let (training_rows, test_rows) = (split.drawn_train.len(), split.drawn_test);
+    let capped = split.capped();
+    let train = split.train;
     let (smallest, smallest_rule, mut warnings) = smallest_size(data, &train, plan.smallest)?;
     if capped {
         warnings.push(format!(
@@ -360,25 +352,22 @@ pub fn measure_curves(
             train.len()
         ))
     })?;
-    let family = model::family(trials.model);
-    let schedule = trial::Schedule {
-        rows: plan.rows,
-        columns: plan.columns,
-        vary_group: None,
-        sizes: &sizes,
-        stream: plan.stream,
+    let design = TrialDesign {
         stage: plan.stage,
-        max_train: trials.max_train_rows,
+        rows: Rows::Drawn {
+            rows: plan.rows,
+            stream: plan.stream,
+            sizes: Sizes::Nested {
+                sizes: &sizes,
+                vary_group: None,
+            },
+        },
+        arms: plan.arms.iter().map(|columns| Arm::of(columns)).collect(),
     };
-    let outcomes = trial::nested_trials(
-        data,
-        family.as_ref(),
-        &schedule,
-        trials.repeats,
-        trials.test_fraction,
-        trials.seed,
-        progress,
-    )?;
+    let outcomes = by_arm(
+        trial::run(data, trials, &design, progress)?,
+        plan.arms.len(),
+    );
     if trials.repeats < 3 {
         warnings.push(format!(
             "bands come from a bootstrap over {} repeats; use --repeats 5 or more for bands that mean something",
@@ -386,32 +375,48 @@ pub fn measure_curves(
         ));
     }
     let label_counts = baseline::label_counts(data);
-    let fitted = fit_curves(
-        data,
-        &outcomes,
-        &sizes,
-        &requested(training_rows),
-        trials.confidence,
-        trials.seed,
-        &label_counts,
-    );
     let top = *sizes.last().unwrap_or(&1) as f64;
-    Ok(MeasuredCurves {
-        schedule: CurveSchedule {
-            training_rows,
-            test_rows,
-            sizes,
-            smallest_rule,
-            repeats: trials.repeats,
-            held_back: fitted.held_back,
-            bootstrap_draws: BOOTSTRAP_DRAWS,
-            reliable_up_to: RELIABLE_MULTIPLE * top,
-            capped,
-        },
-        fitted,
-        warnings,
-        outcomes,
-    })
+    Ok(outcomes
+        .into_iter()
+        .map(|outcomes| {
+            let fitted = fit_curves(
+                data,
+                &outcomes,
+                &sizes,
+                &requested(training_rows),
+                trials.confidence,
+                trials.seed,
+                &label_counts,
+            );
+            MeasuredCurves {
+                schedule: CurveSchedule {
+                    training_rows,
+                    test_rows,
+                    sizes: sizes.clone(),
+                    smallest_rule: smallest_rule.clone(),
+                    repeats: trials.repeats,
+                    held_back: fitted.held_back,
+                    bootstrap_draws: BOOTSTRAP_DRAWS,
+                    reliable_up_to: RELIABLE_MULTIPLE * top,
+                    capped,
+                },
+                fitted,
+                warnings: warnings.clone(),
+                outcomes,
+            }
+        })
+        .collect())
+}
+
+/// The outcomes of a run of nested trials regrouped as `[arm][repeat][size]`.
+pub fn by_arm(outcomes: Vec<Vec<ArmOutcome>>, arms: usize) -> Vec<Vec<Vec<TrialOutcome>>> {
+    let mut grouped: Vec<Vec<Vec<TrialOutcome>>> = (0..arms).map(|_| Vec::new()).collect();
+    for repeat in outcomes {
+        for (arm, outcome) in repeat.into_iter().enumerate() {
+            grouped[arm].push(outcome.sizes);
+        }
+    }
+    grouped
 }
 
 /// The smallest anchor for the training rows `train`: [`MIN_ANCHOR_ROWS`], or more so that every (group, label) cell holds
