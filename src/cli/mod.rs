@@ -11,7 +11,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use acquest::decide::plan;
 use acquest::engine::trial::Progress;
 use acquest::estimate::{appraise, baseline, learning};
-use acquest::settings::{Choices, CurveSettings, Settings, PROJECT_FILE};
+use acquest::settings::{AppraisalSettings, Choices, CurveSettings, Settings, PROJECT_FILE};
 use acquest::{demo, render};
 
 #[derive(Parser)]
@@ -473,33 +473,10 @@ impl Documents {
     }
 }
 
-fn run_plan(
-    choices: Choices,
-    budget: Option<f64>,
-    cautious: bool,
-    keep_accuracy: bool,
-    no_adverse_impact: bool,
-    documents: &Documents,
-    output: &OutputArgs,
-) -> anyhow::Result<()> {
+fn run_plan(choices: Choices, documents: &Documents, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
-    let appraisal = appraise::AppraisalSettings::from_choices(&choices)?;
-    let budget = budget.or(choices.budget).ok_or_else(|| {
-        acquest::Error::setting("--budget", "is required (or budget = ... in acquest.toml)")
-    })?;
-    if !(budget.is_finite() && budget >= 0.0) {
-        return Err(acquest::Error::setting(
-            "--budget",
-            format!("must be 0 or more, not {budget}"),
-        )
-        .into());
-    }
-    let rules = acquest::report::PlanRules {
-        budget,
-        cautious,
-        keep_accuracy,
-        no_adverse_impact,
-    };
+    let appraisal = AppraisalSettings::from_choices(&choices)?;
+    let rules = acquest::settings::plan_rules(&choices)?;
     let bar = progress_bar(output.quiet);
     let show = shown_on(&bar);
     let report = plan::run(&settings, &appraisal, &rules, &show)?;
@@ -510,7 +487,7 @@ fn run_plan(
 
 fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
-    let appraisal = appraise::AppraisalSettings::from_choices(&choices)?;
+    let appraisal = AppraisalSettings::from_choices(&choices)?;
     let bar = progress_bar(output.quiet);
     let show = shown_on(&bar);
     let report = appraise::run(&settings, &appraisal, &show)?;
@@ -519,17 +496,15 @@ fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
 }
 
 fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
-    let choices = args.data.choices(args.trials)?;
-    let fairness = args.fairness.or(choices.fairness.clone());
-    let settings = Settings::from_choices(choices)?;
-    let backtest = acquest::report::BacktestSettings {
-        hold_rows: args.hold_rows.unwrap_or(0.5),
-        hold_features: args.hold_features.unwrap_or_default(),
-        pilot: args.pilot.unwrap_or(0.2),
-        hold_group: args.hold_group,
-        rounds: args.rounds.unwrap_or(3),
-        fairness: acquest::settings::parse_fairness(fairness.as_deref().unwrap_or("eod"))?,
-    };
+    let mut choices = args.data.choices(args.trials)?;
+    choices.fairness = args.fairness.or(choices.fairness.take());
+    choices.hold_rows = args.hold_rows.or(choices.hold_rows);
+    choices.hold_features = args.hold_features.or(choices.hold_features.take());
+    choices.pilot = args.pilot.or(choices.pilot);
+    choices.hold_group = args.hold_group.or(choices.hold_group.take());
+    choices.rounds = args.rounds.or(choices.rounds);
+    let settings = Settings::from_choices(choices.clone())?;
+    let backtest = acquest::settings::backtest_settings(&choices)?;
     let bar = progress_bar(args.output.quiet);
     let show = shown_on(&bar);
     let report = acquest::estimate::backtest::run(&settings, &backtest, &show)?;
@@ -605,14 +580,17 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         }
         Command::Plan(args) => {
             let mut args = *args;
-            let choices = args.appraise.choices()?;
+            let mut choices = args.appraise.choices()?;
+            choices.budget = args.budget.or(choices.budget);
+            choices.cautious = args.cautious.then_some(true).or(choices.cautious);
+            choices.keep_accuracy = args.keep_accuracy.then_some(true).or(choices.keep_accuracy);
+            choices.no_adverse_impact = args
+                .no_adverse_impact
+                .then_some(true)
+                .or(choices.no_adverse_impact);
             let output = args.appraise.output;
             run_plan(
                 choices,
-                args.budget,
-                args.cautious,
-                args.keep_accuracy,
-                args.no_adverse_impact,
                 &Documents {
                     markdown: args.markdown,
                     html: args.html,
@@ -696,10 +674,6 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             println!();
             run_plan(
                 choices,
-                None,
-                false,
-                false,
-                false,
                 &Documents {
                     markdown: Some(folder.join("report.md")),
                     html: Some(folder.join("report.html")),

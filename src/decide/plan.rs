@@ -512,7 +512,7 @@ pub const FRONTIER_POINTS: usize = 24;
 /// Runs `acquest plan`: the appraisal, then the best plan for the budget and the frontier.
 pub fn run(
     settings: &crate::settings::Settings,
-    appraisal: &crate::estimate::appraise::AppraisalSettings,
+    appraisal: &crate::settings::AppraisalSettings,
     rules: &PlanRules,
     progress: crate::engine::trial::ProgressSink,
 ) -> Result<crate::report::PlanReport> {

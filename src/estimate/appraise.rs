@@ -3,10 +3,6 @@
 //! paired pilot curves anchored on the full data, and the features already held by ablation and
 //! permutation. Each with an interval, a test against no change, its cost and its gain per 1,000.
 
-use std::path::PathBuf;
-
-use serde::Serialize;
-
 use crate::data::costs::{self, Acquisition, CostOption};
 use crate::data::{Column, Dataset};
 use crate::engine::streams::{stream_rng, Stream};
@@ -17,58 +13,10 @@ use crate::error::{Error, Result};
 use crate::estimate::baseline;
 use crate::estimate::learning::{self, CurvePlan, FittedCurves, Quantities, Reading};
 use crate::report::*;
-use crate::settings::{Choices, Settings};
+use crate::settings::{AppraisalSettings, Settings};
 use crate::stats::curve;
 use crate::stats::fairness::{self, Rates};
 use crate::stats::metrics::{self, estimate, Estimate};
-
-/// Settings of `acquest appraise`, beyond those of the trials.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct AppraisalSettings {
-    pub costs: PathBuf,
-    pub currency: String,
-    pub fairness: FairnessMeasure,
-    pub weigh_accuracy: f64,
-    pub weigh_fairness: f64,
-}
-
-impl AppraisalSettings {
-    /// Checks `--costs`, `--currency`, `--fairness` and the weights.
-    pub fn from_choices(choices: &Choices) -> Result<Self> {
-        let costs = choices
-            .costs
-            .clone()
-            .ok_or_else(|| Error::setting("--costs", "no cost sheet given"))?;
-        let weight = |value: Option<f64>, flag: &str| -> Result<f64> {
-            let w = value.unwrap_or(1.0);
-            if w.is_finite() && w >= 0.0 {
-                Ok(w)
-            } else {
-                Err(Error::setting(flag, format!("must be 0 or more, not {w}")))
-            }
-        };
-        let weigh_accuracy = weight(choices.weigh_accuracy, "--weigh-accuracy")?;
-        let weigh_fairness = weight(choices.weigh_fairness, "--weigh-fairness")?;
-        if weigh_accuracy == 0.0 && weigh_fairness == 0.0 {
-            return Err(Error::setting(
-                "--weigh-fairness",
-                "accuracy and fairness cannot both weigh 0",
-            ));
-        }
-        Ok(AppraisalSettings {
-            costs,
-            currency: choices
-                .currency
-                .clone()
-                .unwrap_or_else(|| "currency units".into()),
-            fairness: crate::settings::parse_fairness(
-                choices.fairness.as_deref().unwrap_or("eod"),
-            )?,
-            weigh_accuracy,
-            weigh_fairness,
-        })
-    }
-}
 
 /// A pilot smaller than this many training rows is flagged as small.
 pub const SMALL_PILOT_ROWS: usize = 300;

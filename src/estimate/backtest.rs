@@ -14,10 +14,10 @@ use crate::data::{Column, Dataset};
 use crate::engine::streams::{stream_rng, Stream};
 use crate::engine::trial::{self, Arm, GivenSplit, ProgressSink, Rows, TrialDesign, TrialOutcome};
 use crate::error::{nearest_hint, Error, Result};
-use crate::estimate::appraise::{self, AppraisalInput, AppraisalSettings, OptionReadings};
+use crate::estimate::appraise::{self, AppraisalInput, OptionReadings};
 use crate::estimate::baseline;
 use crate::report::*;
-use crate::settings::Settings;
+use crate::settings::{self, AppraisalSettings, Settings};
 use crate::stats::fairness;
 use crate::stats::metrics::{self, estimate};
 
@@ -42,43 +42,6 @@ fn description(method: Method) -> &'static str {
              curve (rows options have no pilot and read today's curves as acquest does; a pilot too \
              small for a curve falls back to its last anchor)"
         }
-    }
-}
-
-impl BacktestSettings {
-    /// Checks the shares and counts.
-    pub fn check(&self) -> Result<()> {
-        if !(self.hold_rows.is_finite() && (0.0..=0.9).contains(&self.hold_rows)) {
-            return Err(Error::setting(
-                "--hold-rows",
-                format!("must be a share from 0 to 0.9, not {}", self.hold_rows),
-            ));
-        }
-        if !(self.pilot.is_finite() && self.pilot > 0.0 && self.pilot < 1.0) {
-            return Err(Error::setting(
-                "--pilot",
-                format!("must be a share between 0 and 1, not {}", self.pilot),
-            ));
-        }
-        if !(1..=100).contains(&self.rounds) {
-            return Err(Error::setting(
-                "--rounds",
-                format!("must be from 1 to 100, not {}", self.rounds),
-            ));
-        }
-        if self.hold_rows == 0.0 && self.hold_features.is_empty() {
-            return Err(Error::setting(
-                "--hold-features",
-                "nothing is held back: give --hold-rows above 0 or --hold-features",
-            ));
-        }
-        if self.hold_group.is_some() && self.hold_rows == 0.0 {
-            return Err(Error::setting(
-                "--hold-group",
-                "needs held-back rows (--hold-rows above 0)",
-            ));
-        }
-        Ok(())
     }
 }
 
@@ -316,7 +279,7 @@ pub fn run(
     backtest: &BacktestSettings,
     progress: ProgressSink,
 ) -> Result<BacktestReport> {
-    backtest.check()?;
+    settings::check_backtest(backtest)?;
     let (table, data) = Dataset::load(settings)?;
     for name in &backtest.hold_features {
         if !data.features.iter().any(|c| &c.name == name) {

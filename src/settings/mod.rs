@@ -7,6 +7,10 @@ use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
 
+mod commands;
+
+pub use commands::*;
+
 /// Name of the project file read from the working folder.
 pub const PROJECT_FILE: &str = "acquest.toml";
 
@@ -44,6 +48,14 @@ pub struct Choices {
     pub fairness: Option<String>,
     pub weigh_accuracy: Option<f64>,
     pub weigh_fairness: Option<f64>,
+    pub cautious: Option<bool>,
+    pub keep_accuracy: Option<bool>,
+    pub no_adverse_impact: Option<bool>,
+    pub hold_rows: Option<f64>,
+    pub hold_features: Option<Vec<String>>,
+    pub pilot: Option<f64>,
+    pub hold_group: Option<String>,
+    pub rounds: Option<usize>,
 }
 
 macro_rules! overlay {
@@ -110,7 +122,15 @@ impl Choices {
             smallest,
             fairness,
             weigh_accuracy,
-            weigh_fairness
+            weigh_fairness,
+            cautious,
+            keep_accuracy,
+            no_adverse_impact,
+            hold_rows,
+            hold_features,
+            pilot,
+            hold_group,
+            rounds
         )
     }
 }
@@ -416,91 +436,6 @@ fn first_repeat(names: &[String]) -> Option<&str> {
         .map(|(_, n)| n.as_str())
 }
 
-/// A training size asked for on a learning curve.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum SizeRequest {
-    /// A multiple of the training rows held now (`2x`).
-    Times(f64),
-    /// A number of training rows.
-    Rows(usize),
-}
-
-/// Settings of `acquest curves`.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct CurveSettings {
-    /// Sizes to read the curves at.
-    pub at: Vec<SizeRequest>,
-    /// Smallest anchor size, overriding the rule.
-    pub smallest: Option<usize>,
-}
-
-impl CurveSettings {
-    /// Checks `--at` and `--smallest`; the default sizes are 2x and 4x.
-    pub fn from_choices(choices: &Choices) -> Result<Self> {
-        let texts = choices
-            .at
-            .clone()
-            .unwrap_or_else(|| vec!["2x".into(), "4x".into()]);
-        let mut at = Vec::new();
-        for text in texts.iter().map(|t| t.trim()).filter(|t| !t.is_empty()) {
-            let request = if let Some(times) = text.strip_suffix(['x', 'X']) {
-                match times.trim().parse::<f64>() {
-                    Ok(t) if t.is_finite() && t > 0.0 => SizeRequest::Times(t),
-                    _ => {
-                        return Err(Error::setting(
-                            "--at",
-                            format!("'{text}' is not a multiple such as 2x"),
-                        ))
-                    }
-                }
-            } else {
-                match text.replace('_', "").parse::<usize>() {
-                    Ok(n) if n > 0 => SizeRequest::Rows(n),
-                    _ => {
-                        return Err(Error::setting(
-                            "--at",
-                            format!(
-                                "'{text}' is neither a multiple (2x) nor a number of training rows"
-                            ),
-                        ))
-                    }
-                }
-            };
-            at.push(request);
-        }
-        if let Some(n) = choices.smallest {
-            if n < 20 {
-                return Err(Error::setting(
-                    "--smallest",
-                    format!("{n} rows is too few to fit a model on"),
-                ));
-            }
-        }
-        Ok(CurveSettings {
-            at,
-            smallest: choices.smallest,
-        })
-    }
-}
-
-/// Reads `--fairness`: `spd`, `di`, `eod` or `aod`.
-pub fn parse_fairness(text: &str) -> Result<crate::report::FairnessMeasure> {
-    use crate::report::FairnessMeasure;
-    FairnessMeasure::ALL
-        .into_iter()
-        .find(|m| m.name() == text.trim().to_ascii_lowercase())
-        .ok_or_else(|| {
-            Error::setting(
-                "--fairness",
-                format!(
-                    "unknown measure '{}' (choose spd, di, eod or aod)",
-                    text.trim().to_ascii_lowercase()
-                ),
-            )
-        })
-}
-
 /// Reads a delimiter given as one character or as a name (`tab`, `space`, `comma`, `semicolon`).
 pub fn parse_delimiter(text: &str) -> Result<u8> {
     let byte = match text {
@@ -600,18 +535,6 @@ pub fn parse_groups(text: &str) -> Result<Vec<GroupRule>> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn fairness_measures_by_short_name() {
-        use crate::report::FairnessMeasure;
-        assert_eq!(parse_fairness(" EOD").unwrap(), FairnessMeasure::Eod);
-        assert_eq!(parse_fairness("di").unwrap(), FairnessMeasure::Di);
-        let error = parse_fairness("xyz").unwrap_err().to_string();
-        assert!(
-            error.contains("--fairness") && error.contains("'xyz'"),
-            "{error}"
-        );
-    }
 
     fn minimal() -> Choices {
         Choices {
