@@ -465,7 +465,7 @@ fn predicted(
         Gain::Fairness(m) => m,
     };
     let (accuracy, fairness) =
-        appraise::score_readings(reduced, measure, trials, &readings.now, after);
+        crate::estimate::score::score_readings(reduced, measure, trials, &readings.now, after);
     match q {
         Gain::Accuracy => accuracy,
         Gain::Fairness(_) => fairness,

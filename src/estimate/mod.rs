@@ -4,4 +4,9 @@
 pub mod appraise;
 pub mod backtest;
 pub mod baseline;
+mod held;
 pub mod learning;
+mod pilot;
+mod rank;
+mod rows;
+pub mod score;

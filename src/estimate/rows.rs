@@ -1,0 +1,195 @@
+//! Rows options: more rows of any group read off today's learning curves, and more rows of one
+//! group off curves in which only that group's training rows grow.
+
+use super::appraise::OptionReadings;
+use super::score::{empty_purchase, option_flags, Valuation};
+use crate::data::costs::CostOption;
+use crate::data::Dataset;
+use crate::engine::streams::{stream_rng, Stream};
+use crate::engine::trial::{self, Arm, ProgressSink, Rows, Sizes, TrialDesign};
+use crate::error::{Error, Result};
+use crate::estimate::baseline;
+use crate::estimate::learning::{self, FittedCurves};
+use crate::report::*;
+use crate::settings::Settings;
+
+fn rows_value(
+    option: &CostOption,
+    target: Option<String>,
+    steps: Vec<Purchase>,
+    confidence: f64,
+) -> OptionValue {
+    let estimate = steps.last().cloned().unwrap_or_else(empty_purchase);
+    OptionValue {
+        flags: option_flags(option, &estimate, confidence),
+        name: option.name.clone(),
+        kind: option.kind(),
+        target,
+        sensitive: option.sensitive,
+        note: option.note.clone(),
+        estimate,
+        steps,
+        direct: None,
+        pilot: None,
+    }
+}
+
+/// Curves in which only group `g`'s training rows grow. Returns the curves (over g's training
+/// count), their largest size, and g's training count today.
+fn group_curves(
+    data: &Dataset,
+    settings: &Settings,
+    g: usize,
+    stream: Stream,
+    progress: ProgressSink,
+    warnings: &mut Vec<String>,
+) -> Result<(FittedCurves, f64, f64)> {
+    let trials = &settings.trials;
+    let all_rows: Vec<usize> = (0..data.rows()).collect();
+    // Repeat 0's split, cut to the cap as the trials cut it: the group's rows there give the
+    // sizes; its rows before the cut are today's count, read by extrapolation when capped.
+    let split = trial::draw_split(
+        data,
+        &all_rows,
+        trials,
+        &mut stream_rng(trials.seed, stream, 0),
+    );
+    let in_group_of = |rows: &[usize]| -> Vec<usize> {
+        rows.iter()
+            .copied()
+            .filter(|&i| data.groups[i] as usize == g)
+            .collect()
+    };
+    let m_today = in_group_of(&split.drawn_train).len();
+    let in_group = in_group_of(&split.train);
+    let m_all = in_group.len();
+    let favourable = in_group.iter().filter(|&&i| data.labels[i]).count();
+    let rarest = favourable.min(m_all - favourable).max(1);
+    let by_rule = (learning::MIN_CELL_ROWS as f64 * m_all as f64 / rarest as f64).ceil() as usize;
+    let smallest = by_rule.max(20);
+    let sizes = match learning::anchor_sizes(smallest, m_all) {
+        Some(sizes) => sizes,
+        None => {
+            warnings.push(format!(
+                "group '{}' has {m_all} training rows: its own curve starts at a quarter of them, \
+                 where its rarer label has fewer than {} rows",
+                data.group_list[g].name,
+                learning::MIN_CELL_ROWS
+            ));
+            learning::anchor_sizes((m_all / 4).max(2), m_all).ok_or_else(|| {
+                Error::NotEnoughData(format!(
+                    "group '{}' is too small for a learning curve of its own",
+                    data.group_list[g].name
+                ))
+            })?
+        }
+    };
+    let design = TrialDesign {
+        stage: "group curves",
+        rows: Rows::Drawn {
+            rows: &all_rows,
+            stream,
+            sizes: Sizes::Nested {
+                sizes: &sizes,
+                vary_group: Some(g as u32),
+            },
+        },
+        arms: vec![Arm::of(&data.features)],
+    };
+    let outcomes = learning::by_arm(trial::run(data, trials, &design, progress)?, 1).swap_remove(0);
+    let fitted = learning::fit_curves(
+        data,
+        &outcomes,
+        &sizes,
+        &[],
+        trials.confidence,
+        trials.seed,
+        &baseline::label_counts(data),
+    );
+    let largest = fitted.largest() as f64;
+    Ok((fitted, largest, m_today as f64))
+}
+
+/// More rows of any group: today's curves read at the training rows each step gives.
+pub(super) fn rows_option(v: &Valuation, option: &CostOption) -> (OptionValue, OptionReadings) {
+    let most = option.row_steps().last().copied().unwrap_or(0);
+    let readings = OptionReadings {
+        now: v.now.clone(),
+        after: v.curves.read(v.training_at(most)),
+        last_anchor: v.now.clone(),
+        direct: None,
+    };
+    let largest = v.curves.largest() as f64;
+    let steps: Vec<Purchase> = option
+        .row_steps()
+        .into_iter()
+        .map(|delta| {
+            let at = v.training_at(delta);
+            v.scorer.purchase(
+                &v.now,
+                &v.curves.read(at),
+                delta,
+                option.rows_cost(delta),
+                at,
+                largest,
+            )
+        })
+        .collect();
+    let confidence = v.settings.trials.confidence;
+    (rows_value(option, None, steps, confidence), readings)
+}
+
+/// More rows of the group `value` of the protected `column`: that group's own curves, in which
+/// only its training rows grow, read at its training rows after each step.
+pub(super) fn group_rows_option(
+    v: &Valuation,
+    option: &CostOption,
+    index: usize,
+    (column, value): (&str, &str),
+    progress: ProgressSink,
+    warnings: &mut Vec<String>,
+) -> Result<(OptionValue, OptionReadings)> {
+    let data = v.data;
+    let g = data
+        .group_list
+        .iter()
+        .position(|x| x.name == value)
+        .unwrap_or(0);
+    let (group_curves, group_largest, m_now) = group_curves(
+        data,
+        v.settings,
+        g,
+        Stream::GroupCurves(index),
+        progress,
+        warnings,
+    )?;
+    let group_rows = data.groups.iter().filter(|&&x| x as usize == g).count() as f64;
+    let now_g = group_curves.read(m_now);
+    let most = option.row_steps().last().copied().unwrap_or(0) as f64;
+    let readings = OptionReadings {
+        now: now_g.clone(),
+        after: group_curves.read(m_now * (group_rows + most) / group_rows),
+        last_anchor: now_g.clone(),
+        direct: None,
+    };
+    let steps: Vec<Purchase> = option
+        .row_steps()
+        .into_iter()
+        .map(|delta| {
+            let m = m_now * (group_rows + delta as f64) / group_rows;
+            let mut p = v.scorer.purchase(
+                &now_g,
+                &group_curves.read(m),
+                delta,
+                option.rows_cost(delta),
+                m,
+                group_largest,
+            );
+            p.training_rows = v.training_rows + (m - m_now);
+            p
+        })
+        .collect();
+    let confidence = v.settings.trials.confidence;
+    let target = Some(format!("{column}={value}"));
+    Ok((rows_value(option, target, steps, confidence), readings))
+}
