@@ -71,87 +71,51 @@ pub(super) fn feature_value(
     )?;
     let training_now = training_at(0);
     let mut flags = Vec::new();
-    // The pilot's with-minus-without difference as a function of training size, how far it
-    // was measured, the direct extrapolation where there is a curve, and the pilot's summary.
-    type DifferenceAt<'a> = Box<dyn Fn(f64) -> Reading + 'a>;
-    let (difference_at, reach, direct, pilot_summary, last_anchor, direct_reading): (
-        DifferenceAt,
-        f64,
-        Option<Purchase>,
-        PilotSummary,
-        Reading,
-        Option<Reading>,
-    ) = match measured {
-        PilotMeasurement::Curves {
-            ref without,
-            ref with,
-            ..
-        } => {
-            let reach = with.fitted.largest() as f64;
-            let direct_reading = with.fitted.read(training_now);
-            let last_anchor = anchored(now, &measured.difference_at_pilot_size(data, trials.seed));
-            let direct = scorer.purchase(
-                now,
-                &direct_reading,
-                0,
-                option.feature_cost(rows),
-                training_now,
-                reach,
-            );
-            let summary = pilot_summary(
-                data,
-                scorer,
-                &pilot,
-                &without.outcomes,
-                &with.outcomes,
-                mix,
-                true,
-                trials.confidence,
-            );
-            let PilotMeasurement::Curves { difference, .. } = measured else {
-                unreachable!("matched as curves above")
-            };
-            (
-                Box::new(move |at| difference.read(at)),
-                reach,
-                Some(direct),
-                summary,
-                last_anchor,
-                Some(direct_reading),
-            )
-        }
-        PilotMeasurement::AtPilotSize { ref reason, .. } => {
-            // Too small for a curve: measured at the pilot's own size, the difference
-            // carried over unchanged.
+    // The with-minus-without difference at the pilot's full size (the last anchor), and at any
+    // training size: its fitted curve, or that last difference carried over unchanged.
+    let at_pilot_size = measured.difference_at_pilot_size(data, trials.seed);
+    let difference_at = |at: f64| match &measured {
+        PilotMeasurement::Curves { difference, .. } => difference.read(at),
+        PilotMeasurement::AtPilotSize { .. } => at_pilot_size.clone(),
+    };
+    let last_anchor = anchored(now, &at_pilot_size);
+    // How far the pilot was measured, and its with-feature curve read directly at today's rows.
+    let (reach, direct_reading) = match &measured {
+        PilotMeasurement::Curves { with, .. } => (
+            with.fitted.largest() as f64,
+            Some(with.fitted.read(training_now)),
+        ),
+        PilotMeasurement::AtPilotSize { reason, .. } => {
             warnings.push(format!(
-                    "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
-                    option.name,
-                    pilot.len()
-                ));
+                "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
+                option.name,
+                pilot.len()
+            ));
             flags.push("pilot too small for a curve: gain measured at pilot size".into());
-            let difference = measured.difference_at_pilot_size(data, trials.seed);
-            let (without_outcomes, with_outcomes) = measured.outcomes();
-            let summary = pilot_summary(
-                data,
-                scorer,
-                &pilot,
-                without_outcomes,
-                with_outcomes,
-                mix,
-                false,
-                trials.confidence,
-            );
-            let last_anchor = anchored(now, &difference);
-            (
-                Box::new(move |_| difference.clone()),
-                f64::INFINITY,
-                None,
-                summary,
-                last_anchor,
-                None,
-            )
+            (f64::INFINITY, None)
         }
     };
+    let direct = direct_reading.as_ref().map(|reading| {
+        scorer.purchase(
+            now,
+            reading,
+            0,
+            option.feature_cost(rows),
+            training_now,
+            reach,
+        )
+    });
+    let (without_outcomes, with_outcomes) = measured.outcomes();
+    let pilot_summary = pilot_summary(
+        data,
+        scorer,
+        &pilot,
+        without_outcomes,
+        with_outcomes,
+        mix,
+        matches!(measured, PilotMeasurement::Curves { .. }),
+        trials.confidence,
+    );
     let purchase = |new_rows: usize| {
         let at = training_at(new_rows);
         let after = anchored(&full.read(at), &difference_at(at));

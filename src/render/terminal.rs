@@ -1,0 +1,880 @@
+//! The terminal view of every report: plain-text tables, warnings and cautions.
+
+use std::fmt::Write as _;
+
+use super::*;
+use crate::report::{AppraisalReport, BaselineReport, CurvesReport, Gain, OptionKind, PlanReport};
+
+/// The baseline report as terminal text.
+pub fn baseline_text(report: &BaselineReport) -> String {
+    let mut out = String::new();
+    let inputs = &report.inputs;
+    let _ = writeln!(
+        out,
+        "acquest baseline: {} ({} rows read, {} used)",
+        inputs.data.path,
+        thousands(report.data.rows_read),
+        thousands(report.data.rows_used)
+    );
+    let _ = writeln!(
+        out,
+        "target '{}', favourable '{}' (otherwise '{}'); protected '{}'",
+        inputs.target, inputs.favourable, inputs.unfavourable, inputs.protected
+    );
+    let numeric = report
+        .data
+        .features
+        .iter()
+        .filter(|f| f.kind == "numeric")
+        .count();
+    let _ = writeln!(
+        out,
+        "{} features ({} numeric, {} categorical){}; model {}, {} trials holding out {:.0}%, seed {}",
+        report.data.features.len(),
+        numeric,
+        report.data.features.len() - numeric,
+        if inputs.use_protected { ", protected attribute included" } else { "" },
+        inputs.model,
+        inputs.repeats,
+        inputs.test_fraction * 100.0,
+        inputs.seed
+    );
+
+    out.push_str("\nGroups\n");
+    let mut t = Table::new(&["group", "formed as", "rows", "favourable", "label rate"]);
+    for g in &report.groups {
+        let mark = if g.name == report.reference.name {
+            " (reference)"
+        } else {
+            ""
+        };
+        t.row(vec![
+            format!("{}{mark}", g.name),
+            g.definition.clone(),
+            thousands(g.rows),
+            thousands(g.favourable_labels),
+            number(g.label_rate),
+        ]);
+    }
+    t.render(&mut out);
+    let _ = writeln!(out, "  reference: {}", report.reference.rule);
+
+    out.push_str("\nBias already in the labels\n");
+    let mut t = Table::new(&[
+        "group",
+        "SPD",
+        "DI",
+        "four-fifths",
+        "z-test p",
+        "Fisher p",
+        "one person flips it",
+    ]);
+    for c in &report.label_bias.comparisons {
+        let finding = report
+            .label_bias
+            .four_fifths
+            .iter()
+            .find(|f| f.group == c.group);
+        t.row(vec![
+            c.group.clone(),
+            maybe(c.statistical_parity_difference),
+            maybe(c.disparate_impact),
+            finding.map_or("n/a".into(), |f| {
+                format!(
+                    "{} ({:.3})",
+                    if f.adverse_impact {
+                        "adverse impact"
+                    } else {
+                        "not flagged"
+                    },
+                    f.impact_ratio
+                )
+            }),
+            p_value(finding.and_then(|f| f.z_p_value)),
+            p_value(finding.and_then(|f| f.fisher_p_value)),
+            finding.map_or("".into(), |f| {
+                if f.one_person_flips {
+                    "yes".into()
+                } else {
+                    "no".into()
+                }
+            }),
+        ]);
+    }
+    t.render(&mut out);
+    out.push_str("  four-fifths: each group's favourable rate over the highest group's; flagged only when below 0.8\n");
+
+    let m = &report.model;
+    let level = (inputs.confidence * 100.0).round();
+    let _ = writeln!(
+        out,
+        "\nModel on held-out rows ({} trials of {} training / {} test rows; mean [{level}% interval])",
+        m.trials,
+        thousands(m.train_rows),
+        thousands(m.test_rows)
+    );
+    let mut t = Table::new(&["measure", "value"]);
+    t.row(vec!["accuracy".into(), with_interval(Some(&m.accuracy))]);
+    t.row(vec![
+        "balanced accuracy".into(),
+        with_interval(m.balanced_accuracy.as_ref()),
+    ]);
+    t.row(vec![
+        "AUC".into(),
+        with_interval(m.area_under_curve.as_ref()),
+    ]);
+    t.render(&mut out);
+
+    out.push('\n');
+    let mut t = Table::new(&[
+        "group",
+        "test rows",
+        "selection rate",
+        "true positive rate",
+        "false positive rate",
+    ]);
+    for g in &m.groups {
+        t.row(vec![
+            g.group.clone(),
+            format!("{:.0}", g.test_rows),
+            with_interval(g.selection_rate.as_ref()),
+            with_interval(g.true_positive_rate.as_ref()),
+            with_interval(g.false_positive_rate.as_ref()),
+        ]);
+    }
+    t.render(&mut out);
+
+    let _ = writeln!(
+        out,
+        "\nDisparity against '{}' (* differs from the ideal at p < {:.2})",
+        report.reference.name,
+        1.0 - inputs.confidence
+    );
+    let mut t = Table::new(&[
+        "group",
+        "SPD (ideal 0)",
+        "DI (ideal 1)",
+        "EOD (ideal 0)",
+        "AOD (ideal 0)",
+    ]);
+    for c in &m.comparisons {
+        let cell = |e: &Option<Estimate>| {
+            format!(
+                "{}{}",
+                with_interval(e.as_ref()),
+                significance(e.as_ref(), inputs.confidence)
+            )
+        };
+        t.row(vec![
+            c.group.clone(),
+            cell(&c.statistical_parity_difference),
+            cell(&c.disparate_impact),
+            cell(&c.equal_opportunity_difference),
+            cell(&c.average_odds_difference),
+        ]);
+    }
+    t.render(&mut out);
+    out.push_str(
+        "  SPD statistical parity difference, DI disparate impact, EOD equal opportunity \
+         difference, AOD average odds difference\n",
+    );
+    if m.comparisons.len() > 1 {
+        let w = &m.worst;
+        let show = |w: &Option<crate::report::Worst>| {
+            w.as_ref().map_or("n/a".into(), |w| {
+                format!("{} ({:.4})", w.group, w.unfairness)
+            })
+        };
+        let _ = writeln!(
+            out,
+            "  worst group: SPD {}, DI {}, EOD {}, AOD {}",
+            show(&w.statistical_parity_difference),
+            show(&w.disparate_impact),
+            show(&w.equal_opportunity_difference),
+            show(&w.average_odds_difference)
+        );
+    }
+
+    out.push_str(
+        "\nFour-fifths rule on the model's selections (ratio to the highest group, per trial)\n",
+    );
+    let mut t = Table::new(&["group", "impact ratio", "finding", "trials below 0.8"]);
+    for f in &m.four_fifths {
+        t.row(vec![
+            f.group.clone(),
+            with_interval(Some(&f.impact_ratio)),
+            if f.adverse_impact {
+                "adverse impact".into()
+            } else {
+                "not flagged".into()
+            },
+            format!("{} of {}", f.trials_flagged, f.impact_ratio.trials),
+        ]);
+    }
+    t.render(&mut out);
+
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// The curves report as terminal text.
+pub fn curves_text(report: &CurvesReport) -> String {
+    let mut out = String::new();
+    let inputs = &report.inputs;
+    let s = &report.schedule;
+    let _ = writeln!(
+        out,
+        "acquest curves: {} ({} rows); target '{}' favourable '{}', protected '{}'; model {}, {} repeats, seed {}",
+        inputs.data.path,
+        thousands(inputs.data.rows),
+        inputs.target,
+        inputs.favourable,
+        inputs.protected,
+        inputs.model,
+        s.repeats,
+        inputs.seed
+    );
+    let _ = writeln!(
+        out,
+        "{} training sizes from {} to {} rows (all training rows), each repeat tested on the same {} held-out rows",
+        s.sizes.len(),
+        thousands(s.sizes[0]),
+        thousands(*s.sizes.last().unwrap_or(&0)),
+        thousands(s.test_rows)
+    );
+    let _ = writeln!(out, "  smallest size: {}", s.smallest_rule);
+    let level = (inputs.confidence * 100.0).round();
+    let _ = writeln!(
+        out,
+        "  each family is scored by forecasting the {} largest sizes from the others; bands: {level}% bootstrap over repeats ({} draws)",
+        s.held_back, s.bootstrap_draws
+    );
+    let top = *s.sizes.last().unwrap_or(&0);
+    let requested: Vec<f64> = report
+        .curves
+        .iter()
+        .find(|c| !c.at.is_empty())
+        .map(|c| c.at.iter().map(|p| p.size).collect())
+        .unwrap_or_default();
+    let at_header = |n: f64| {
+        format!(
+            "at {} ({:.1}x)",
+            thousands(n.round() as usize),
+            n / top as f64
+        )
+    };
+
+    out.push_str(
+        "
+Learning curves (value [band]; 'now' is the mean at all training rows)
+",
+    );
+    let mut header: Vec<String> = vec![
+        "measure".into(),
+        "group".into(),
+        format!("now ({})", thousands(top)),
+        "level".into(),
+    ];
+    header.extend(requested.iter().map(|&n| at_header(n)));
+    header.extend(["family".into(), "forecast error".into()]);
+    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+    let mut t = Table::new(&header_refs);
+    for c in &report.curves {
+        let mut row = vec![
+            c.quantity.clone(),
+            c.group.clone().unwrap_or_else(|| "all".into()),
+            c.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
+            maybe(c.asymptote),
+        ];
+        for i in 0..requested.len() {
+            row.push(curve_cell(c.at.get(i)));
+        }
+        let chosen = c.families.iter().find(|f| Some(f.family) == c.chosen);
+        row.push(chosen.map_or("none".into(), |f| f.formula.clone()));
+        row.push(
+            chosen
+                .and_then(|f| f.forecast_error)
+                .map_or("n/a".into(), |e| format!("{e:.4}")),
+        );
+        t.row(row);
+    }
+    t.render(&mut out);
+
+    let _ = writeln!(
+        out,
+        "
+Disparities against '{}', derived from the fitted rates",
+        report.reference.name
+    );
+    let mut header: Vec<String> = vec![
+        "measure".into(),
+        "group".into(),
+        "in labels".into(),
+        "now".into(),
+        "level".into(),
+    ];
+    header.extend(requested.iter().map(|&n| at_header(n)));
+    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+    let mut t = Table::new(&header_refs);
+    for d in &report.disparities {
+        let mut row = vec![
+            d.measure.clone(),
+            d.group.clone(),
+            maybe(d.in_labels),
+            d.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
+            maybe(d.asymptote),
+        ];
+        for i in 0..requested.len() {
+            row.push(curve_cell(d.at.get(i)));
+        }
+        t.row(row);
+    }
+    t.render(&mut out);
+    let _ = writeln!(
+        out,
+        "  'in labels': the same measure on the labels themselves; more rows of the same kind tend to pull the model towards it"
+    );
+    if report
+        .curves
+        .iter()
+        .any(|c| c.at.iter().any(|p| p.unreliable))
+        || report
+            .disparities
+            .iter()
+            .any(|d| d.at.iter().any(|p| p.unreliable))
+    {
+        let _ = writeln!(
+            out,
+            "  ! beyond {} rows, 4x the largest fitted size: extrapolated too far to be relied on",
+            thousands(s.reliable_up_to.round() as usize)
+        );
+    }
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// The appraisal report as terminal text.
+pub fn appraisal_text(report: &AppraisalReport) -> String {
+    let mut out = appraisal_body(report);
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// The appraisal without its warnings and cautions, for the reports that include it.
+fn appraisal_body(report: &AppraisalReport) -> String {
+    let mut out = String::new();
+    let inputs = &report.inputs;
+    let c = &report.costs;
+    let confidence = inputs.confidence;
+    let _ = writeln!(
+        out,
+        "acquest appraise: {} ({} rows) with cost sheet {}; model {}, {} repeats, seed {}",
+        inputs.data.path,
+        thousands(report.today.rows),
+        c.path,
+        inputs.model,
+        inputs.repeats,
+        inputs.seed
+    );
+    let _ = writeln!(
+        out,
+        "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' against '{}'), read off the learning curve at {} training rows",
+        report.today.accuracy,
+        report.today.unfairness,
+        c.fairness.to_uppercase(),
+        report.today.worst_group,
+        report.reference.name,
+        thousands(report.today.training_rows)
+    );
+    let _ = writeln!(
+        out,
+        "utility = {} x accuracy gain + {} x unfairness reduction; costs in {}; gains per 1,000 {}",
+        c.weigh_accuracy, c.weigh_fairness, c.currency, c.currency
+    );
+
+    let level = (confidence * 100.0).round();
+    let _ = writeln!(
+        out,
+        "\nOptions, ranked by utility per 1,000 (mean [{level}% interval]; * differs from zero)"
+    );
+    let mut t = Table::new(&[
+        "rank",
+        "option",
+        "buys",
+        "cost",
+        "accuracy gain",
+        "unfairness reduction",
+        "utility/1000",
+        "cautious/1000",
+        "cautious rank",
+    ]);
+    for r in &report.ranking {
+        let Some(o) = report.options.iter().find(|o| o.name == r.name) else {
+            continue;
+        };
+        let e = &o.estimate;
+        let buys = match o.kind {
+            OptionKind::Feature => format!("feature {}", o.target.as_deref().unwrap_or("")),
+            OptionKind::GroupRows => format!(
+                "{} rows of {}",
+                thousands(e.new_rows),
+                o.target.as_deref().unwrap_or("")
+            ),
+            OptionKind::Rows => format!("{} rows", thousands(e.new_rows)),
+        };
+        t.row(vec![
+            r.rank.to_string(),
+            o.name.clone(),
+            buys,
+            money(e.cost),
+            change_cell(&e.accuracy_gain, confidence),
+            change_cell(&e.unfairness_reduction, confidence),
+            format!("{:+.5}", r.utility_per_1000),
+            r.cautious_per_1000
+                .map_or("n/a".into(), |v| format!("{v:+.5}")),
+            r.cautious_rank.to_string(),
+        ]);
+    }
+    t.render(&mut out);
+    for o in &report.options {
+        if !o.flags.is_empty() {
+            let _ = writeln!(out, "  {}: {}", o.name, o.flags.join("; "));
+        }
+    }
+
+    for o in report
+        .options
+        .iter()
+        .filter(|o| o.kind == OptionKind::Feature)
+    {
+        let Some(p) = &o.pilot else { continue };
+        let _ = writeln!(
+            out,
+            "\nFeature '{}' ({}): pilot of {} rows ({} training){}",
+            o.name,
+            o.target.as_deref().unwrap_or(""),
+            thousands(p.rows),
+            thousands(p.training_rows),
+            p.mix_p_value.map_or(String::new(), |v| format!(
+                ", group and label mix against the rest: chi-square p = {v:.3}"
+            ))
+        );
+        let _ = writeln!(
+            out,
+            "  on the pilot at its size, with minus without: accuracy {} (Welch p {}), unfairness {} (Welch p {}; negative is fairer)",
+            p.accuracy_difference.as_ref().map_or("n/a".into(), |e| with_interval(Some(e))),
+            p_value(p.accuracy_welch_p),
+            p.unfairness_difference.as_ref().map_or("n/a".into(), |e| with_interval(Some(e))),
+            p_value(p.unfairness_welch_p)
+        );
+        if let Some(d) = &o.direct {
+            let _ = writeln!(
+                out,
+                "  at full size, anchored on today's curve: accuracy {}, unfairness reduction {}\n  the pilot curve extrapolated directly, for comparison: accuracy {}, unfairness reduction {}",
+                change_cell(&o.estimate.accuracy_gain, confidence),
+                change_cell(&o.estimate.unfairness_reduction, confidence),
+                change_cell(&d.accuracy_gain, confidence),
+                change_cell(&d.unfairness_reduction, confidence)
+            );
+        }
+        if let (Some(first), Some(last)) = (o.steps.first(), o.steps.last()) {
+            let step = |s: &crate::report::Purchase| {
+                format!(
+                    "+{} rows (cost {}): accuracy {}, unfairness reduction {}",
+                    thousands(s.new_rows),
+                    money(s.cost),
+                    change_cell(&s.accuracy_gain, confidence),
+                    change_cell(&s.unfairness_reduction, confidence)
+                )
+            };
+            let _ = writeln!(out, "  bought with new rows: {}", step(first));
+            if o.steps.len() > 1 {
+                let _ = writeln!(
+                    out,
+                    "                       {} (every step in the JSON report)",
+                    step(last)
+                );
+            }
+        }
+    }
+    for o in report
+        .options
+        .iter()
+        .filter(|o| o.kind == OptionKind::GroupRows)
+    {
+        let _ = writeln!(
+            out,
+            "\nRows option '{}' ({}): every group's rates move",
+            o.name,
+            o.target.as_deref().unwrap_or("")
+        );
+        let mut t = Table::new(&[
+            "group",
+            "selection rate",
+            "true positive rate",
+            "false positive rate",
+        ]);
+        for g in &o.estimate.groups {
+            t.row(vec![
+                g.group.clone(),
+                change_cell(&g.selection_rate, confidence),
+                change_cell(&g.true_positive_rate, confidence),
+                change_cell(&g.false_positive_rate, confidence),
+            ]);
+        }
+        t.render(&mut out);
+    }
+
+    if !report.held_features.is_empty() {
+        let _ = writeln!(
+            out,
+            "\nFeatures held today: change when dropped (retrained without) or scrambled (permuted on test rows); unfairness on {}",
+            c.fairness.to_uppercase()
+        );
+        let mut t = Table::new(&[
+            "feature",
+            "accuracy if dropped",
+            "unfairness if dropped",
+            "accuracy if scrambled",
+            "unfairness if scrambled",
+        ]);
+        for h in &report.held_features {
+            let cell = |e: &Option<crate::report::Estimate>| {
+                e.as_ref().map_or("n/a".into(), |e| {
+                    format!(
+                        "{}{}",
+                        with_interval(Some(e)),
+                        significance(Some(e), confidence)
+                    )
+                })
+            };
+            t.row(vec![
+                h.feature.clone(),
+                cell(&h.ablation_accuracy),
+                cell(&h.ablation_unfairness),
+                cell(&h.permutation_accuracy),
+                cell(&h.permutation_unfairness),
+            ]);
+        }
+        t.render(&mut out);
+        out.push_str("  a fall in accuracy when dropped is what the feature earns; a rise in unfairness when dropped means it makes the model fairer\n");
+    }
+    out
+}
+
+/// The plan report as terminal text: the appraisal's table, then the plan and the frontier.
+pub fn plan_text(report: &PlanReport) -> String {
+    let mut out = appraisal_body(&report.appraisal);
+    let currency = &report.appraisal.costs.currency;
+    let rules = &report.rules;
+    let _ = writeln!(
+        out,
+        "\nPlan for a budget of {} {currency}{}{}{}",
+        money(rules.budget),
+        if rules.cautious {
+            ", scored by the lower end of each interval"
+        } else {
+            ""
+        },
+        if rules.keep_accuracy {
+            ", accuracy kept at least at today's"
+        } else {
+            ""
+        },
+        if rules.no_adverse_impact {
+            ", no group below four-fifths afterwards"
+        } else {
+            ""
+        }
+    );
+    match &report.explanation {
+        Some(why) => {
+            let _ = writeln!(out, "  buy nothing: {why}");
+        }
+        None => {
+            for line in plan_lines(report) {
+                let _ = writeln!(out, "  - {line}");
+            }
+            let p = &report.plan;
+            let _ = writeln!(
+                out,
+                "  total {} {currency}: accuracy {:+.4}, unfairness reduction {:+.4} (the sum of the options' estimates)",
+                money(p.total_cost),
+                p.accuracy_gain,
+                p.unfairness_reduction
+            );
+        }
+    }
+    let _ = writeln!(out, "  chosen on {}", report.chosen_by);
+    if !report.candidates.is_empty() {
+        out.push_str("\nThe best plans, scored with their options taken together\n");
+        let mut t = Table::new(&[
+            "plan",
+            "cost",
+            "utility (sum)",
+            "utility (joint)",
+            "accuracy (joint)",
+            "unfairness reduction (joint)",
+        ]);
+        for c in &report.candidates {
+            let names: Vec<String> = c.plan.items.iter().map(item_label).collect();
+            let joint = |f: &dyn Fn(&crate::report::JointScore) -> &Change| match (
+                &c.joint,
+                c.plan.items.len(),
+            ) {
+                (Some(j), _) => change_cell(f(j), report.appraisal.inputs.confidence),
+                (None, 1) => "its own estimate".to_string(),
+                (None, _) => "n/a".to_string(),
+            };
+            t.row(vec![
+                names.join(" + "),
+                money(c.plan.total_cost),
+                format!("{:+.4}", c.plan.score),
+                joint(&|j| &j.utility),
+                joint(&|j| &j.accuracy_gain),
+                joint(&|j| &j.unfairness_reduction),
+            ]);
+        }
+        t.render(&mut out);
+        for c in &report.candidates {
+            if let Some(j) = &c.joint {
+                let _ = writeln!(
+                    out,
+                    "  {}: {}",
+                    c.plan
+                        .items
+                        .iter()
+                        .map(|i| i.option.as_str())
+                        .collect::<Vec<_>>()
+                        .join(" + "),
+                    j.method
+                );
+            } else if let (Some(note), true) = (&c.note, c.plan.items.len() > 1) {
+                let _ = writeln!(
+                    out,
+                    "  {}: {}",
+                    c.plan
+                        .items
+                        .iter()
+                        .map(|i| i.option.as_str())
+                        .collect::<Vec<_>>()
+                        .join(" + "),
+                    note
+                );
+            }
+        }
+    }
+    out.push_str("\nBest plan at other budgets\n");
+    let mut t = Table::new(&[
+        "budget",
+        "cost",
+        "buys",
+        "accuracy gain",
+        "unfairness reduction",
+    ]);
+    let mut last = String::new();
+    for point in &report.frontier {
+        let buys: Vec<String> = point.plan.items.iter().map(item_label).collect();
+        let buys = if buys.is_empty() {
+            "nothing".to_string()
+        } else {
+            buys.join(" + ")
+        };
+        if buys == last {
+            continue;
+        }
+        last = buys.clone();
+        t.row(vec![
+            money(point.budget),
+            money(point.plan.total_cost),
+            buys,
+            format!("{:+.4}", point.plan.accuracy_gain),
+            format!("{:+.4}", point.plan.unfairness_reduction),
+        ]);
+    }
+    t.render(&mut out);
+    let _ = writeln!(out, "  gains: {}", report.gain_model);
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// The backtest report as terminal text.
+pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
+    let mut out = String::new();
+    let b = &report.backtest;
+    let inputs = &report.inputs;
+    let confidence = inputs.confidence;
+    let _ = writeln!(
+        out,
+        "Backtest of the appraisal on {} ({} rows), groups by {}: {} round{}, {:.0}% of rows held back{}{}.",
+        inputs.data.path,
+        thousands(inputs.data.rows),
+        inputs.protected,
+        b.rounds,
+        if b.rounds == 1 { "" } else { "s" },
+        b.hold_rows * 100.0,
+        match &b.hold_group {
+            Some(g) => format!(" (also offered as rows of {g} alone)"),
+            None => String::new(),
+        },
+        if b.hold_features.is_empty() {
+            String::new()
+        } else {
+            format!(
+                ", {} blanked outside {:.0}% pilots",
+                b.hold_features.join(", "),
+                b.pilot * 100.0
+            )
+        }
+    );
+    let _ = writeln!(
+        out,
+        "Each option is appraised on what is left, then bought for real and measured with the same trials ({} repeats, {} model).",
+        inputs.repeats, inputs.model
+    );
+    let shown = [Gain::Accuracy, Gain::Fairness(b.fairness)];
+    for quantity in shown {
+        let title = quantity.label();
+        let _ = writeln!(
+            out,
+            "\nPredicted and realised {title} ({:.0}% intervals; * realised differs from 0 at p < {})",
+            confidence * 100.0,
+            report.significance
+        );
+        let mut table = Table::new(&[
+            "round",
+            "option",
+            "acquest",
+            "last anchor",
+            "pilot alone",
+            "realised",
+        ]);
+        for round in &report.rounds {
+            for option in &round.options {
+                if let Some(q) = option.quantities.iter().find(|q| q.quantity == quantity) {
+                    table.row(vec![
+                        (round.round + 1).to_string(),
+                        option.option.clone(),
+                        change_cell(&q.acquest, 1.0),
+                        change_cell(&q.last_anchor, 1.0),
+                        change_cell(&q.pilot_alone, 1.0),
+                        realised_cell(&q.realised, report.significance),
+                    ]);
+                }
+            }
+        }
+        table.render(&mut out);
+    }
+    for summary in report
+        .summary
+        .iter()
+        .filter(|s| shown.contains(&s.quantity))
+    {
+        let _ = writeln!(
+            out,
+            "\nHow well each method did: {} (over every option and round)",
+            summary.quantity.label()
+        );
+        let mut table = Table::new(&[
+            "method",
+            "mean abs. error (pp)",
+            "RMSE net of noise (pp)",
+            "coverage",
+            "signs right",
+            "Spearman (all)",
+            "Spearman (distinct)",
+            "best named",
+        ]);
+        for m in &summary.methods {
+            table.row(vec![
+                m.method.name().to_string(),
+                m.mean_absolute_error_pp
+                    .map_or("n/a".into(), |e| format!("{e:.2}")),
+                m.error_net_of_noise_pp
+                    .map_or("n/a".into(), |e| format!("{e:.2}")),
+                match (m.coverage, m.coverage_allowing_noise) {
+                    (Some(c), Some(n)) => {
+                        format!(
+                            "{:.0}% ({:.0}%) of {}",
+                            c * 100.0,
+                            n * 100.0,
+                            m.with_interval
+                        )
+                    }
+                    _ => "no intervals".into(),
+                },
+                format!("{} of {}", m.sign_correct, m.significant),
+                m.spearman_all.map_or("n/a".into(), |r| format!("{r:.2}")),
+                match m.spearman_distinct {
+                    Some(r) => format!("{r:.2} in {} rounds", m.distinct_rounds),
+                    None => "n/a (none distinct)".into(),
+                },
+                format!(
+                    "{} of {} ({} or tied)",
+                    m.best_named, m.rounds_compared, m.best_named_or_tied
+                ),
+            ]);
+        }
+        table.render(&mut out);
+        let _ = writeln!(
+            out,
+            "  Nominal coverage {:.0}%. The realised value is itself measured with noise, so even exact intervals cover it less often than nominal; in brackets, the coverage with that noise allowed for.",
+            summary.nominal_coverage * 100.0
+        );
+    }
+    out.push_str("\nTargets\n");
+    for t in &report.targets {
+        let _ = writeln!(
+            out,
+            "  [{}] {}: {}",
+            if t.met { "met" } else { "not met" },
+            t.target,
+            t.figure
+        );
+    }
+    out.push_str("\nMethods\n");
+    for m in &report.methods {
+        let _ = writeln!(out, "  - {}: {}", m.method.name(), m.description);
+    }
+    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    out
+}
+
+/// "0.8512 [0.8490, 0.8534]" for a point on a curve, with "!" when beyond the reliable reach.
+fn curve_cell(p: Option<&CurvePoint>) -> String {
+    match p {
+        None => "n/a".into(),
+        Some(p) => {
+            let mark = if p.unreliable { " !" } else { "" };
+            match (p.low, p.high) {
+                (Some(l), Some(h)) => {
+                    format!("{} [{}, {}]{mark}", number(p.value), number(l), number(h))
+                }
+                _ => format!("{}{mark}", number(p.value)),
+            }
+        }
+    }
+}
+
+/// A realised gain with its interval, marked when significant at the backtest's level.
+fn realised_cell(r: &crate::report::RealisedGain, significance: f64) -> String {
+    signed_cell(
+        r.mean,
+        r.low,
+        r.high,
+        r.p_value.is_some_and(|p| p < significance),
+    )
+}
+
+fn warnings_and_cautions(out: &mut String, warnings: &[String], cautions: &[String]) {
+    if !warnings.is_empty() {
+        out.push_str("\nWarnings\n");
+        for w in warnings {
+            let _ = writeln!(out, "  - {w}");
+        }
+    }
+    out.push_str("\nCautions\n");
+    for c in cautions {
+        let _ = writeln!(out, "  - {c}");
+    }
+}
