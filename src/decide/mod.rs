@@ -1,4 +1,5 @@
 //! Decisions from the appraisal: the budgeted selection of options and the frontier of plans.
 
 pub mod plan;
+pub mod problem;
 pub mod select;

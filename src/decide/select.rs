@@ -3,7 +3,7 @@
 //! score) without floors, branch and bound with the floors; and the enumeration of every subset
 //! that both are checked against.
 
-use super::plan::{four_fifths_hold, Value};
+use super::problem::{four_fifths_hold, Value};
 use crate::stats::metrics::FOUR_FIFTHS;
 
 /// A subset found: (cost, score, the items chosen in index order).

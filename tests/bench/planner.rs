@@ -5,7 +5,8 @@
 
 use std::time::Instant;
 
-use acquest::decide::plan::{frontier, Problem, Shape, FRONTIER_POINTS};
+use acquest::decide::plan::{frontier, FRONTIER_POINTS};
+use acquest::decide::problem::{Problem, Shape};
 use acquest::engine::streams::{stream_rng, Stream};
 use acquest::report::PlanRules;
 
