@@ -26,3 +26,30 @@ pub mod settings;
 pub mod stats;
 
 pub use error::{Error, Result};
+
+#[cfg(test)]
+mod tests {
+    /// The output contract and its renderers name nothing that computes, so that an edit to an
+    /// estimator or the solver cannot change a report's shape or a chart unseen.
+    #[test]
+    fn the_contract_and_the_renderers_use_only_the_contract() {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
+        for folder in ["report", "render"] {
+            for entry in std::fs::read_dir(root.join(folder)).unwrap() {
+                let path = entry.unwrap().path();
+                let text = std::fs::read_to_string(&path).unwrap();
+                for (at, _) in text.match_indices("crate::") {
+                    let rest = &text[at + "crate::".len()..];
+                    assert!(
+                        rest.starts_with("report"),
+                        "{} names crate::{}",
+                        path.display(),
+                        rest.split(|c: char| !c.is_alphanumeric() && c != '_')
+                            .next()
+                            .unwrap_or("")
+                    );
+                }
+            }
+        }
+    }
+}

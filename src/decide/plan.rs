@@ -2,7 +2,8 @@
 //! best plans as the budget grows, and the best few plans re-scored with their options taken
 //! together.
 
-use super::problem::{four_fifths_hold, Problem};
+use super::problem::Problem;
+use super::select::four_fifths_hold;
 use crate::error::Result;
 use crate::report::{Candidate, FrontierPoint, Plan, PlanRules};
 

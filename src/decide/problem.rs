@@ -3,7 +3,7 @@
 //! additive gain model (every combination of rows steps, the best subset of features for each,
 //! under the floors), and a generator of random problems for checks and benchmarks.
 
-use super::select::{self, Floors};
+use super::select::{self, Floors, Value};
 use crate::data::costs::{Acquisition, CostOption};
 use crate::error::{Error, Result};
 use crate::report::{
@@ -20,17 +20,6 @@ impl Plan {
             score: 0.0,
         }
     }
-}
-
-/// The values the solver works with for one choice of one option.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Value {
-    /// Accuracy gain.
-    pub accuracy: f64,
-    /// Unfairness reduction.
-    pub fairness: f64,
-    /// What the plan maximises: the utility, or its lower end when cautious.
-    pub score: f64,
 }
 
 fn value_of(p: &Purchase, cautious: bool) -> Value {
@@ -119,16 +108,6 @@ pub struct Problem {
     /// Subset searches under floors that stopped at the node limit (their plans are the best
     /// found, not proven best).
     pub(super) searches_cut_short: std::cell::Cell<usize>,
-}
-
-/// Whether every group's selection rate is at least four-fifths of the highest (29 CFR
-/// 1607.4(D): adverse impact only when strictly below).
-pub(crate) fn four_fifths_hold(rates: &[f64]) -> bool {
-    let top = rates.iter().copied().fold(0.0, f64::max);
-    top <= 0.0
-        || rates
-            .iter()
-            .all(|&r| r / top >= crate::stats::metrics::FOUR_FIFTHS)
 }
 
 /// The shape of a random problem ([`Problem::synthetic`]).

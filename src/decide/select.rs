@@ -3,8 +3,28 @@
 //! score) without floors, branch and bound with the floors; and the enumeration of every subset
 //! that both are checked against.
 
-use super::problem::{four_fifths_hold, Value};
 use crate::stats::metrics::FOUR_FIFTHS;
+
+/// The values the solver works with for one choice of one option.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Value {
+    /// Accuracy gain.
+    pub accuracy: f64,
+    /// Unfairness reduction.
+    pub fairness: f64,
+    /// What the plan maximises: the utility, or its lower end when cautious.
+    pub score: f64,
+}
+
+/// Whether every group's selection rate is at least four-fifths of the highest (29 CFR
+/// 1607.4(D): adverse impact only when strictly below).
+pub(crate) fn four_fifths_hold(rates: &[f64]) -> bool {
+    let top = rates.iter().copied().fold(0.0, f64::max);
+    top <= 0.0
+        || rates
+            .iter()
+            .all(|&r| r / top >= crate::stats::metrics::FOUR_FIFTHS)
+}
 
 /// A subset found: (cost, score, the items chosen in index order).
 pub type Subset = (f64, f64, Vec<usize>);

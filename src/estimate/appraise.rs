@@ -17,7 +17,7 @@ use super::held::held_features;
 use super::pilot::{self, measure_pilot, PilotMeasurement};
 use super::rank::rank;
 use super::rows;
-use super::score::{anchored, overlap_spread, Scorer, Valuation};
+use super::score::{anchored, overlap_spread, OptionReadings, Scorer, Valuation};
 
 /// Runs `acquest appraise`.
 pub fn run(
@@ -38,23 +38,6 @@ pub struct Appraiser {
     training_now: f64,
     options: Vec<CostOption>,
     readings: Vec<OptionReadings>,
-}
-
-/// The readings behind an option's headline estimate, kept so that the gains can be scored
-/// again under another fairness measure (the backtest does), with two simpler estimates beside.
-#[derive(Debug, Clone)]
-pub struct OptionReadings {
-    /// Before the purchase (today's curve, or for rows of one group that group's curve).
-    pub now: Reading,
-    /// After it, as acquest estimates.
-    pub after: Reading,
-    /// After it with no extrapolation: what the last measured anchor shows (for rows, nothing
-    /// is measured beyond today, so no change; for a feature, the with-minus-without difference
-    /// measured at the pilot's full size, carried over).
-    pub last_anchor: Reading,
-    /// After it by the pilot's with-feature curve alone, read at today's training rows (features
-    /// with a pilot curve only).
-    pub direct: Option<Reading>,
 }
 
 impl Appraiser {

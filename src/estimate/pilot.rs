@@ -2,8 +2,7 @@
 //! splits (paired), its difference fitted as curves and anchored on today's curve, or carried
 //! over from the pilot's own size when the pilot is too small for a curve.
 
-use super::appraise::OptionReadings;
-use super::score::{anchored, difference_of, option_flags, Scorer, Valuation};
+use super::score::{anchored, difference_of, option_flags, OptionReadings, Scorer, Valuation};
 use crate::data::costs::{self, CostOption};
 use crate::data::{Column, Dataset};
 use crate::engine::streams::{stream_rng, Stream};

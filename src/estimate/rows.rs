@@ -1,8 +1,7 @@
 //! Rows options: more rows of any group read off today's learning curves, and more rows of one
 //! group off curves in which only that group's training rows grow.
 
-use super::appraise::OptionReadings;
-use super::score::{empty_purchase, option_flags, Valuation};
+use super::score::{empty_purchase, option_flags, OptionReadings, Valuation};
 use crate::data::costs::CostOption;
 use crate::data::Dataset;
 use crate::engine::streams::{stream_rng, Stream};

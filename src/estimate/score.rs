@@ -225,6 +225,23 @@ pub(super) fn empty_purchase() -> Purchase {
     }
 }
 
+/// The readings behind an option's headline estimate, kept so that the gains can be scored
+/// again under another fairness measure (the backtest does), with two simpler estimates beside.
+#[derive(Debug, Clone)]
+pub struct OptionReadings {
+    /// Before the purchase (today's curve, or for rows of one group that group's curve).
+    pub now: Reading,
+    /// After it, as acquest estimates.
+    pub after: Reading,
+    /// After it with no extrapolation: what the last measured anchor shows (for rows, nothing
+    /// is measured beyond today, so no change; for a feature, the with-minus-without difference
+    /// measured at the pilot's full size, carried over).
+    pub last_anchor: Reading,
+    /// After it by the pilot's with-feature curve alone, read at today's training rows (features
+    /// with a pilot curve only).
+    pub direct: Option<Reading>,
+}
+
 /// What every option is valued against: today's data and curves, read at today's training
 /// rows, and the scorer that turns readings into gains.
 pub(super) struct Valuation<'a> {
