@@ -33,6 +33,23 @@ fn shared(path: &str) -> Option<PathBuf> {
     }
 }
 
+/// The flags that read an Adult file: no header, the income label, sex as the protected column.
+fn adult_flags(data: &str) -> Vec<&str> {
+    vec![
+        "--data",
+        data,
+        "--no-header",
+        "--columns",
+        ADULT_COLUMNS,
+        "--target",
+        "income",
+        "--favourable",
+        ">50K",
+        "--protected",
+        "sex",
+    ]
+}
+
 fn acquest() -> Command {
     let mut cmd = Command::cargo_bin("acquest").unwrap();
     cmd.env_remove("RAYON_NUM_THREADS");

@@ -5,7 +5,7 @@
 
 use std::path::Path;
 
-use super::{acquest, shared, ADULT_COLUMNS};
+use super::{acquest, adult_flags, shared};
 
 /// Compares `produced` (a report just written) with the committed golden copy `name`, or
 /// rewrites the copy under `ACQUEST_BLESS`.
@@ -122,32 +122,20 @@ fn golden_plan_on_the_adult_benchmark_file() {
         .status()
         .unwrap();
     assert!(status.success(), "tests/bench/adult-pilot.sh failed");
-    run_in(
-        dir.path(),
-        &[
-            "plan",
-            "--data",
-            "adult-pilot.csv",
-            "--no-header",
-            "--columns",
-            ADULT_COLUMNS,
-            "--target",
-            "income",
-            "--favourable",
-            ">50K",
-            "--protected",
-            "sex",
-            "--costs",
-            "costs.csv",
-            "--budget",
-            "40000",
-            "--repeats",
-            "5",
-            "--quiet",
-            "--no-project",
-            "--json",
-            "plan.json",
-        ],
-    );
+    let mut args = vec!["plan"];
+    args.extend(adult_flags("adult-pilot.csv"));
+    args.extend([
+        "--costs",
+        "costs.csv",
+        "--budget",
+        "40000",
+        "--repeats",
+        "5",
+        "--quiet",
+        "--no-project",
+        "--json",
+        "plan.json",
+    ]);
+    run_in(dir.path(), &args);
     check("adult-plan.json", &dir.path().join("plan.json"));
 }
