@@ -723,94 +723,155 @@ pub fn fit_curves(
     let grid: Vec<f64> = (0..GRID_POINTS)
         .map(|k| sizes_f[0] * (reach / sizes_f[0]).powf(k as f64 / (GRID_POINTS - 1) as f64))
         .collect();
-    let point = |size: f64, value: f64, band: Option<(f64, f64)>| CurvePoint {
-        size,
-        value,
-        low: band.map(|b| b.0),
-        high: band.map(|b| b.1),
-        extrapolated: size > top * 1.000_001,
-        unreliable: size > RELIABLE_MULTIPLE * top,
+    let reader = PointReader {
+        top,
+        tail: (1.0 - confidence) / 2.0,
+        grid,
+        requested: requested.to_vec(),
     };
-    let tail = (1.0 - confidence) / 2.0;
-    let band_of = |mut values: Vec<f64>| -> Option<(f64, f64)> {
+    let curves = quantities
+        .iter()
+        .zip(&fits)
+        .map(|(&q, f)| curve_record(data, q, f, &reader, sizes, &mut warnings))
+        .collect();
+    let disparities = disparity_curves(data, &fits, &reader, outcomes, sizes, label_counts);
+    FittedCurves {
+        sizes: sizes.to_vec(),
+        curves,
+        disparities,
+        held_back,
+        warnings,
+        fits,
+    }
+}
+
+/// How curves are read for the report: at the chart grid and the requested sizes, each value
+/// with its bootstrap band, flagged beyond the largest anchor (`top`) and beyond 4x it.
+struct PointReader {
+    top: f64,
+    /// The share of draws left out at each end of a band.
+    tail: f64,
+    grid: Vec<f64>,
+    requested: Vec<f64>,
+}
+
+impl PointReader {
+    fn point(&self, size: f64, value: f64, band: Option<(f64, f64)>) -> CurvePoint {
+        CurvePoint {
+            size,
+            value,
+            low: band.map(|b| b.0),
+            high: band.map(|b| b.1),
+            extrapolated: size > self.top * 1.000_001,
+            unreliable: size > RELIABLE_MULTIPLE * self.top,
+        }
+    }
+
+    fn band(&self, mut values: Vec<f64>) -> Option<(f64, f64)> {
         if values.len() < 2 {
             return None;
         }
         Some((
-            curve::quantile(&mut values, tail)?,
-            curve::quantile(&mut values, 1.0 - tail)?,
+            curve::quantile(&mut values, self.tail)?,
+            curve::quantile(&mut values, 1.0 - self.tail)?,
         ))
-    };
-    let clip = |q: Quantity, v: f64| {
-        if q == Quantity::Accuracy || q.group().is_some() {
-            v.clamp(0.0, 1.0)
-        } else {
-            v
-        }
-    };
-
-    let mut curves = Vec::new();
-    for (&q, f) in quantities.iter().zip(&fits) {
-        let read_at = |at: &[f64]| -> Vec<CurvePoint> {
-            let Some(choice) = &f.choice else {
-                return Vec::new();
-            };
-            at.iter()
-                .map(|&n| {
-                    let reps: Vec<f64> = f
-                        .replicates
-                        .iter()
-                        .flatten()
-                        .map(|r| clip(q, r.predict(n)))
-                        .collect();
-                    point(n, clip(q, choice.fit().predict(n)), band_of(reps))
-                })
-                .collect()
-        };
-        if f.choice.is_none() {
-            warnings.push(format!(
-                "no curve could be fitted to the {}{}: too few sizes where it is defined",
-                q.name(),
-                q.group()
-                    .map(|g| format!(" of group '{}'", data.group_list[g].name))
-                    .unwrap_or_default()
-            ));
-        }
-        curves.push(CurveRecord {
-            quantity: q.name().into(),
-            group: q.group().map(|g| data.group_list[g].name.clone()),
-            anchors: anchors(&f.per_repeat, sizes),
-            families: f
-                .choice
-                .as_ref()
-                .map(|c| {
-                    c.candidates
-                        .iter()
-                        .map(|(fit, error)| FamilyFit {
-                            family: fit.family,
-                            formula: fit.family.formula().into(),
-                            parameters: fit
-                                .parameters()
-                                .map(|p| if p.is_finite() { p } else { 0.0 }),
-                            rss: fit.rss.is_finite().then_some(fit.rss),
-                            forecast_error: *error,
-                            status: fit.status,
-                        })
-                        .collect()
-                })
-                .unwrap_or_default(),
-            chosen: f.choice.as_ref().map(|c| c.fit().family),
-            asymptote: f
-                .choice
-                .as_ref()
-                .and_then(|c| c.fit().level_reached_from(top))
-                .map(|a| clip(q, a)),
-            grid: read_at(&grid),
-            at: read_at(requested),
-        });
     }
+}
 
-    // Disparities from the fitted rates of each compared group and the reference.
+/// A quantity's values are rates or accuracy: clipped to [0, 1].
+fn clip(q: Quantity, v: f64) -> f64 {
+    if q == Quantity::Accuracy || q.group().is_some() {
+        v.clamp(0.0, 1.0)
+    } else {
+        v
+    }
+}
+
+/// One quantity's fitted curve as the report shows it (a warning where none could be fitted).
+fn curve_record(
+    data: &Dataset,
+    q: Quantity,
+    f: &QuantityFit,
+    reader: &PointReader,
+    sizes: &[usize],
+    warnings: &mut Vec<String>,
+) -> CurveRecord {
+    let (top, point) = (reader.top, |n, v, b| reader.point(n, v, b));
+    let band_of = |values| reader.band(values);
+    let (grid, requested) = (&reader.grid, &reader.requested);
+    let read_at = |at: &[f64]| -> Vec<CurvePoint> {
+        let Some(choice) = &f.choice else {
+            return Vec::new();
+        };
+        at.iter()
+            .map(|&n| {
+                let reps: Vec<f64> = f
+                    .replicates
+                    .iter()
+                    .flatten()
+                    .map(|r| clip(q, r.predict(n)))
+                    .collect();
+                point(n, clip(q, choice.fit().predict(n)), band_of(reps))
+            })
+            .collect()
+    };
+    if f.choice.is_none() {
+        warnings.push(format!(
+            "no curve could be fitted to the {}{}: too few sizes where it is defined",
+            q.name(),
+            q.group()
+                .map(|g| format!(" of group '{}'", data.group_list[g].name))
+                .unwrap_or_default()
+        ));
+    }
+    CurveRecord {
+        quantity: q.name().into(),
+        group: q.group().map(|g| data.group_list[g].name.clone()),
+        anchors: anchors(&f.per_repeat, sizes),
+        families: f
+            .choice
+            .as_ref()
+            .map(|c| {
+                c.candidates
+                    .iter()
+                    .map(|(fit, error)| FamilyFit {
+                        family: fit.family,
+                        formula: fit.family.formula().into(),
+                        parameters: fit
+                            .parameters()
+                            .map(|p| if p.is_finite() { p } else { 0.0 }),
+                        rss: fit.rss.is_finite().then_some(fit.rss),
+                        forecast_error: *error,
+                        status: fit.status,
+                    })
+                    .collect()
+            })
+            .unwrap_or_default(),
+        chosen: f.choice.as_ref().map(|c| c.fit().family),
+        asymptote: f
+            .choice
+            .as_ref()
+            .and_then(|c| c.fit().level_reached_from(top))
+            .map(|a| clip(q, a)),
+        grid: read_at(grid),
+        at: read_at(requested),
+    }
+}
+
+/// The disparity measures of each compared group against the reference, derived from the
+/// fitted group rates (and measured at every anchor).
+fn disparity_curves(
+    data: &Dataset,
+    fits: &[QuantityFit],
+    reader: &PointReader,
+    outcomes: &[Vec<TrialOutcome>],
+    sizes: &[usize],
+    label_counts: &[GroupCounts],
+) -> Vec<DisparityCurve> {
+    let group_count = data.group_list.len();
+    let (top, point) = (reader.top, |n, v, b| reader.point(n, v, b));
+    let band_of = |values| reader.band(values);
+    let (grid, requested) = (&reader.grid, &reader.requested);
     // A group's three rates, as (selection, true positive, false positive) positions of `fits`.
     let rate_index = |g: usize, k: usize| {
         [
@@ -904,19 +965,12 @@ pub fn fit_curves(
                 ),
                 anchors: anchors(&measured, sizes),
                 asymptote,
-                grid: read_at(&grid),
+                grid: read_at(grid),
                 at: read_at(requested),
             });
         }
     }
-    FittedCurves {
-        sizes: sizes.to_vec(),
-        curves,
-        disparities,
-        held_back,
-        warnings,
-        fits,
-    }
+    disparities
 }
 
 /// Mean, spread and range over repeats at each size; sizes where no repeat defines the value
