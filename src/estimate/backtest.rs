@@ -629,10 +629,23 @@ fn summarise(
         })
         .filter(|e| e.record.realised.mean.is_finite())
         .collect();
-    // In every round, a chain of options whose realised gains differ significantly from each
-    // other: walk them from the lowest realised gain up, keeping each that differs from every
-    // one kept.
-    let chains: Vec<Vec<usize>> = rounds
+    let chains = distinct_chains(rounds, &entries, confidence);
+    let methods = Method::ALL
+        .into_iter()
+        .map(|m| method_summary(m, rounds, &entries, &chains, confidence))
+        .collect();
+    QuantitySummary {
+        quantity,
+        nominal_coverage: confidence,
+        methods,
+    }
+}
+
+/// In every round, a chain of options whose realised gains differ significantly from each
+/// other: walk them from the lowest realised gain up, keeping each that differs from every one
+/// kept.
+fn distinct_chains(rounds: &[RoundRecord], entries: &[Entry], confidence: f64) -> Vec<Vec<usize>> {
+    rounds
         .iter()
         .map(|round| {
             let mut here: Vec<usize> = (0..entries.len())
@@ -656,144 +669,144 @@ fn summarise(
             }
             chain
         })
+        .collect()
+}
+
+/// How well one method did over every option-round of one quantity: errors, coverage, signs,
+/// rank correlation within rounds, and the best option named.
+fn method_summary(
+    m: Method,
+    rounds: &[RoundRecord],
+    entries: &[Entry],
+    chains: &[Vec<usize>],
+    confidence: f64,
+) -> MethodSummary {
+    let predicted = |e: &Entry| e.record.predicted(m).mean;
+    let realised = |e: &Entry| e.record.realised.mean;
+    let errors: Vec<f64> = entries
+        .iter()
+        .map(|e| (predicted(e) - realised(e)).abs() * 100.0)
         .collect();
-    let methods = Method::ALL
-        .into_iter()
-        .map(|m| {
-            let predicted = |e: &Entry| e.record.predicted(m).mean;
-            let realised = |e: &Entry| e.record.realised.mean;
-            let errors: Vec<f64> = entries
-                .iter()
-                .map(|e| (predicted(e) - realised(e)).abs() * 100.0)
-                .collect();
-            let net = {
-                let squared: Vec<f64> = entries
-                    .iter()
-                    .map(|e| {
-                        let se = e.record.realised.standard_error.unwrap_or(0.0);
-                        (predicted(e) - realised(e)).powi(2) - se * se
-                    })
-                    .collect();
-                (!squared.is_empty()).then(|| {
-                    (squared.iter().sum::<f64>() / squared.len() as f64)
-                        .max(0.0)
-                        .sqrt()
-                        * 100.0
-                })
-            };
-            let with_interval: Vec<&Entry> = entries
-                .iter()
-                .filter(|e| {
-                    let c = e.record.predicted(m);
-                    c.low.is_some() && c.high.is_some()
-                })
-                .collect();
-            let covered = with_interval
-                .iter()
-                .filter(|e| {
-                    let c = e.record.predicted(m);
-                    let r = realised(e);
-                    c.low.is_some_and(|l| l <= r) && c.high.is_some_and(|h| r <= h)
-                })
-                .count();
-            let z = statrs::distribution::Normal::new(0.0, 1.0)
-                .map(|n| {
-                    use statrs::distribution::ContinuousCDF;
-                    n.inverse_cdf(0.5 + confidence / 2.0)
-                })
-                .unwrap_or(1.645);
-            let covered_allowing_noise = with_interval
-                .iter()
-                .filter(|e| {
-                    let c = e.record.predicted(m);
-                    let r = realised(e);
-                    let noise = z * e.record.realised.standard_error.unwrap_or(0.0);
-                    let widen = |side: f64| (side * side + noise * noise).sqrt();
-                    match (c.low, c.high) {
-                        (Some(l), Some(h)) => {
-                            c.mean - widen(c.mean - l) <= r && r <= c.mean + widen(h - c.mean)
-                        }
-                        _ => false,
-                    }
-                })
-                .count();
-            let significant: Vec<&Entry> = entries
-                .iter()
-                .filter(|e| e.record.realised.p_value.is_some_and(|p| p < SIGNIFICANCE))
-                .collect();
-            let sign_correct = significant
-                .iter()
-                .filter(|e| predicted(e).signum() == realised(e).signum() && predicted(e) != 0.0)
-                .count();
-            // Spearman's correlation within each round (the options a user would rank), averaged
-            // over the rounds where it is defined.
-            let within = |sets: &mut dyn Iterator<Item = Vec<usize>>| -> Option<f64> {
-                let values: Vec<f64> = sets
-                    .filter_map(|set| {
-                        let (p, r): (Vec<f64>, Vec<f64>) = set
-                            .iter()
-                            .map(|&i| (predicted(&entries[i]), realised(&entries[i])))
-                            .unzip();
-                        metrics::spearman(&p, &r)
-                    })
-                    .collect();
-                (!values.is_empty()).then(|| values.iter().sum::<f64>() / values.len() as f64)
-            };
-            let spearman_all = within(&mut rounds.iter().map(|round| {
-                (0..entries.len())
-                    .filter(|&i| entries[i].round == round.round)
-                    .collect()
-            }));
-            let spearman_distinct = within(&mut chains.iter().cloned());
-            let (mut named, mut tied, mut compared) = (0, 0, 0);
-            for round in rounds {
-                let here: Vec<&Entry> = entries.iter().filter(|e| e.round == round.round).collect();
-                if here.len() < 2 {
-                    continue;
-                }
-                compared += 1;
-                let best = |f: &dyn Fn(&Entry) -> f64| {
-                    (0..here.len())
-                        .max_by(|&a, &b| f(here[a]).total_cmp(&f(here[b])).then(b.cmp(&a)))
-                        .unwrap_or(0)
-                };
-                let (chosen, truly) = (best(&predicted), best(&realised));
-                if chosen == truly {
-                    named += 1;
-                    tied += 1;
-                } else if !differ(here[chosen], here[truly], confidence) {
-                    tied += 1;
-                }
-            }
-            MethodSummary {
-                method: m,
-                entries: entries.len(),
-                mean_absolute_error_pp: (!errors.is_empty())
-                    .then(|| errors.iter().sum::<f64>() / errors.len() as f64),
-                error_net_of_noise_pp: net,
-                with_interval: with_interval.len(),
-                covered,
-                coverage: (!with_interval.is_empty())
-                    .then(|| covered as f64 / with_interval.len() as f64),
-                covered_allowing_noise,
-                coverage_allowing_noise: (!with_interval.is_empty())
-                    .then(|| covered_allowing_noise as f64 / with_interval.len() as f64),
-                significant: significant.len(),
-                sign_correct,
-                spearman_all,
-                spearman_distinct,
-                distinct_entries: chains.iter().map(Vec::len).sum(),
-                distinct_rounds: chains.iter().filter(|c| c.len() >= 2).count(),
-                best_named: named,
-                best_named_or_tied: tied,
-                rounds_compared: compared,
-            }
+    let net = {
+        let squared: Vec<f64> = entries
+            .iter()
+            .map(|e| {
+                let se = e.record.realised.standard_error.unwrap_or(0.0);
+                (predicted(e) - realised(e)).powi(2) - se * se
+            })
+            .collect();
+        (!squared.is_empty()).then(|| {
+            (squared.iter().sum::<f64>() / squared.len() as f64)
+                .max(0.0)
+                .sqrt()
+                * 100.0
+        })
+    };
+    let with_interval: Vec<&Entry> = entries
+        .iter()
+        .filter(|e| {
+            let c = e.record.predicted(m);
+            c.low.is_some() && c.high.is_some()
         })
         .collect();
-    QuantitySummary {
-        quantity,
-        nominal_coverage: confidence,
-        methods,
+    let covered = with_interval
+        .iter()
+        .filter(|e| {
+            let c = e.record.predicted(m);
+            let r = realised(e);
+            c.low.is_some_and(|l| l <= r) && c.high.is_some_and(|h| r <= h)
+        })
+        .count();
+    let z = statrs::distribution::Normal::new(0.0, 1.0)
+        .map(|n| {
+            use statrs::distribution::ContinuousCDF;
+            n.inverse_cdf(0.5 + confidence / 2.0)
+        })
+        .unwrap_or(1.645);
+    let covered_allowing_noise = with_interval
+        .iter()
+        .filter(|e| {
+            let c = e.record.predicted(m);
+            let r = realised(e);
+            let noise = z * e.record.realised.standard_error.unwrap_or(0.0);
+            let widen = |side: f64| (side * side + noise * noise).sqrt();
+            match (c.low, c.high) {
+                (Some(l), Some(h)) => {
+                    c.mean - widen(c.mean - l) <= r && r <= c.mean + widen(h - c.mean)
+                }
+                _ => false,
+            }
+        })
+        .count();
+    let significant: Vec<&Entry> = entries
+        .iter()
+        .filter(|e| e.record.realised.p_value.is_some_and(|p| p < SIGNIFICANCE))
+        .collect();
+    let sign_correct = significant
+        .iter()
+        .filter(|e| predicted(e).signum() == realised(e).signum() && predicted(e) != 0.0)
+        .count();
+    // Spearman's correlation within each round (the options a user would rank), averaged
+    // over the rounds where it is defined.
+    let within = |sets: &mut dyn Iterator<Item = Vec<usize>>| -> Option<f64> {
+        let values: Vec<f64> = sets
+            .filter_map(|set| {
+                let (p, r): (Vec<f64>, Vec<f64>) = set
+                    .iter()
+                    .map(|&i| (predicted(&entries[i]), realised(&entries[i])))
+                    .unzip();
+                metrics::spearman(&p, &r)
+            })
+            .collect();
+        (!values.is_empty()).then(|| values.iter().sum::<f64>() / values.len() as f64)
+    };
+    let spearman_all = within(&mut rounds.iter().map(|round| {
+        (0..entries.len())
+            .filter(|&i| entries[i].round == round.round)
+            .collect()
+    }));
+    let spearman_distinct = within(&mut chains.iter().cloned());
+    let (mut named, mut tied, mut compared) = (0, 0, 0);
+    for round in rounds {
+        let here: Vec<&Entry> = entries.iter().filter(|e| e.round == round.round).collect();
+        if here.len() < 2 {
+            continue;
+        }
+        compared += 1;
+        let best = |f: &dyn Fn(&Entry) -> f64| {
+            (0..here.len())
+                .max_by(|&a, &b| f(here[a]).total_cmp(&f(here[b])).then(b.cmp(&a)))
+                .unwrap_or(0)
+        };
+        let (chosen, truly) = (best(&predicted), best(&realised));
+        if chosen == truly {
+            named += 1;
+            tied += 1;
+        } else if !differ(here[chosen], here[truly], confidence) {
+            tied += 1;
+        }
+    }
+    MethodSummary {
+        method: m,
+        entries: entries.len(),
+        mean_absolute_error_pp: (!errors.is_empty())
+            .then(|| errors.iter().sum::<f64>() / errors.len() as f64),
+        error_net_of_noise_pp: net,
+        with_interval: with_interval.len(),
+        covered,
+        coverage: (!with_interval.is_empty()).then(|| covered as f64 / with_interval.len() as f64),
+        covered_allowing_noise,
+        coverage_allowing_noise: (!with_interval.is_empty())
+            .then(|| covered_allowing_noise as f64 / with_interval.len() as f64),
+        significant: significant.len(),
+        sign_correct,
+        spearman_all,
+        spearman_distinct,
+        distinct_entries: chains.iter().map(Vec::len).sum(),
+        distinct_rounds: chains.iter().filter(|c| c.len() >= 2).count(),
+        best_named: named,
+        best_named_or_tied: tied,
+        rounds_compared: compared,
     }
 }
 
