@@ -961,41 +961,53 @@ fn form_groups(
     rules: Option<&[crate::settings::GroupRule]>,
     warnings: &mut Vec<Warning>,
 ) -> Result<(Vec<Option<u32>>, Vec<Group>)> {
-    let column = &protected.name;
     let Some(rules) = rules else {
-        // One group per distinct value, named by the value, in order of first appearance.
-        let mut index: BTreeMap<String, u32> = BTreeMap::new();
-        let mut order: Vec<String> = Vec::new();
-        let mut groups = Vec::with_capacity(protected.len());
-        for i in 0..protected.len() {
-            groups.push(protected.text(i).map(|v| {
-                *index.entry(v.clone()).or_insert_with(|| {
-                    order.push(v);
-                    (order.len() - 1) as u32
-                })
-            }));
-        }
-        if order.len() > MAX_IMPLICIT_GROUPS {
-            return Err(Error::setting(
-                "--protected",
-                format!(
-                    "column '{column}' has {} distinct values; form groups with --groups, e.g. \
-                     --groups 'under 25=<25;25 and over=>=25' or 'a=x,y;b=*'",
-                    order.len()
-                ),
-            ));
-        }
-        let list = order
-            .into_iter()
-            .map(|v| Group {
-                definition: format!("{column} = {v}"),
-                name: v,
-            })
-            .collect();
-        return Ok((groups, list));
+        return groups_by_value(protected);
     };
+    check_rules(protected, rules, warnings)?;
+    let groups = assign_groups(protected, rules)?;
+    Ok((groups, group_definitions(&protected.name, rules)))
+}
 
-    let list: Vec<Group> = rules
+/// One group per distinct value of the protected column, named by the value, in order of first
+/// appearance (too many values is an error that suggests `--groups`).
+fn groups_by_value(protected: &Column) -> Result<(Vec<Option<u32>>, Vec<Group>)> {
+    let column = &protected.name;
+    // One group per distinct value, named by the value, in order of first appearance.
+    let mut index: BTreeMap<String, u32> = BTreeMap::new();
+    let mut order: Vec<String> = Vec::new();
+    let mut groups = Vec::with_capacity(protected.len());
+    for i in 0..protected.len() {
+        groups.push(protected.text(i).map(|v| {
+            *index.entry(v.clone()).or_insert_with(|| {
+                order.push(v);
+                (order.len() - 1) as u32
+            })
+        }));
+    }
+    if order.len() > MAX_IMPLICIT_GROUPS {
+        return Err(Error::setting(
+            "--protected",
+            format!(
+                "column '{column}' has {} distinct values; form groups with --groups, e.g. \
+                 --groups 'under 25=<25;25 and over=>=25' or 'a=x,y;b=*'",
+                order.len()
+            ),
+        ));
+    }
+    let list = order
+        .into_iter()
+        .map(|v| Group {
+            definition: format!("{column} = {v}"),
+            name: v,
+        })
+        .collect();
+    Ok((groups, list))
+}
+
+/// The groups of `--groups` rules, each with how it is formed from the protected `column`.
+fn group_definitions(column: &str, rules: &[crate::settings::GroupRule]) -> Vec<Group> {
+    rules
         .iter()
         .map(|r| Group {
             name: r.name.clone(),
@@ -1017,8 +1029,17 @@ fn form_groups(
                 Membership::Compare { op, value } => format!("{column} {} {value}", op.symbol()),
             },
         })
-        .collect();
-    // Check that every listed code exists, so a typo is not silently an empty group.
+        .collect()
+}
+
+/// Checks `--groups` rules against the column: every listed code exists (a typo is not silently
+/// an empty group; some absent codes of a group are warnings), and comparisons are on numbers.
+fn check_rules(
+    protected: &Column,
+    rules: &[crate::settings::GroupRule],
+    warnings: &mut Vec<Warning>,
+) -> Result<()> {
+    let column = &protected.name;
     let present: Vec<String> = {
         let mut seen: BTreeMap<String, ()> = BTreeMap::new();
         for i in 0..protected.len() {
@@ -1058,6 +1079,16 @@ fn form_groups(
             ));
         }
     }
+    Ok(())
+}
+
+/// Each row's group under `--groups` rules (`None` where the protected value is missing); a
+/// value in no group (without a rest group) or in two is an error.
+fn assign_groups(
+    protected: &Column,
+    rules: &[crate::settings::GroupRule],
+) -> Result<Vec<Option<u32>>> {
+    let column = &protected.name;
     let rest = rules.iter().position(|r| r.member == Membership::Rest);
     let mut groups = Vec::with_capacity(protected.len());
     for i in 0..protected.len() {
@@ -1106,7 +1137,7 @@ fn form_groups(
         };
         groups.push(Some(group as u32));
     }
-    Ok((groups, list))
+    Ok(groups)
 }
 
 fn choose_features<'a>(
