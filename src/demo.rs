@@ -15,9 +15,11 @@ pub const DEMO_SEED: u64 = 4_711;
 pub const DEMO_ROWS: usize = 3_000;
 /// Share of applicants who declared a disability.
 pub const DISABLED_SHARE: f64 = 0.18;
-/// Pilot sizes of the three candidate features.
+/// Pilot size of the work-sample feature.
 pub const PILOT_WORK_SAMPLE: usize = 600;
+/// Pilot size of the reference-rating feature.
 pub const PILOT_REFERENCE: usize = 400;
+/// Pilot size of the postcode-digit feature.
 pub const PILOT_POSTCODE: usize = 1_200;
 
 const REGIONS: [&str; 4] = ["North", "East", "South", "West"];
@@ -29,14 +31,23 @@ pub struct Applicant {
     pub aptitude: f64,
     /// Hidden: practical skill, N(0, 1), independent of aptitude.
     pub skill: f64,
+    /// Declared a disability.
     pub disabled: bool,
+    /// Score on the written test, 0 to 100.
     pub test_score: f64,
+    /// Years of relevant experience.
     pub years_experience: f64,
+    /// Region of residence.
     pub region: &'static str,
+    /// Took a preparatory course.
     pub prior_course: bool,
+    /// Score on the timed practical task (a candidate feature).
     pub work_sample: f64,
+    /// Rating from a past supervisor (a candidate feature).
     pub reference_rating: f64,
+    /// Last digit of the postcode (a candidate feature).
     pub postcode_digit: u32,
+    /// The label: shortlisted or not.
     pub shortlisted: bool,
 }
 
@@ -257,6 +268,7 @@ pub fn costs_csv(rows: usize) -> String {
 /// How large a demo to draw: the committed scenario is `DemoSize::default()`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct DemoSize {
+    /// Applications to draw.
     pub rows: usize,
     /// Invented survey columns beyond the scenario's ten.
     pub extra_columns: usize,

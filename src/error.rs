@@ -8,26 +8,43 @@ use std::path::PathBuf;
 pub enum Error {
     /// A file could not be opened or read.
     #[error("cannot read {path}: {reason}")]
-    File { path: PathBuf, reason: String },
+    File {
+        /// The file as named.
+        path: PathBuf,
+        /// What the system said.
+        reason: String,
+    },
 
     /// The file was read but its content cannot be used as it stands.
     #[error("{path}: {reason}")]
-    Format { path: PathBuf, reason: String },
+    Format {
+        /// The file as named.
+        path: PathBuf,
+        /// What is wrong with its content.
+        reason: String,
+    },
 
     /// A flag names a column the data does not have.
     #[error("{flag}: no column named '{name}'{hint}")]
     UnknownColumn {
+        /// The flag (or project-file key) that named it.
         flag: String,
+        /// The name given.
         name: String,
+        /// The nearest names there are, or empty.
         hint: String,
     },
 
     /// A flag names a value that the column does not hold.
     #[error("{flag}: column '{column}' has no value '{value}'{hint}")]
     UnknownValue {
+        /// The flag (or project-file key) that named it.
         flag: String,
+        /// The column searched.
         column: String,
+        /// The value given.
         value: String,
+        /// The nearest values there are, or empty.
         hint: String,
     },
 
@@ -35,15 +52,24 @@ pub enum Error {
     /// when known.
     #[error("column '{column}', data row {row}{}: {reason}", line.map(|l| format!(" (line {l})")).unwrap_or_default())]
     BadCell {
+        /// The cell's column.
         column: String,
+        /// Its data row, from 1.
         row: usize,
+        /// Its line in the file, when known.
         line: Option<usize>,
+        /// What is wrong with it.
         reason: String,
     },
 
     /// A flag or setting has a value that cannot be used.
     #[error("{flag}: {reason}")]
-    BadSetting { flag: String, reason: String },
+    BadSetting {
+        /// The flag (or project-file key).
+        flag: String,
+        /// Why its value cannot be used.
+        reason: String,
+    },
 
     /// The data, as given, cannot support the computation asked for.
     #[error("{0}")]

@@ -14,6 +14,8 @@
 //! - [`report`]: the serde types of every report;
 //! - [`render`]: terminal text, Markdown, HTML and SVG, each from a report.
 
+#![warn(missing_docs)]
+
 pub mod data;
 pub mod decide;
 pub mod demo;

@@ -14,15 +14,23 @@ use crate::report::OptionKind;
 #[serde(rename_all = "kebab-case")]
 pub enum Acquisition {
     /// A new attribute for every row: the candidate column, filled today on a pilot.
-    Feature { column: String },
+    Feature {
+        /// The candidate column.
+        column: String,
+    },
     /// More rows: of any case, or of one group (`column = value` of the protected attribute).
-    Rows { filter: Option<(String, String)> },
+    Rows {
+        /// `None` for rows of any group, or the protected column and the group's value.
+        filter: Option<(String, String)>,
+    },
 }
 
 /// One line of the cost sheet, checked.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CostOption {
+    /// The option's name in the sheet.
     pub name: String,
+    /// What it buys.
     pub acquisition: Acquisition,
     /// Cost per row acquired (per row covered, for a feature).
     pub per_row: f64,
@@ -34,6 +42,7 @@ pub struct CostOption {
     pub step: Option<usize>,
     /// Needs a privacy or legal review.
     pub sensitive: bool,
+    /// The sheet's note, shown beside the option.
     pub note: String,
 }
 
@@ -248,14 +257,23 @@ fn parse_csv(text: &str) -> std::result::Result<Vec<(usize, RawLine)>, String> {
 /// An option with its fields typed but not yet checked against the data.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RawOption {
+    /// The `name` field.
     pub name: String,
+    /// The `kind` field: feature or rows.
     pub kind: String,
+    /// The `column` field: the candidate column, or `column=value` of a group.
     pub column: Option<String>,
+    /// The `per_row` cost.
     pub per_row: f64,
+    /// The `fixed` cost.
     pub fixed: f64,
+    /// The `max_rows` on offer (rows options).
     pub max_rows: Option<usize>,
+    /// The `step` rows are bought in (rows options).
     pub step: Option<usize>,
+    /// The `sensitive` flag.
     pub sensitive: bool,
+    /// The `note` field.
     pub note: String,
 }
 

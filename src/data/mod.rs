@@ -29,7 +29,9 @@ pub enum Values {
     Numeric(Vec<Option<f64>>),
     /// Categories: `codes[i]` indexes `levels`, or is [`MISSING`].
     Categorical {
+        /// The distinct texts, in order of first appearance.
         levels: Vec<String>,
+        /// Each row's index into `levels`.
         codes: Vec<u32>,
     },
 }
@@ -38,7 +40,9 @@ pub enum Values {
 /// in order, copies no data (a million-row file is held once).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Column {
+    /// The column name.
     pub name: String,
+    /// The cells, shared between copies of the column.
     pub values: std::sync::Arc<Values>,
 }
 
@@ -131,7 +135,9 @@ impl Column {
 /// A file read into typed columns.
 #[derive(Debug, Clone)]
 pub struct Table {
+    /// What was read and from where.
     pub source: SourceInfo,
+    /// Every column, typed.
     pub columns: Vec<Column>,
     /// Lines of the file before the first data row (skipped lines and the header), so that data
     /// row `r` (1-based) is near line `r + lines_before_data`.
@@ -629,6 +635,7 @@ pub const CANDIDATE_MISSING_SHARE: f64 = 0.5;
 /// One group of the protected attribute, as formed.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Group {
+    /// Name of the group in reports.
     pub name: String,
     /// How the group was formed from the protected column, e.g. `sex = Female` or
     /// `age <= 25`.
@@ -645,6 +652,7 @@ pub struct Dataset {
     pub labels: Vec<bool>,
     /// Group index of every row.
     pub groups: Vec<u32>,
+    /// The groups, in report order.
     pub group_list: Vec<Group>,
     /// Index of the reference group in `group_list`.
     pub reference: usize,
@@ -656,11 +664,15 @@ pub struct Dataset {
     pub candidates: Vec<Column>,
     /// The favourable label as matched, and the other value(s).
     pub favourable: String,
+    /// The other label value(s), as reports name them.
     pub unfavourable: String,
+    /// Data rows read from the file.
     pub rows_read: usize,
     /// Rows left out: missing label, missing protected value.
     pub dropped_missing_label: usize,
+    /// Rows left out for a missing protected value.
     pub dropped_missing_group: usize,
+    /// What the reader should know about the data.
     pub warnings: Vec<Warning>,
 }
 

@@ -171,7 +171,9 @@ pub fn may_beat(bound: f64, cost: f64, best: (f64, f64)) -> bool {
 /// The outcome of a bounded search: the best subset found, and whether the search ran to the
 /// end (so that the subset is proven best).
 pub struct Bounded {
+    /// The best subset found, if any keeps the floors within the money.
     pub best: Option<Subset>,
+    /// Whether the search ran to the end (the subset is then proven best).
     pub complete: bool,
 }
 

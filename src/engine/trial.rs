@@ -25,7 +25,9 @@ use crate::stats::metrics::{self, GroupCounts};
 pub struct Progress {
     /// What is running, e.g. "baseline trials".
     pub stage: &'static str,
+    /// Units of work finished.
     pub done: usize,
+    /// Units of work in the stage.
     pub total: usize,
 }
 
@@ -38,12 +40,17 @@ pub fn no_progress(_: Progress) {}
 /// What one fitted model measured on its held-out rows.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TrialOutcome {
+    /// Share of test rows predicted right.
     pub accuracy: f64,
+    /// Mean of the true positive and true negative rates.
     pub balanced_accuracy: Option<f64>,
+    /// Area under the ROC curve, for families that give scores.
     pub area_under_curve: Option<f64>,
     /// Label and prediction counts per group on the test part.
     pub counts: Vec<GroupCounts>,
+    /// Rows the model was fitted on.
     pub train_rows: usize,
+    /// Rows it was measured on.
     pub test_rows: usize,
 }
 
@@ -62,8 +69,11 @@ pub enum Rows<'a> {
     /// Repeat r draws its split of `rows` from stream `stream` at index r ([`draw_split`]);
     /// there are as many repeats as the trial settings say.
     Drawn {
+        /// The rows taking part (all, or a pilot).
         rows: &'a [usize],
+        /// The random stream of the splits and orders.
         stream: Stream,
+        /// Which training sizes each split is fitted at.
         sizes: Sizes<'a>,
     },
     /// Splits given per repeat, each with every arm's own training rows (purchases made for
@@ -81,7 +91,9 @@ pub enum Sizes<'a> {
     /// group's training rows are ordered and counted by the sizes; every other training row is
     /// always used.
     Nested {
+        /// Sizes of the part that grows.
         sizes: &'a [usize],
+        /// The only group whose training rows grow, if one.
         vary_group: Option<u32>,
     },
 }
@@ -89,7 +101,9 @@ pub enum Sizes<'a> {
 /// A split given from outside: the test rows, and each arm's training rows.
 #[derive(Debug, Clone, PartialEq)]
 pub struct GivenSplit {
+    /// The rows every arm is measured on.
     pub test: Vec<usize>,
+    /// Each arm's training rows, in the order of the arms.
     pub train: Vec<Vec<usize>>,
 }
 
@@ -117,7 +131,9 @@ impl<'a> Arm<'a> {
 /// the repeat).
 #[derive(Debug, Clone, Copy)]
 pub struct HeldProbe {
+    /// Permutations of each feature per repeat.
     pub permutations: usize,
+    /// The random stream of the permutations (index: the repeat).
     pub stream: Stream,
 }
 

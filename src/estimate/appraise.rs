@@ -181,7 +181,9 @@ pub fn run_with_options(
 
 /// What [`appraise_dataset`] values: a dataset already loaded and options already checked.
 pub struct AppraisalInput {
+    /// The data, loaded.
     pub data: Dataset,
+    /// The cost sheet's options, checked against the data.
     pub options: Vec<CostOption>,
     /// The inputs section of the report.
     pub inputs: Inputs,

@@ -132,10 +132,15 @@ fn derive(measure: FairnessMeasure, u: [f64; 3], r: [f64; 3]) -> Option<f64> {
 /// The curve-fitting part of the work, on trial outcomes already run: used by `curves` and, in
 /// later stages, by the appraisal of options.
 pub struct FittedCurves {
+    /// The anchor sizes measured.
     pub sizes: Vec<usize>,
+    /// Every quantity's curve, as reported.
     pub curves: Vec<CurveRecord>,
+    /// Every compared group's disparity curves, as reported.
     pub disparities: Vec<DisparityCurve>,
+    /// Largest anchors held back to score each family's forecast.
     pub held_back: usize,
+    /// Quantities that could not be fitted.
     pub warnings: Vec<String>,
     fits: Vec<QuantityFit>,
 }
@@ -143,6 +148,7 @@ pub struct FittedCurves {
 /// Accuracy and each group's rates at one training size (NaN where a quantity has no value).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Quantities {
+    /// Accuracy.
     pub accuracy: f64,
     /// Each group's selection, true positive and false positive rates, in the dataset's order.
     pub groups: Vec<Rates>,
@@ -198,6 +204,7 @@ impl Quantities {
 /// every bootstrap draw (NaN where a quantity has no curve or a draw could not be fitted).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Reading {
+    /// The fitted curves' values.
     pub point: Quantities,
     /// One per bootstrap draw.
     pub draws: Vec<Quantities>,
@@ -298,18 +305,25 @@ pub fn run(
 
 /// Which rows and columns a set of learning curves is measured on.
 pub struct CurvePlan<'a> {
+    /// Rows taking part: all rows, or a pilot.
     pub rows: &'a [usize],
     /// The feature sets measured, on the same splits and orders (paired).
     pub arms: Vec<&'a [crate::data::Column]>,
+    /// The random stream of the splits and nested orders.
     pub stream: Stream,
+    /// Name of the stage in progress events.
     pub stage: &'static str,
+    /// The smallest anchor, when `--smallest` sets it.
     pub smallest: Option<usize>,
 }
 
 /// Learning curves measured and fitted, with their schedule.
 pub struct MeasuredCurves {
+    /// The fitted curves.
     pub fitted: FittedCurves,
+    /// The schedule they were measured on.
     pub schedule: CurveSchedule,
+    /// What the reader should know about the schedule.
     pub warnings: Vec<String>,
     /// The trials behind the curves, `[repeat][size]`.
     pub outcomes: Vec<Vec<TrialOutcome>>,

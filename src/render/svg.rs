@@ -320,11 +320,17 @@ pub fn curves_svg(report: &CurvesReport) -> String {
 
 /// What a learning-curve chart is drawn from (a curves report, or the curves inside a plan).
 pub struct CurveSet<'a> {
+    /// The run's inputs (for the chart's caption).
     pub inputs: &'a Inputs,
+    /// The anchor schedule.
     pub schedule: &'a CurveSchedule,
+    /// The groups, in report order.
     pub groups: &'a [GroupSummary],
+    /// The reference group.
     pub reference: &'a ReferenceGroup,
+    /// The fitted curves.
     pub curves: &'a [CurveRecord],
+    /// The disparity curves.
     pub disparities: &'a [DisparityCurve],
 }
 

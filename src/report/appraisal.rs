@@ -10,13 +10,21 @@ use super::{
 /// The report of `acquest appraise`.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct AppraisalReport {
+    /// Always "acquest-report".
     pub format: String,
+    /// Version of the report format.
     pub format_version: u32,
+    /// acquest's version.
     pub tool_version: String,
+    /// The command that wrote the report.
     pub command: String,
+    /// What the run read and how it was set.
     pub inputs: Inputs,
+    /// The cost sheet and how options are scored.
     pub costs: CostInputs,
+    /// The groups with their label rates.
     pub groups: Vec<GroupSummary>,
+    /// The group every other group is compared with.
     pub reference: ReferenceGroup,
     /// Today's model read off its learning curve at today's training rows.
     pub today: Today,
@@ -24,6 +32,7 @@ pub struct AppraisalReport {
     pub schedule: CurveSchedule,
     /// Today's learning curves (as in `curves`), read up to the largest rows purchase.
     pub curves: Vec<CurveRecord>,
+    /// Today's disparity curves.
     pub disparities: Vec<DisparityCurve>,
     /// Every option of the cost sheet, valued, in the sheet's order.
     pub options: Vec<OptionValue>,
@@ -31,31 +40,42 @@ pub struct AppraisalReport {
     pub ranking: Vec<Ranked>,
     /// What each feature already held does for accuracy and fairness.
     pub held_features: Vec<HeldFeature>,
+    /// What the reader should know about this run.
     pub warnings: Vec<String>,
+    /// The cautions every report carries.
     pub cautions: Vec<String>,
 }
 
 /// The cost sheet and how options are scored.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CostInputs {
+    /// The cost sheet as named.
     pub path: String,
+    /// SHA-256 of its bytes.
     pub sha256: String,
+    /// The currency its costs are in.
     pub currency: String,
     /// The fairness measure whose unfairness the utility counts: spd, di, eod or aod.
     pub fairness: String,
+    /// Weight of the accuracy gain in the utility.
     pub weigh_accuracy: f64,
+    /// Weight of the unfairness reduction in the utility.
     pub weigh_fairness: f64,
 }
 
 /// Today's fitted accuracy and unfairness.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Today {
+    /// Rows held today.
     pub rows: usize,
+    /// Training rows of a trial today.
     pub training_rows: usize,
+    /// Accuracy read off today's curve.
     pub accuracy: f64,
     /// Unfairness on the primary measure (|SPD|, 1 − min(DI, 1/DI), |EOD| or |AOD|) of the
     /// worst compared group.
     pub unfairness: f64,
+    /// The compared group farthest from fair.
     pub worst_group: String,
     /// Each group's predicted selection rate, in the order of `groups`.
     pub selection_rates: Vec<f64>,
@@ -65,18 +85,26 @@ pub struct Today {
 /// two-sided p-value against no change.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Change {
+    /// The estimated change.
     pub mean: f64,
+    /// Lower end of its interval.
     pub low: Option<f64>,
+    /// Upper end of its interval.
     pub high: Option<f64>,
+    /// Two-sided bootstrap p-value against no change.
     pub p_value: Option<f64>,
 }
 
 /// One group's rates before and after a purchase.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct GroupChange {
+    /// The group.
     pub group: String,
+    /// Change in its predicted selection rate.
     pub selection_rate: Change,
+    /// Change in its true positive rate.
     pub true_positive_rate: Change,
+    /// Change in its false positive rate.
     pub false_positive_rate: Change,
 }
 
@@ -85,9 +113,11 @@ pub struct GroupChange {
 pub struct Purchase {
     /// New rows bought (0 for a feature alone).
     pub new_rows: usize,
+    /// What it costs.
     pub cost: f64,
     /// Training rows the estimate is read at.
     pub training_rows: f64,
+    /// Accuracy after minus before.
     pub accuracy_gain: Change,
     /// Fall in unfairness on the primary measure (positive is fairer).
     pub unfairness_reduction: Change,
@@ -95,22 +125,28 @@ pub struct Purchase {
     pub utility: Change,
     /// Gains per 1,000 of currency.
     pub accuracy_per_1000: f64,
+    /// Unfairness reduction per 1,000 of currency.
     pub fairness_per_1000: f64,
+    /// Utility per 1,000 of currency.
     pub utility_per_1000: f64,
     /// The utility's lower end per 1,000 of currency (the cautious reading).
     pub cautious_per_1000: Option<f64>,
     /// Beyond 4× the largest size measured.
     pub extrapolated_too_far: bool,
+    /// Each group's rates before and after.
     pub groups: Vec<GroupChange>,
 }
 
 /// What a pilot says about a candidate feature.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PilotSummary {
+    /// Rows of the pilot.
     pub rows: usize,
+    /// Training rows of a trial on it.
     pub training_rows: usize,
     /// Chi-square test of the pilot's group × label mix against the other rows.
     pub mix_chi_square: Option<f64>,
+    /// The p-value of that chi-square test.
     pub mix_p_value: Option<f64>,
     /// Accuracy with the feature minus without, on the pilot at its full size, per repeat.
     pub accuracy_difference: Option<Estimate>,
@@ -118,6 +154,7 @@ pub struct PilotSummary {
     pub accuracy_welch_p: Option<f64>,
     /// Unfairness with the feature minus without, on the pilot at its full size.
     pub unfairness_difference: Option<Estimate>,
+    /// Welch's t-test p of the unfairness with against without.
     pub unfairness_welch_p: Option<f64>,
     /// One-way ANOVA p of the accuracy difference across the pilot's sizes (does the gain
     /// depend on the number of rows?).
@@ -129,12 +166,15 @@ pub struct PilotSummary {
 /// One option of the cost sheet, valued.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct OptionValue {
+    /// The option's name in the sheet.
     pub name: String,
     /// "feature", "rows" or "group rows".
     pub kind: OptionKind,
     /// The candidate column, or the group filter.
     pub target: Option<String>,
+    /// Whether the sheet marks it sensitive.
     pub sensitive: bool,
+    /// The sheet's note.
     pub note: String,
     /// The headline purchase: the feature on every row held, or the most rows on offer.
     pub estimate: Purchase,
@@ -144,17 +184,24 @@ pub struct OptionValue {
     /// Feature options: the with-feature pilot curve extrapolated directly, for comparison with
     /// the anchored estimate.
     pub direct: Option<Purchase>,
+    /// Feature options: what the pilot says.
     pub pilot: Option<PilotSummary>,
+    /// What the reader should weigh before buying it.
     pub flags: Vec<String>,
 }
 
 /// An option's place in the two rankings.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Ranked {
+    /// The option.
     pub name: String,
+    /// Its utility per 1,000 of currency.
     pub utility_per_1000: f64,
+    /// Its place by utility per 1,000 (1 is best).
     pub rank: usize,
+    /// The lower end of its utility per 1,000.
     pub cautious_per_1000: Option<f64>,
+    /// Its place by that lower end.
     pub cautious_rank: usize,
 }
 
@@ -163,10 +210,15 @@ pub struct Ranked {
 /// the feature helps accuracy; positive unfairness change: the feature makes the model fairer).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct HeldFeature {
+    /// The feature.
     pub feature: String,
+    /// Accuracy change when the model is refitted without it.
     pub ablation_accuracy: Option<Estimate>,
+    /// Unfairness change when refitted without it.
     pub ablation_unfairness: Option<Estimate>,
+    /// Accuracy change when it is scrambled on the test rows.
     pub permutation_accuracy: Option<Estimate>,
+    /// Unfairness change when it is scrambled.
     pub permutation_unfairness: Option<Estimate>,
 }
 

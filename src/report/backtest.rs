@@ -96,6 +96,7 @@ pub struct BacktestSettings {
     pub pilot: f64,
     /// A group whose held-back rows form an option of their own.
     pub hold_group: Option<String>,
+    /// Random hold-outs run.
     pub rounds: usize,
     /// The fairness measure the best-by-fairness option is named by.
     pub fairness: FairnessMeasure,
@@ -105,10 +106,15 @@ pub struct BacktestSettings {
 /// today, same test rows), its interval and p-value with the corrected resampled variance.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RealisedGain {
+    /// Mean over repeats of the paired difference.
     pub mean: f64,
+    /// Lower end of its interval.
     pub low: Option<f64>,
+    /// Upper end of its interval.
     pub high: Option<f64>,
+    /// Two-sided p-value against no gain.
     pub p_value: Option<f64>,
+    /// Its standard error, with the corrected resampled variance.
     pub standard_error: Option<f64>,
     /// The paired difference of every repeat (missing where a rate was undefined).
     pub per_repeat: Vec<Option<f64>>,
@@ -119,45 +125,59 @@ pub struct RealisedGain {
 pub struct QuantityRecord {
     /// accuracy, or the unfairness reduction of spd, di, eod or aod.
     pub quantity: Gain,
+    /// The appraisal's prediction.
     pub acquest: Change,
+    /// The no-extrapolation prediction.
     pub last_anchor: Change,
+    /// The pilot curve's prediction.
     pub pilot_alone: Change,
+    /// What buying it for real did.
     pub realised: RealisedGain,
 }
 
 /// One option of one round.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct OptionRecord {
+    /// The option.
     pub option: String,
     /// rows, group rows or feature.
     pub kind: OptionKind,
     /// Rows bought (held rows, or the group's held rows), or rows covered by the feature.
     pub rows: usize,
+    /// Accuracy, then each fairness measure.
     pub quantities: Vec<QuantityRecord>,
 }
 
 /// One round: what was held, and every option.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RoundRecord {
+    /// The round, from 0.
     pub round: usize,
+    /// Rows the appraisal saw.
     pub kept_rows: usize,
+    /// Rows held back.
     pub held_rows: usize,
     /// Pilot rows of each held feature.
     pub pilots: Vec<PilotRows>,
+    /// Every option of the round.
     pub options: Vec<OptionRecord>,
     /// Warnings of the round's appraisal.
     pub warnings: Vec<String>,
 }
 
+/// The pilot of one held feature.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PilotRows {
+    /// The held feature.
     pub feature: String,
+    /// Rows on which it stayed filled.
     pub rows: usize,
 }
 
 /// How well one method did on one quantity, over every option of every round.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct MethodSummary {
+    /// The method.
     pub method: Method,
     /// Option-rounds compared.
     pub entries: usize,
@@ -169,16 +189,20 @@ pub struct MethodSummary {
     pub error_net_of_noise_pp: Option<f64>,
     /// Option-rounds whose predicted interval exists, and whose realised mean falls in it.
     pub with_interval: usize,
+    /// Of those, the realised means inside the predicted interval.
     pub covered: usize,
+    /// That share.
     pub coverage: Option<f64>,
     /// The same with each predicted interval widened by the realised gain's own measurement
     /// error (its two sides combined in quadrature with the realised standard error at the same
     /// level): an exact interval would cover about the nominal share by this count.
     pub covered_allowing_noise: usize,
+    /// That share.
     pub coverage_allowing_noise: Option<f64>,
     /// Realised gains significantly different from zero, and how many of their signs were
     /// predicted.
     pub significant: usize,
+    /// Of those, the signs predicted.
     pub sign_correct: usize,
     /// Spearman's correlation of predicted and realised gains over the options of a round,
     /// averaged over rounds.
@@ -186,11 +210,14 @@ pub struct MethodSummary {
     /// The same over each round's chain of options whose realised gains differ significantly
     /// from each other; the options in those chains, and the rounds with a chain of two or more.
     pub spearman_distinct: Option<f64>,
+    /// Options in those chains.
     pub distinct_entries: usize,
+    /// Rounds with a chain of two or more.
     pub distinct_rounds: usize,
     /// Rounds whose best option by this quantity was named correctly; named, or the option named
     /// does not do significantly worse than the best.
     pub best_named: usize,
+    /// Rounds whose named option does not do significantly worse than the best.
     pub best_named_or_tied: usize,
     /// Rounds with at least two options (where naming the best means anything).
     pub rounds_compared: usize,
@@ -199,43 +226,61 @@ pub struct MethodSummary {
 /// Every method on one quantity.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct QuantitySummary {
+    /// The gain compared.
     pub quantity: Gain,
     /// The nominal level of the predicted intervals.
     pub nominal_coverage: f64,
+    /// Every method, acquest's first.
     pub methods: Vec<MethodSummary>,
 }
 
 /// One of the quality targets, checked on this run.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct TargetCheck {
+    /// The target, in words.
     pub target: String,
+    /// Whether this run met it.
     pub met: bool,
+    /// The figure it was judged on.
     pub figure: String,
 }
 
 /// A named method and what it does.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct MethodNote {
+    /// The method.
     pub method: Method,
+    /// What it does.
     pub description: String,
 }
 
 /// The `acquest backtest` report.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct BacktestReport {
+    /// Always "acquest-report".
     pub format: String,
+    /// Version of the report format.
     pub format_version: u32,
+    /// acquest's version.
     pub tool_version: String,
+    /// The command that wrote the report.
     pub command: String,
+    /// What the run read and how it was set.
     pub inputs: Inputs,
+    /// What was held back and how often.
     pub backtest: BacktestSettings,
+    /// The p-value below which a realised gain counts as significant.
     pub significance: f64,
+    /// The methods compared.
     pub methods: Vec<MethodNote>,
+    /// Every round.
     pub rounds: Vec<RoundRecord>,
     /// Accuracy first, then each fairness measure.
     pub summary: Vec<QuantitySummary>,
     /// The quality targets for accuracy and the chosen fairness measure.
     pub targets: Vec<TargetCheck>,
+    /// What the reader should know about this run.
     pub warnings: Vec<String>,
+    /// The cautions every report carries.
     pub cautions: Vec<String>,
 }

@@ -8,28 +8,46 @@ use super::{Estimate, GroupSummary, Inputs, ReferenceGroup};
 /// The report of `acquest baseline`.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct BaselineReport {
+    /// Always "acquest-report".
     pub format: String,
+    /// Version of the report format.
     pub format_version: u32,
+    /// acquest's version.
     pub tool_version: String,
+    /// The command that wrote the report.
     pub command: String,
+    /// What the run read and how it was set.
     pub inputs: Inputs,
+    /// Rows and columns as used.
     pub data: DataSummary,
+    /// The groups with their label rates.
     pub groups: Vec<GroupSummary>,
+    /// The group every other group is compared with.
     pub reference: ReferenceGroup,
+    /// Disparity already present in the labels.
     pub label_bias: LabelBias,
+    /// The model measured over repeated trials.
     pub model: ModelSummary,
+    /// What the reader should know about this run.
     pub warnings: Vec<String>,
+    /// The cautions every report carries.
     pub cautions: Vec<String>,
 }
 
 /// Rows and columns as used.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct DataSummary {
+    /// Data rows read.
     pub rows_read: usize,
+    /// Rows used.
     pub rows_used: usize,
+    /// Rows left out for a missing label.
     pub dropped_missing_label: usize,
+    /// Rows left out for a missing protected value.
     pub dropped_missing_group: usize,
+    /// Rows with the favourable label.
     pub favourable_labels: usize,
+    /// The feature columns trained on.
     pub features: Vec<FeatureSummary>,
     /// Mostly-empty columns taken for candidate features, not trained on.
     pub candidates: Vec<FeatureSummary>,
@@ -38,9 +56,11 @@ pub struct DataSummary {
 /// One column as used.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FeatureSummary {
+    /// The column.
     pub name: String,
     /// "numeric" or "categorical".
     pub kind: String,
+    /// Its missing cells.
     pub missing: usize,
     /// Distinct values, for a categorical column.
     pub levels: Option<usize>,
@@ -49,56 +69,85 @@ pub struct FeatureSummary {
 /// Disparity already present in the labels (counts of real people, no model).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct LabelBias {
+    /// Each compared group against the reference.
     pub comparisons: Vec<LabelComparison>,
+    /// Every group under the four-fifths rule.
     pub four_fifths: Vec<FourFifthsRecord>,
 }
 
 /// One compared group against the reference, on the labels.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct LabelComparison {
+    /// The compared group.
     pub group: String,
+    /// Its label rate minus the reference's.
     pub statistical_parity_difference: Option<f64>,
+    /// Its label rate over the reference's.
     pub disparate_impact: Option<f64>,
 }
 
 /// One group under the four-fifths rule (29 CFR 1607.4(D)), against the highest-rate group.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FourFifthsRecord {
+    /// The group.
     pub group: String,
+    /// Its rate.
     pub rate: f64,
+    /// Its rate over the highest group's.
     pub impact_ratio: f64,
+    /// Whether the ratio is strictly below four-fifths.
     pub adverse_impact: bool,
+    /// Whether moving one person would change that finding.
     pub one_person_flips: bool,
+    /// Pooled two-proportion z against the highest group.
     pub z: Option<f64>,
+    /// Its two-sided p-value.
     pub z_p_value: Option<f64>,
+    /// Fisher's exact test p, where a cell count is small.
     pub fisher_p_value: Option<f64>,
 }
 
 /// The baseline model, measured over repeated trials.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ModelSummary {
+    /// The model family.
     pub family: String,
+    /// Trials run.
     pub trials: usize,
+    /// Training rows of a trial.
     pub train_rows: usize,
+    /// Test rows of a trial.
     pub test_rows: usize,
     /// How intervals are formed.
     pub interval_method: String,
+    /// Accuracy on held-out rows.
     pub accuracy: Estimate,
+    /// Balanced accuracy on held-out rows.
     pub balanced_accuracy: Option<Estimate>,
+    /// Area under the ROC curve, where the family gives scores.
     pub area_under_curve: Option<Estimate>,
+    /// Each group's rates under the model.
     pub groups: Vec<GroupRates>,
+    /// Each compared group against the reference.
     pub comparisons: Vec<Comparison>,
+    /// The compared group farthest from fair on each measure.
     pub worst: WorstGroups,
+    /// The four-fifths rule on predicted selection rates.
     pub four_fifths: Vec<ModelFourFifths>,
 }
 
 /// A group's rates under the model, on held-out rows.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct GroupRates {
+    /// The group.
     pub group: String,
+    /// Its mean test rows per trial.
     pub test_rows: f64,
+    /// Its predicted selection rate.
     pub selection_rate: Option<Estimate>,
+    /// Its true positive rate.
     pub true_positive_rate: Option<Estimate>,
+    /// Its false positive rate.
     pub false_positive_rate: Option<Estimate>,
 }
 
@@ -106,10 +155,15 @@ pub struct GroupRates {
 /// (0 for differences, 1 for disparate impact).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Comparison {
+    /// The compared group.
     pub group: String,
+    /// Statistical parity difference (ideal 0).
     pub statistical_parity_difference: Option<Estimate>,
+    /// Disparate impact (ideal 1).
     pub disparate_impact: Option<Estimate>,
+    /// Equal opportunity difference (ideal 0).
     pub equal_opportunity_difference: Option<Estimate>,
+    /// Average odds difference (ideal 0).
     pub average_odds_difference: Option<Estimate>,
 }
 
@@ -117,22 +171,29 @@ pub struct Comparison {
 /// (|SPD|, 1 − min(DI, 1/DI), |EOD|, |AOD| of the mean).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct WorstGroups {
+    /// On statistical parity difference.
     pub statistical_parity_difference: Option<Worst>,
+    /// On disparate impact.
     pub disparate_impact: Option<Worst>,
+    /// On equal opportunity difference.
     pub equal_opportunity_difference: Option<Worst>,
+    /// On average odds difference.
     pub average_odds_difference: Option<Worst>,
 }
 
 /// A group and its unfairness on one measure.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Worst {
+    /// The group.
     pub group: String,
+    /// Its unfairness, 0 is fair.
     pub unfairness: f64,
 }
 
 /// The four-fifths rule applied to the model's predicted selection rates, trial by trial.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ModelFourFifths {
+    /// The group.
     pub group: String,
     /// The group's predicted rate over the highest group's, per trial.
     pub impact_ratio: Estimate,

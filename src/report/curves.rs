@@ -7,19 +7,29 @@ use super::{GroupSummary, Inputs, ReferenceGroup};
 /// The report of `acquest curves`.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CurvesReport {
+    /// Always "acquest-report".
     pub format: String,
+    /// Version of the report format.
     pub format_version: u32,
+    /// acquest's version.
     pub tool_version: String,
+    /// The command that wrote the report.
     pub command: String,
+    /// What the run read and how it was set.
     pub inputs: Inputs,
+    /// Which training sizes were measured, and how.
     pub schedule: CurveSchedule,
+    /// The groups with their label rates.
     pub groups: Vec<GroupSummary>,
+    /// The group every other group is compared with.
     pub reference: ReferenceGroup,
     /// Accuracy and each group's selection rate, true positive rate and false positive rate.
     pub curves: Vec<CurveRecord>,
     /// SPD, DI, EOD and AOD of each compared group, derived from the fitted rates.
     pub disparities: Vec<DisparityCurve>,
+    /// What the reader should know about this run.
     pub warnings: Vec<String>,
+    /// The cautions every report carries.
     pub cautions: Vec<String>,
 }
 
@@ -34,6 +44,7 @@ pub struct CurveSchedule {
     pub sizes: Vec<usize>,
     /// How the smallest size was chosen.
     pub smallest_rule: String,
+    /// Repeats at every size.
     pub repeats: usize,
     /// Largest anchors held back to score each family's forecast.
     pub held_back: usize,
@@ -50,10 +61,15 @@ pub struct CurveSchedule {
 /// One measured anchor: a quantity's spread over repeats at one training size.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct AnchorPoint {
+    /// Training rows.
     pub size: usize,
+    /// Mean over repeats.
     pub mean: f64,
+    /// Standard deviation over repeats.
     pub std_dev: Option<f64>,
+    /// Smallest value over repeats.
     pub min: f64,
+    /// Largest value over repeats.
     pub max: f64,
     /// Repeats in which the quantity was defined at this size.
     pub repeats: usize,
@@ -62,7 +78,9 @@ pub struct AnchorPoint {
 /// One family fitted to a quantity.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FamilyFit {
+    /// The family.
     pub family: Family,
+    /// Its formula in n.
     pub formula: String,
     /// a, b, c of the formula in n (training rows); unused ones are 0.
     pub parameters: [f64; 3],
@@ -70,15 +88,20 @@ pub struct FamilyFit {
     pub rss: Option<f64>,
     /// Weighted RMS error forecasting the held-back anchors from the others.
     pub forecast_error: Option<f64>,
+    /// How the fit ended.
     pub status: FitStatus,
 }
 
 /// A value read off a curve at one training size, with its bootstrap band.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CurvePoint {
+    /// Training rows.
     pub size: f64,
+    /// The curve's value there.
     pub value: f64,
+    /// Lower end of its bootstrap band.
     pub low: Option<f64>,
+    /// Upper end of its bootstrap band.
     pub high: Option<f64>,
     /// Beyond the largest anchor.
     pub extrapolated: bool,
@@ -93,7 +116,9 @@ pub struct CurveRecord {
     pub quantity: String,
     /// The group, for a group's rate.
     pub group: Option<String>,
+    /// The measured anchors.
     pub anchors: Vec<AnchorPoint>,
+    /// Every family fitted, with its forecast error.
     pub families: Vec<FamilyFit>,
     /// The family with the smallest forecast error; `None` when no family could be fitted.
     pub chosen: Option<Family>,
@@ -112,6 +137,7 @@ pub struct DisparityCurve {
     /// "statistical parity difference", "disparate impact", "equal opportunity difference" or
     /// "average odds difference".
     pub measure: String,
+    /// The compared group.
     pub group: String,
     /// The same measure on the labels themselves, where it applies (SPD and DI).
     pub in_labels: Option<f64>,
@@ -119,7 +145,9 @@ pub struct DisparityCurve {
     pub anchors: Vec<AnchorPoint>,
     /// From the rates' asymptotes, where all have one.
     pub asymptote: Option<f64>,
+    /// The measure on the chart grid.
     pub grid: Vec<CurvePoint>,
+    /// The measure at the sizes asked for.
     pub at: Vec<CurvePoint>,
 }
 

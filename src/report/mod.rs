@@ -35,16 +35,27 @@ pub const CAUTIONS: [&str; 4] = [
 /// What the run read and how it was set.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Inputs {
+    /// The data file: path, SHA-256, size, format, rows.
     pub data: SourceInfo,
+    /// The label column.
     pub target: String,
+    /// The favourable label as matched (or the threshold).
     pub favourable: String,
+    /// The other label value(s).
     pub unfavourable: String,
+    /// The protected column.
     pub protected: String,
+    /// Whether the model saw the protected column.
     pub use_protected: bool,
+    /// The model family.
     pub model: String,
+    /// Repeated trials.
     pub repeats: usize,
+    /// Share of rows held out for testing in each trial.
     pub test_fraction: f64,
+    /// The master seed.
     pub seed: u64,
+    /// Confidence level of the intervals.
     pub confidence: f64,
     /// The cap on one trial's training rows (see `--max-train-rows`).
     #[serde(default)]
@@ -54,17 +65,24 @@ pub struct Inputs {
 /// One group with its label rate.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct GroupSummary {
+    /// The group's name.
     pub name: String,
+    /// How it was formed from the protected column.
     pub definition: String,
+    /// Rows of the group.
     pub rows: usize,
+    /// Its rows with the favourable label.
     pub favourable_labels: usize,
+    /// Its favourable label rate.
     pub label_rate: f64,
 }
 
 /// The group every other group is compared with.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ReferenceGroup {
+    /// The reference group's name.
     pub name: String,
+    /// How it was chosen.
     pub rule: String,
 }
 
@@ -75,6 +93,7 @@ pub struct SourceInfo {
     pub path: String,
     /// SHA-256 of the file's bytes.
     pub sha256: String,
+    /// Size of the file.
     pub bytes: u64,
     /// "csv" or "parquet".
     pub format: String,

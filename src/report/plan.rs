@@ -9,13 +9,19 @@ use super::{AppraisalReport, Change, OptionKind};
 /// frontier of plans at other budgets.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PlanReport {
+    /// Always "acquest-report".
     pub format: String,
+    /// Version of the report format.
     pub format_version: u32,
+    /// acquest's version.
     pub tool_version: String,
+    /// The command that wrote the report.
     pub command: String,
+    /// How plans are scored and constrained.
     pub rules: PlanRules,
     /// How gains are combined: the sum of the options' gains (each read at the plan's rows).
     pub gain_model: String,
+    /// The plan for the budget.
     pub plan: Plan,
     /// What the plan was chosen on: the joint scores of the candidates, or the additive model.
     pub chosen_by: String,
@@ -23,15 +29,20 @@ pub struct PlanReport {
     pub candidates: Vec<Candidate>,
     /// Why the plan is empty, when it is.
     pub explanation: Option<String>,
+    /// The best plan at other budgets.
     pub frontier: Vec<FrontierPoint>,
+    /// The appraisal the plan rests on.
     pub appraisal: AppraisalReport,
+    /// What the reader should know about this run.
     pub warnings: Vec<String>,
+    /// The cautions every report carries.
     pub cautions: Vec<String>,
 }
 
 /// How plans are scored and constrained.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct PlanRules {
+    /// The budget, in the cost sheet's currency.
     pub budget: f64,
     /// Score by the lower end of each utility interval instead of its mean.
     pub cautious: bool,
@@ -46,22 +57,32 @@ pub struct PlanRules {
 /// One choice within a plan.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PlanItem {
+    /// The option.
     pub option: String,
+    /// What it buys.
     pub kind: OptionKind,
     /// New rows bought (rows options) or 0 (features).
     pub new_rows: usize,
+    /// What it costs within the plan.
     pub cost: f64,
+    /// Its accuracy gain.
     pub accuracy_gain: f64,
+    /// Its unfairness reduction.
     pub unfairness_reduction: f64,
+    /// Its utility (or the lower end, when cautious).
     pub utility: f64,
 }
 
 /// A plan: what to buy, its cost, and its gains as the sum of the items' (the additive model).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Plan {
+    /// What to buy.
     pub items: Vec<PlanItem>,
+    /// What it all costs.
     pub total_cost: f64,
+    /// The summed accuracy gain.
     pub accuracy_gain: f64,
+    /// The summed unfairness reduction.
     pub unfairness_reduction: f64,
     /// The score maximised: summed utility, or summed lower ends with `cautious`.
     pub score: f64,
@@ -70,6 +91,7 @@ pub struct Plan {
 /// A plan among the best under the additive model, with its joint score.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Candidate {
+    /// The plan.
     pub plan: Plan,
     /// The plan's gains with its options taken together, where they could be measured.
     pub joint: Option<JointScore>,
@@ -80,15 +102,20 @@ pub struct Candidate {
 /// One point of the budget frontier.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FrontierPoint {
+    /// The budget.
     pub budget: f64,
+    /// The best plan within it.
     pub plan: Plan,
 }
 
 /// A plan's gains estimated with its options taken together.
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct JointScore {
+    /// The accuracy gain of the options together.
     pub accuracy_gain: Change,
+    /// Their unfairness reduction together.
     pub unfairness_reduction: Change,
+    /// Their utility together.
     pub utility: Change,
     /// How it was estimated.
     pub method: String,

@@ -108,10 +108,15 @@ pub fn parse_fairness(text: &str) -> Result<crate::report::FairnessMeasure> {
 /// Settings of `acquest appraise`, beyond those of the trials.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct AppraisalSettings {
+    /// The cost sheet.
     pub costs: PathBuf,
+    /// The currency its costs are in.
     pub currency: String,
+    /// The fairness measure the utility counts.
     pub fairness: FairnessMeasure,
+    /// Weight of the accuracy gain in the utility.
     pub weigh_accuracy: f64,
+    /// Weight of the unfairness reduction in the utility.
     pub weigh_fairness: f64,
 }
 

@@ -18,43 +18,81 @@ pub const PROJECT_FILE: &str = "acquest.toml";
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
 pub struct Choices {
+    /// `--data` (or `data` in the project file).
     pub data: Option<PathBuf>,
+    /// `--delimiter` (or `delimiter` in the project file).
     pub delimiter: Option<String>,
+    /// `--no-header` (or `no-header` in the project file).
     pub no_header: Option<bool>,
+    /// `--columns` (or `columns` in the project file).
     pub columns: Option<Vec<String>>,
+    /// `--na` (or `na` in the project file).
     pub na: Option<Vec<String>>,
+    /// `--skip-lines` (or `skip-lines` in the project file).
     pub skip_lines: Option<usize>,
+    /// `--comment` (or `comment` in the project file).
     pub comment: Option<String>,
+    /// `--target` (or `target` in the project file).
     pub target: Option<String>,
+    /// `--favourable` (or `favourable` in the project file).
     pub favourable: Option<String>,
+    /// `--protected` (or `protected` in the project file).
     pub protected: Option<String>,
+    /// `--reference` (or `reference` in the project file).
     pub reference: Option<String>,
+    /// `--groups` (or `groups` in the project file).
     pub groups: Option<String>,
+    /// `--features` (or `features` in the project file).
     pub features: Option<Vec<String>>,
+    /// `--exclude` (or `exclude` in the project file).
     pub exclude: Option<Vec<String>>,
+    /// `--categorical` (or `categorical` in the project file).
     pub categorical: Option<Vec<String>>,
+    /// `--use-protected` (or `use-protected` in the project file).
     pub use_protected: Option<bool>,
+    /// `--model` (or `model` in the project file).
     pub model: Option<String>,
+    /// `--repeats` (or `repeats` in the project file).
     pub repeats: Option<usize>,
+    /// `--test-fraction` (or `test-fraction` in the project file).
     pub test_fraction: Option<f64>,
+    /// `--seed` (or `seed` in the project file).
     pub seed: Option<u64>,
+    /// `--confidence` (or `confidence` in the project file).
     pub confidence: Option<f64>,
+    /// `--max-train-rows` (or `max-train-rows` in the project file).
     pub max_train_rows: Option<usize>,
+    /// `--costs` (or `costs` in the project file).
     pub costs: Option<PathBuf>,
+    /// `--budget` (or `budget` in the project file).
     pub budget: Option<f64>,
+    /// `--currency` (or `currency` in the project file).
     pub currency: Option<String>,
+    /// `--at` (or `at` in the project file).
     pub at: Option<Vec<String>>,
+    /// `--smallest` (or `smallest` in the project file).
     pub smallest: Option<usize>,
+    /// `--fairness` (or `fairness` in the project file).
     pub fairness: Option<String>,
+    /// `--weigh-accuracy` (or `weigh-accuracy` in the project file).
     pub weigh_accuracy: Option<f64>,
+    /// `--weigh-fairness` (or `weigh-fairness` in the project file).
     pub weigh_fairness: Option<f64>,
+    /// `--cautious` (or `cautious` in the project file).
     pub cautious: Option<bool>,
+    /// `--keep-accuracy` (or `keep-accuracy` in the project file).
     pub keep_accuracy: Option<bool>,
+    /// `--no-adverse-impact` (or `no-adverse-impact` in the project file).
     pub no_adverse_impact: Option<bool>,
+    /// `--hold-rows` (or `hold-rows` in the project file).
     pub hold_rows: Option<f64>,
+    /// `--hold-features` (or `hold-features` in the project file).
     pub hold_features: Option<Vec<String>>,
+    /// `--pilot` (or `pilot` in the project file).
     pub pilot: Option<f64>,
+    /// `--hold-group` (or `hold-group` in the project file).
     pub hold_group: Option<String>,
+    /// `--rounds` (or `rounds` in the project file).
     pub rounds: Option<usize>,
 }
 
@@ -193,18 +231,27 @@ pub enum Membership {
     /// Every value no other group claims.
     Rest,
     /// A numeric comparison, e.g. `<= 25`.
-    Compare { op: Comparison, value: f64 },
+    Compare {
+        /// The operator.
+        op: Comparison,
+        /// The number compared with.
+        value: f64,
+    },
 }
 
 /// A numeric comparison operator.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub enum Comparison {
+    /// `<`
     #[serde(rename = "<")]
     Less,
+    /// `<=`
     #[serde(rename = "<=")]
     LessOrEqual,
+    /// `>`
     #[serde(rename = ">")]
     Greater,
+    /// `>=`
     #[serde(rename = ">=")]
     GreaterOrEqual,
 }
@@ -252,27 +299,38 @@ pub fn parse_comparison(text: &str) -> Option<(Comparison, f64)> {
 /// Which columns mean what.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SchemaSettings {
+    /// The label column.
     pub target: String,
     /// The favourable label value, or a comparison such as `>=10` for a numeric target.
     pub favourable: String,
+    /// The protected column.
     pub protected: String,
+    /// The reference group, when given.
     pub reference: Option<String>,
     /// Groups formed from the protected column; `None` means one group per distinct value.
     pub groups: Option<Vec<GroupRule>>,
+    /// Columns to train on, when given (else every other column).
     pub features: Option<Vec<String>>,
+    /// Columns left out.
     pub exclude: Vec<String>,
     /// Columns read as categories even when their values look like numbers.
     pub categorical: Vec<String>,
+    /// Whether the model sees the protected column.
     pub use_protected: bool,
 }
 
 /// How trials are run.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TrialSettings {
+    /// The model family.
     pub model: ModelKind,
+    /// Repeated train/test trials.
     pub repeats: usize,
+    /// Share of rows held out for testing in each trial.
     pub test_fraction: f64,
+    /// The master seed.
     pub seed: u64,
+    /// Confidence level of the intervals.
     pub confidence: f64,
     /// No trial trains on more rows than this (a stratified subsample, with the test part cut
     /// in proportion); today's full size is then read off the curves by extrapolation.
@@ -286,9 +344,13 @@ pub const DEFAULT_MAX_TRAIN_ROWS: usize = 40_000;
 /// Everything `acquest baseline` needs, checked.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Settings {
+    /// The data file.
     pub data: PathBuf,
+    /// How to read it, when it is CSV.
     pub csv: CsvSettings,
+    /// Which columns mean what.
     pub schema: SchemaSettings,
+    /// How trials are run.
     pub trials: TrialSettings,
 }
 

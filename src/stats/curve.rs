@@ -53,7 +53,9 @@ impl Family {
 /// A fitted curve.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Fit {
+    /// The family fitted.
     pub family: Family,
+    /// How the fit ended.
     pub status: FitStatus,
     /// a, β (= −b for pow3/exp3, b for log2) and c, on the scaled size x = n / n_ref.
     level: f64,

@@ -20,8 +20,11 @@ pub trait RateSource {
 /// A group's three rates, all defined (read off curves, say).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Rates {
+    /// P(ŷ = 1).
     pub selection: f64,
+    /// P(ŷ = 1 | y = 1).
     pub true_positive: f64,
+    /// P(ŷ = 1 | y = 0).
     pub false_positive: f64,
 }
 

@@ -12,8 +12,11 @@ use crate::error::{Error, Result};
 /// the objective scikit-learn minimises with C = 1/alpha.
 #[derive(Debug, Clone)]
 pub struct Logistic {
+    /// L2 penalty on the weights (scikit-learn's 1/C).
     pub alpha: f64,
+    /// Most L-BFGS iterations.
     pub max_iterations: u64,
+    /// Stop when the gradient norm per training row falls below this.
     pub gradient_tolerance: f64,
 }
 

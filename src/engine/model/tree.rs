@@ -18,7 +18,9 @@ use crate::error::{Error, Result};
 /// training rows in each leaf.
 #[derive(Debug, Clone)]
 pub struct Tree {
+    /// Deepest a branch may grow.
     pub max_depth: usize,
+    /// Fewest (weighted) rows in a leaf.
     pub min_leaf_rows: f32,
 }
 
