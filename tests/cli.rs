@@ -1490,6 +1490,12 @@ fn backtest_on_adult_reports_predicted_against_realised_gains() {
         let methods: Vec<&str> = s.methods.iter().map(|m| m.method.name()).collect();
         assert_eq!(methods, ["acquest", "last-anchor", "pilot-alone"]);
         assert!(s.methods.iter().all(|m| m.entries == 4));
+        // Every method's intervals get an interval score and a mean width; detection counts
+        // only significant realised gains.
+        for m in &s.methods {
+            assert!(m.interval_score_pp.is_some() && m.mean_width_pp.is_some(), "{m:?}");
+            assert!(m.detected <= m.significant);
+        }
     }
     assert!(report.targets.len() >= 11, "{:?}", report.targets);
     assert_eq!(report.cautions.len(), 4);

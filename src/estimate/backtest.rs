@@ -746,6 +746,29 @@ fn method_summary(
         .iter()
         .filter(|e| predicted(e).signum() == realised(e).signum() && predicted(e) != 0.0)
         .count();
+    // Detection: a significant realised gain whose predicted interval excludes zero on its side.
+    let detected = significant
+        .iter()
+        .filter(|e| {
+            let c = e.record.predicted(m);
+            match (c.low, c.high) {
+                (Some(l), Some(_)) if realised(e) > 0.0 => l > 0.0,
+                (Some(_), Some(h)) if realised(e) < 0.0 => h < 0.0,
+                _ => false,
+            }
+        })
+        .count();
+    let intervals: Vec<(f64, f64, f64)> = with_interval
+        .iter()
+        .filter_map(|e| {
+            let c = e.record.predicted(m);
+            Some((c.low?, c.high?, realised(e)))
+        })
+        .collect();
+    let mean_pp = |values: Vec<f64>| -> Option<f64> {
+        (!values.is_empty()).then(|| values.iter().sum::<f64>() / values.len() as f64 * 100.0)
+    };
+    let alpha = 1.0 - confidence;
     // Spearman's correlation within each round (the options a user would rank), averaged
     // over the rounds where it is defined.
     let within = |sets: &mut dyn Iterator<Item = Vec<usize>>| -> Option<f64> {
@@ -805,9 +828,28 @@ fn method_summary(
         distinct_entries: chains.iter().map(Vec::len).sum(),
         distinct_rounds: chains.iter().filter(|c| c.len() >= 2).count(),
         best_named: named,
+        interval_score_pp: mean_pp(
+            intervals
+                .iter()
+                .map(|&(l, h, r)| interval_score(l, h, r, alpha))
+                .collect(),
+        ),
+        mean_width_pp: mean_pp(intervals.iter().map(|&(l, h, _)| h - l).collect()),
+        detected,
+        detection: (!significant.is_empty()).then(|| detected as f64 / significant.len() as f64),
         best_named_or_tied: tied,
         rounds_compared: compared,
     }
+}
+
+/// The interval score of a central (1 − α) interval [low, high] against the value seen:
+/// its width, plus 2/α times how far the value falls outside it (Gneiting and Raftery 2007,
+/// "Strictly proper scoring rules, prediction, and estimation", JASA 102, section 6.2, from
+/// memory). Lower is better; it rewards narrow intervals only as far as they still cover.
+pub fn interval_score(low: f64, high: f64, seen: f64, alpha: f64) -> f64 {
+    let below = (low - seen).max(0.0);
+    let above = (seen - high).max(0.0);
+    (high - low) + 2.0 / alpha * (below + above)
 }
 
 /// The quality targets of the backtest, for accuracy and the chosen fairness measure.
@@ -894,6 +936,15 @@ fn check_targets(summary: &[QuantitySummary], fairness: FairnessMeasure) -> Vec<
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn interval_score_is_width_plus_the_weighted_miss() {
+        // Worked by hand from the definition (Gneiting and Raftery 2007, section 6.2, from
+        // memory): an 80% interval [0, 1] (alpha 0.2, so misses weigh 2/0.2 = 10).
+        assert!((interval_score(0.0, 1.0, 0.5, 0.2) - 1.0).abs() < 1e-12);
+        assert!((interval_score(0.0, 1.0, 1.5, 0.2) - 6.0).abs() < 1e-12);
+        assert!((interval_score(0.0, 1.0, -0.25, 0.2) - 3.5).abs() < 1e-12);
+    }
     use crate::data::{Group, Values};
 
     /// 400 rows, two groups, an `id` feature that names each row and a second feature.

@@ -780,7 +780,10 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
             "mean abs. error (pp)",
             "RMSE net of noise (pp)",
             "coverage",
+            "interval score (pp)",
+            "mean width (pp)",
             "signs right",
+            "detected",
             "Spearman (all)",
             "Spearman (distinct)",
             "best named",
@@ -803,7 +806,11 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
                     }
                     _ => "no intervals".into(),
                 },
+                m.interval_score_pp
+                    .map_or("n/a".into(), |e| format!("{e:.2}")),
+                m.mean_width_pp.map_or("n/a".into(), |e| format!("{e:.2}")),
                 format!("{} of {}", m.sign_correct, m.significant),
+                format!("{} of {}", m.detected, m.significant),
                 m.spearman_all.map_or("n/a".into(), |r| format!("{r:.2}")),
                 match m.spearman_distinct {
                     Some(r) => format!("{r:.2} in {} rounds", m.distinct_rounds),

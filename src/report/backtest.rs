@@ -219,6 +219,20 @@ pub struct MethodSummary {
     pub best_named: usize,
     /// Rounds whose named option does not do significantly worse than the best.
     pub best_named_or_tied: usize,
+    /// Mean interval score of the predicted intervals (width plus 2/α times the miss,
+    /// Gneiting and Raftery 2007), in percentage points; lower is better.
+    #[serde(default)]
+    pub interval_score_pp: Option<f64>,
+    /// Mean width of the predicted intervals, in percentage points.
+    #[serde(default)]
+    pub mean_width_pp: Option<f64>,
+    /// Of the significant realised gains, those whose predicted interval excludes zero on the
+    /// side of the realised gain.
+    #[serde(default)]
+    pub detected: usize,
+    /// That share of the significant realised gains.
+    #[serde(default)]
+    pub detection: Option<f64>,
     /// Rounds with at least two options (where naming the best means anything).
     pub rounds_compared: usize,
 }

@@ -22,15 +22,16 @@ def main(folder):
     reports = {c: json.loads((folder / f"{c}.json").read_text()) for c in CASES if (folder / f"{c}.json").exists()}
     for quantity, title in [("accuracy", "Accuracy gain"), ("eod", "Equal-opportunity unfairness reduction")]:
         print(f"\n#### {title}\n")
-        print("| case | method | MAE (pp) | RMSE net of noise (pp) | coverage (noise allowed) | signs right | Spearman, distinct (all) | best named (or tied) |")
-        print("|---|---|---|---|---|---|---|---|")
+        print("| case | method | MAE (pp) | RMSE net of noise (pp) | coverage (noise allowed) | interval score (pp) | mean width (pp) | signs right | detected | Spearman, distinct (all) | best named (or tied) |")
+        print("|---|---|---|---|---|---|---|---|---|---|---|")
         for case, r in reports.items():
             s = next(s for s in r["summary"] if s["quantity"] == quantity)
             for m in s["methods"]:
                 print(
                     f"| {case} | {m['method']} | {fmt(m['mean_absolute_error_pp'])} | {fmt(m['error_net_of_noise_pp'])} "
                     f"| {pct(m['coverage'])} ({pct(m['coverage_allowing_noise'])}) of {m['with_interval']} "
-                    f"| {m['sign_correct']} of {m['significant']} "
+                    f"| {fmt(m.get('interval_score_pp'))} | {fmt(m.get('mean_width_pp'))} "
+                    f"| {m['sign_correct']} of {m['significant']} | {m.get('detected', 0)} of {m['significant']} "
                     f"| {fmt(m['spearman_distinct'])} in {m['distinct_rounds']} rounds ({fmt(m['spearman_all'])}) "
                     f"| {m['best_named']} of {m['rounds_compared']} ({m['best_named_or_tied']}) |"
                 )
