@@ -1493,7 +1493,10 @@ fn backtest_on_adult_reports_predicted_against_realised_gains() {
         // Every method's intervals get an interval score and a mean width; detection counts
         // only significant realised gains.
         for m in &s.methods {
-            assert!(m.interval_score_pp.is_some() && m.mean_width_pp.is_some(), "{m:?}");
+            assert!(
+                m.interval_score_pp.is_some() && m.mean_width_pp.is_some(),
+                "{m:?}"
+            );
             assert!(m.detected <= m.significant);
         }
     }
