@@ -50,6 +50,30 @@ fn adult_flags(data: &str) -> Vec<&str> {
     ]
 }
 
+/// adult.data (at `data`) with each `(column, share)` blanked ("?") outside an independent random
+/// pilot of that share of rows, the draws taken row by row in the order given from a stream of
+/// the project's own seeded by `seed` (awk's generator differs between implementations).
+fn adult_with_pilots(data: &Path, pilots: &[(usize, f64)], seed: u64) -> String {
+    use acquest::engine::streams::{stream_rng, Stream};
+    use rand::Rng;
+    let mut rng = stream_rng(seed, Stream::Check(11), 0);
+    let mut out = String::new();
+    for line in std::fs::read_to_string(data).unwrap().lines() {
+        let mut fields: Vec<&str> = line.split(", ").collect();
+        if fields.len() < 15 {
+            continue;
+        }
+        for &(column, share) in pilots {
+            if rng.gen::<f64>() >= share {
+                fields[column] = "?";
+            }
+        }
+        out.push_str(&fields.join(", "));
+        out.push('\n');
+    }
+    out
+}
+
 fn acquest() -> Command {
     let mut cmd = Command::cargo_bin("acquest").unwrap();
     cmd.env_remove("RAYON_NUM_THREADS");
@@ -985,6 +1009,8 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
         with_features(&["postcode_digit"]),
     ];
     let mut gains = vec![(0.0, 0.0); names.len()];
+    // Each repetition's gains too, for the truth's own noise.
+    let mut per_repetition = vec![Vec::new(); names.len()];
     let training = report.today.training_rows;
     for k in 0..repetitions {
         let mut rows: Vec<usize> = (0..DEMO_ROWS).collect();
@@ -999,6 +1025,7 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
             let (a, u) = measure(variant, train);
             gains[i].0 += (a - a0) / repetitions as f64;
             gains[i].1 += (u0 - u) / repetitions as f64;
+            per_repetition[i].push((a - a0, u0 - u));
         }
         // 3,000 more applications, of which the training part is the same share as today's.
         let share = training as f64 / DEMO_ROWS as f64;
@@ -1011,6 +1038,7 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
         let (a, u) = measure(&base, &more);
         gains[3].0 += (a - a0) / repetitions as f64;
         gains[3].1 += (u0 - u) / repetitions as f64;
+        per_repetition[3].push((a - a0, u0 - u));
         let mut targeted: Vec<usize> = train.to_vec();
         targeted.extend(
             (declared_start + 600 * k..declared_start + 600 * (k + 1))
@@ -1019,6 +1047,7 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
         let (a, u) = measure(&base, &targeted);
         gains[4].0 += (a - a0) / repetitions as f64;
         gains[4].1 += (u0 - u) / repetitions as f64;
+        per_repetition[4].push((a - a0, u0 - u));
     }
     eprintln!("option                      true acc   predicted acc [interval]            true fair  predicted fair [interval]");
     for (i, name) in names.iter().enumerate() {
@@ -1043,6 +1072,28 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
     };
     let true_accuracy: Vec<f64> = gains.iter().map(|g| g.0).collect();
     let true_fairness: Vec<f64> = gains.iter().map(|g| g.1).collect();
+    // For the ranking, a true effect within two standard errors of its own repetitions
+    // (common practice, no source) is no effect: the truth cannot order those options, so
+    // they tie at zero.
+    let resolved = |side: fn(&(f64, f64)) -> f64| -> Vec<f64> {
+        per_repetition
+            .iter()
+            .map(|r| {
+                let v: Vec<f64> = r.iter().map(side).collect();
+                let n = v.len() as f64;
+                let mean = v.iter().sum::<f64>() / n;
+                let sd = (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+                if mean.abs() < 2.0 * sd / n.sqrt() {
+                    0.0
+                } else {
+                    mean
+                }
+            })
+            .collect()
+    };
+    let ranked_accuracy = resolved(|g| g.0);
+    let ranked_fairness = resolved(|g| g.1);
+    eprintln!("true effects as ranked (zero where within two standard errors): accuracy {ranked_accuracy:.4?}, fairness {ranked_fairness:.4?}");
     let predicted = |f: &dyn Fn(&acquest::report::Purchase) -> f64| -> Vec<f64> {
         names
             .iter()
@@ -1069,17 +1120,18 @@ fn demo_appraisal_against_the_truth_of_its_generating_model() {
         "best option by fairness gain"
     );
     // The rankings agree: Spearman's rank correlation (ties share their mean rank) of at least
-    // 0.8 (the project's target; common practice, no source). Options whose true effect is near
-    // zero (postcode, both rows options) are estimated as flat curves, so they tie.
+    // 0.8 (the project's target; common practice, no source), against the true effects the
+    // truth can resolve (the rest tie at zero, above). The rows options are estimated as flat
+    // curves, so they tie on the estimated side.
     assert!(
-        acquest::stats::metrics::spearman(&predicted_accuracy, &true_accuracy)
+        acquest::stats::metrics::spearman(&predicted_accuracy, &ranked_accuracy)
             .is_some_and(|r| r >= 0.8),
-        "{predicted_accuracy:?} vs {true_accuracy:?}"
+        "{predicted_accuracy:?} vs {ranked_accuracy:?}"
     );
     assert!(
-        acquest::stats::metrics::spearman(&predicted_fairness, &true_fairness)
+        acquest::stats::metrics::spearman(&predicted_fairness, &ranked_fairness)
             .is_some_and(|r| r >= 0.8),
-        "{predicted_fairness:?} vs {true_fairness:?}"
+        "{predicted_fairness:?} vs {ranked_fairness:?}"
     );
 }
 
@@ -1681,4 +1733,81 @@ fn a_scaled_demo_writes_wider_data_and_the_same_table_as_parquet() {
     assert_eq!(from_parquet.inputs.data.format, "parquet");
     assert_eq!(from_parquet.groups, from_csv.groups);
     assert_eq!(from_parquet.model.accuracy, from_csv.model.accuracy);
+}
+
+/// A candidate whose pilot difference is overwhelmingly significant is bought by a cautious
+/// plan. Adult (../shared/data/adult, PROVENANCE.md) with marital status known on a random 30%
+/// of the rows only, and relationship (which carries much the same household information) left
+/// out: dropping marital status costs the model about 2.7 points of accuracy on all rows
+/// (`acquest baseline`'s ablation). The team here weighs accuracy only (--weigh-fairness 0), so
+/// the plan turns on the accuracy gain alone: with fairness weighed the same plan rightly buys
+/// nothing, since marital status also widens the equal-opportunity gap (about −0.15 |EOD|
+/// reduction at full size, its interval clear of zero).
+#[test]
+fn a_cautious_plan_buys_a_feature_whose_pilot_gain_is_clear() {
+    let Some(data) = shared("adult/adult.data") else {
+        return;
+    };
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("adult-pilot.csv"),
+        adult_with_pilots(&data, &[(5, 0.3)], 5),
+    )
+    .unwrap();
+    std::fs::write(
+        dir.path().join("costs.csv"),
+        "name,kind,column,per_row,fixed,max_rows,step,sensitive,note
+marital,feature,marital-status,0.40,1000,,,no,Marital status from the household survey
+more-records,rows,,1.50,0,30000,10000,no,Another census extract
+",
+    )
+    .unwrap();
+    let mut args = vec!["plan"];
+    args.extend(adult_flags("adult-pilot.csv"));
+    args.extend([
+        "--exclude",
+        "relationship",
+        "--costs",
+        "costs.csv",
+        "--budget",
+        "20000",
+        "--cautious",
+        "--weigh-fairness",
+        "0",
+        "--repeats",
+        "5",
+        "--quiet",
+        "--no-project",
+        "--json",
+        "plan.json",
+    ]);
+    acquest()
+        .current_dir(dir.path())
+        .args(&args)
+        .assert()
+        .success();
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("plan.json")).unwrap())
+            .unwrap();
+    let marital = plan["appraisal"]["options"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|o| o["name"] == "marital")
+        .unwrap();
+    let pilot_p = marital["pilot"]["accuracy_difference"]["p_value"]
+        .as_f64()
+        .unwrap();
+    assert!(pilot_p < 0.001, "pilot p {pilot_p}");
+    let low = marital["estimate"]["accuracy_gain"]["low"]
+        .as_f64()
+        .unwrap();
+    assert!(low > 0.0, "headline interval reaches {low}");
+    let bought: Vec<&str> = plan["plan"]["items"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|i| i["option"].as_str().unwrap())
+        .collect();
+    assert_eq!(bought, ["marital"], "{}", plan["plan"]);
 }

@@ -16,6 +16,7 @@ use crate::settings::{CurveSettings, Settings, SizeRequest};
 use crate::stats::curve::{self, Choice, Fit};
 use crate::stats::fairness::{self, Rates};
 use crate::stats::metrics::GroupCounts;
+use crate::stats::trend;
 
 /// Fewest rows of one (group, label) cell that the smallest anchor must hold.
 pub const MIN_CELL_ROWS: usize = 10;
@@ -649,32 +650,34 @@ fn fit_quantity(
     }
 }
 
-/// Curves of paired differences (with − without, repeat by repeat and size by size) of every
-/// quantity, from two sets of trials on the same splits and orders. Fitting the paired
-/// difference keeps the split-to-split noise the two share out of the curve.
+/// Paired differences (with − without, repeat by repeat and size by size) of every quantity,
+/// from two sets of trials on the same splits and orders, and their extension beyond the largest
+/// size measured. Pairing keeps the split-to-split noise the two share out of the difference.
 pub struct DifferenceCurves {
-    fits: Vec<QuantityFit>,
-    /// The families chosen, per quantity.
-    pub families: Vec<Option<curve::Family>>,
+    /// Per quantity (laid out as [`Quantity::all`]): `[repeat][size]`.
+    per_repeat: Vec<Vec<Vec<Option<f64>>>>,
+    sizes: Vec<f64>,
+    draws: Vec<Vec<usize>>,
+    /// The factor by which the scorer widens bootstrap spreads (the overlap of repeated
+    /// splits); the increment's noise is weighed at that width.
+    spread: f64,
 }
 
 impl DifferenceCurves {
-    /// Fits the differences of `with` over `without` (both `[repeat][size]`, same sizes).
+    /// The differences of `with` over `without` (both `[repeat][size]`, same sizes), with
+    /// bootstrap draws over repeats from the master seed.
     pub fn fit(
         with: &[Vec<TrialOutcome>],
         without: &[Vec<TrialOutcome>],
         sizes: &[usize],
         group_count: usize,
         seed: u64,
+        spread: f64,
     ) -> DifferenceCurves {
-        let sizes_f: Vec<f64> = sizes.iter().map(|&n| n as f64).collect();
-        let held_back = if sizes.len() >= 9 { 3 } else { 2 };
-        let draws = bootstrap_draws(seed, with.len());
-        let fits: Vec<QuantityFit> = Quantity::all(group_count)
+        let per_repeat = Quantity::all(group_count)
             .into_iter()
             .map(|q| {
-                let per_repeat = with
-                    .iter()
+                with.iter()
                     .zip(without)
                     .map(|(a, b)| {
                         a.iter()
@@ -682,21 +685,109 @@ impl DifferenceCurves {
                             .map(|(x, y)| Some(q.read(x)? - q.read(y)?))
                             .collect()
                     })
-                    .collect();
-                fit_quantity(per_repeat, &sizes_f, held_back, &draws)
+                    .collect()
             })
             .collect();
-        let families = fits
-            .iter()
-            .map(|f| f.choice.as_ref().map(|c| c.fit().family))
-            .collect();
-        DifferenceCurves { fits, families }
+        DifferenceCurves {
+            per_repeat,
+            sizes: sizes.iter().map(|&n| n as f64).collect(),
+            draws: bootstrap_draws(seed, with.len()),
+            spread,
+        }
     }
 
-    /// Every quantity's difference at size n (not clipped).
+    /// Every quantity's difference carried to size n (see [`extend_difference`]; not clipped).
     pub fn read(&self, n: f64) -> Reading {
-        Reading::of_fits(&self.fits, n, |v| v)
+        let groups = (self.per_repeat.len() - 1) / 3;
+        let extended: Vec<(f64, Vec<f64>)> = self
+            .per_repeat
+            .iter()
+            .map(|per_repeat| {
+                extend_difference(per_repeat, &self.sizes, &self.draws, n, self.spread)
+            })
+            .collect();
+        Reading {
+            point: Quantities::from_fn(groups, |q| extended[q.index()].0),
+            draws: (0..self.draws.len())
+                .map(|b| Quantities::from_fn(groups, |q| extended[q.index()].1[b]))
+                .collect(),
+        }
     }
+}
+
+/// One quantity's paired difference carried from the largest measured size to `n`: the mean
+/// difference measured there (the last anchor) plus the trend of the upper anchors in log size
+/// times ln(n / largest), that increment shrunk towards none by its noise
+/// ([`trend::keep_share`], its variance widened by `spread` as the scorer will widen it). Each
+/// bootstrap draw recomputes anchor and trend on its repeats. A draw's deviation of the
+/// increment is scaled by √w, w the share kept: with w = b²/(b² + v) the mean squared error of
+/// the shrunk increment w·b̂ is (1 − w)²b² + w²v = w·v, so √w is the scale at which the draws
+/// carry the shrunk increment's error (all of it when the trend is sure, little of it when the
+/// trend is mostly shrunk away). Returns the point and one value per draw (NaN where a draw
+/// lacks the last anchor).
+fn extend_difference(
+    per_repeat: &[Vec<Option<f64>>],
+    sizes: &[f64],
+    draws: &[Vec<usize>],
+    n: f64,
+    spread: f64,
+) -> (f64, Vec<f64>) {
+    let Some(&largest) = sizes.last() else {
+        return (f64::NAN, vec![f64::NAN; draws.len()]);
+    };
+    let upper = trend::upper_anchors(sizes);
+    let distance = (n / largest).ln();
+    let anchor_and_increment = |draw: &[usize]| -> (f64, f64) {
+        let (kept, means) = curve::means_over(per_repeat, draw, sizes.len());
+        let anchor = match kept.last() {
+            Some(&i) if i + 1 == sizes.len() => means[means.len() - 1],
+            _ => f64::NAN,
+        };
+        let (x, y): (Vec<f64>, Vec<f64>) = kept
+            .iter()
+            .zip(&means)
+            .filter(|(&i, _)| upper.contains(&i))
+            .map(|(&i, &m)| (sizes[i], m))
+            .unzip();
+        let increment = if distance == 0.0 {
+            0.0
+        } else {
+            trend::log_slope(&x, &y).map_or(f64::NAN, |slope| slope * distance)
+        };
+        (anchor, increment)
+    };
+    let all: Vec<usize> = (0..per_repeat.len()).collect();
+    let (anchor, increment) = anchor_and_increment(&all);
+    let parts: Vec<(f64, f64)> = draws.iter().map(|d| anchor_and_increment(d)).collect();
+    let finite: Vec<f64> = parts
+        .iter()
+        .map(|p| p.1)
+        .filter(|v| v.is_finite())
+        .collect();
+    let variance = if finite.len() > 1 {
+        let m = finite.iter().sum::<f64>() / finite.len() as f64;
+        finite.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (finite.len() - 1) as f64
+    } else {
+        f64::NAN
+    };
+    let (increment, kept) = if increment.is_finite() {
+        (
+            increment,
+            trend::keep_share(increment, spread * spread * variance),
+        )
+    } else {
+        (0.0, 0.0)
+    };
+    let point = anchor + kept * increment;
+    let scale = kept.sqrt();
+    let values = parts
+        .iter()
+        .map(|&(a, i)| {
+            let i = if i.is_finite() { i } else { increment };
+            a + kept * increment + (i - increment) * scale
+        })
+        .collect();
+    (point, values)
 }
 
 /// Fits every quantity, derives the disparities, and reads all curves at the grid and at the

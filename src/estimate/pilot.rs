@@ -147,6 +147,7 @@ pub(super) fn feature_value(
         );
     }
     flags.extend(option_flags(option, &estimate, trials.confidence));
+    flags.extend(evidence_flag(&pilot_summary, &estimate, trials.confidence));
     let value = OptionValue {
         name: option.name.clone(),
         kind: OptionKind::Feature,
@@ -227,6 +228,7 @@ pub(super) fn measure_pilot(
                 &with.schedule.sizes,
                 data.group_list.len(),
                 trials.seed,
+                super::score::overlap_spread(trials),
             );
             Ok(PilotMeasurement::Curves {
                 without: Box::new(without),
@@ -297,6 +299,50 @@ pub(super) fn reading_from_outcomes(
     Reading {
         point: mean(&all),
         draws,
+    }
+}
+
+/// Where the pilot's own paired difference is significant but the headline at full size is
+/// not, the doubt lies in carrying the difference to the full size, not in the difference: the
+/// flag says so, with the pilot's p-values, so that "not significant" is not read as "no
+/// effect seen".
+fn evidence_flag(pilot: &PilotSummary, headline: &Purchase, confidence: f64) -> Option<String> {
+    let alpha = 1.0 - confidence;
+    let below = |p: Option<f64>| p.is_some_and(|p| p < alpha);
+    let pilot_p = |e: &Option<Estimate>| e.as_ref().and_then(|e| e.p_value);
+    let mut seen = Vec::new();
+    if below(pilot_p(&pilot.accuracy_difference))
+        && !headline.accuracy_gain.differs_from_zero(confidence)
+    {
+        seen.push(format!(
+            "accuracy p = {}",
+            short_p(pilot_p(&pilot.accuracy_difference).unwrap_or(f64::NAN))
+        ));
+    }
+    if below(pilot_p(&pilot.unfairness_difference))
+        && !headline.unfairness_reduction.differs_from_zero(confidence)
+    {
+        seen.push(format!(
+            "unfairness p = {}",
+            short_p(pilot_p(&pilot.unfairness_difference).unwrap_or(f64::NAN))
+        ));
+    }
+    (!seen.is_empty()).then(|| {
+        format!(
+            "significant on the pilot at its own size ({}); the doubt is in carrying it to the full size",
+            seen.join(", ")
+        )
+    })
+}
+
+/// A p-value in a flag: three decimals, or a power of ten below 0.001.
+fn short_p(p: f64) -> String {
+    if p < 1e-16 {
+        "< 1e-16".into()
+    } else if p < 0.001 {
+        format!("{p:.0e}")
+    } else {
+        format!("{p:.3}")
     }
 }
 

@@ -188,7 +188,7 @@ pub(super) fn option_flags(
     if headline.extrapolated_too_far {
         flags.push("extrapolated beyond 4x the largest size measured".into());
     }
-    let significant = |c: &Change| c.p_value.is_some_and(|p| p < 1.0 - confidence);
+    let significant = |c: &Change| c.differs_from_zero(confidence);
     if !significant(&headline.accuracy_gain) && !significant(&headline.unfairness_reduction) {
         flags.push("neither gain differs significantly from zero".into());
     }

@@ -121,12 +121,7 @@ fn p_value(p: Option<f64>) -> String {
 
 /// "+0.0123 [+0.0050, +0.0190]" for a change, with "*" when it differs from zero.
 fn change_cell(c: &Change, confidence: f64) -> String {
-    signed_cell(
-        c.mean,
-        c.low,
-        c.high,
-        c.p_value.is_some_and(|p| p < 1.0 - confidence),
-    )
+    signed_cell(c.mean, c.low, c.high, c.differs_from_zero(confidence))
 }
 
 /// "+0.0123 [+0.0050, +0.0190] *": a signed value, its interval, a star when significant.

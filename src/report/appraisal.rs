@@ -95,6 +95,20 @@ pub struct Change {
     pub p_value: Option<f64>,
 }
 
+impl Change {
+    /// Whether the change differs significantly from zero at `confidence`: its interval (the
+    /// one the reports show) lies on one side of zero; without an interval, its p-value is
+    /// below 1 − confidence. The bootstrap p counts draws on each side while the interval
+    /// interpolates between draws, so at the boundary the two can disagree by one draw; the
+    /// interval decides.
+    pub fn differs_from_zero(&self, confidence: f64) -> bool {
+        match (self.low, self.high) {
+            (Some(l), Some(h)) => l > 0.0 || h < 0.0,
+            _ => self.p_value.is_some_and(|p| p < 1.0 - confidence),
+        }
+    }
+}
+
 /// One group's rates before and after a purchase.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct GroupChange {
@@ -148,13 +162,18 @@ pub struct PilotSummary {
     pub mix_chi_square: Option<f64>,
     /// The p-value of that chi-square test.
     pub mix_p_value: Option<f64>,
-    /// Accuracy with the feature minus without, on the pilot at its full size, per repeat.
+    /// Accuracy with the feature minus without, on the pilot at its full size, paired repeat
+    /// by repeat; its interval and `p_value` (against no difference) carry the Nadeau and
+    /// Bengio (2003) correction for the overlap of repeated splits. This is the pilot's
+    /// evidence.
     pub accuracy_difference: Option<Estimate>,
-    /// Welch's t-test p of with against without at the pilot's full size.
+    /// Welch's t-test p of with against without at the pilot's full size, unpaired and
+    /// uncorrected: kept for comparison; it ignores that both sides share their splits.
     pub accuracy_welch_p: Option<f64>,
-    /// Unfairness with the feature minus without, on the pilot at its full size.
+    /// Unfairness with the feature minus without, on the pilot at its full size (paired and
+    /// corrected as `accuracy_difference`).
     pub unfairness_difference: Option<Estimate>,
-    /// Welch's t-test p of the unfairness with against without.
+    /// Welch's t-test p of the unfairness with against without (unpaired, uncorrected).
     pub unfairness_welch_p: Option<f64>,
     /// One-way ANOVA p of the accuracy difference across the pilot's sizes (does the gain
     /// depend on the number of rows?).

@@ -4,3 +4,4 @@
 pub mod curve;
 pub mod fairness;
 pub mod metrics;
+pub mod trend;

@@ -5,7 +5,7 @@
 
 use std::path::Path;
 
-use super::{acquest, adult_flags, shared};
+use super::{acquest, adult_flags, adult_with_pilots, shared};
 
 /// Compares `produced` (a report just written) with the committed golden copy `name`, or
 /// rewrites the copy under `ACQUEST_BLESS`.
@@ -120,28 +120,12 @@ more-women,rows,sex=Female,2.50,2000,10000,2500,no,Targeted sample of women
 /// implementations), so the file is the same on every machine.
 #[test]
 fn golden_plan_on_the_adult_benchmark_file() {
-    use acquest::engine::streams::{stream_rng, Stream};
-    use rand::Rng;
     let Some(data) = shared("adult/adult.data") else {
         return;
     };
     let dir = tempfile::tempdir().unwrap();
-    let mut rng = stream_rng(11, Stream::Check(11), 0);
-    let mut pilot = String::new();
-    for line in std::fs::read_to_string(&data).unwrap().lines() {
-        let mut fields: Vec<&str> = line.split(", ").collect();
-        if fields.len() < 15 {
-            continue;
-        }
-        // occupation, relationship, education (columns 7, 8 and 4), in that order.
-        for column in [6, 7, 3] {
-            if rng.gen::<f64>() >= 0.2 {
-                fields[column] = "?";
-            }
-        }
-        pilot.push_str(&fields.join(", "));
-        pilot.push('\n');
-    }
+    // occupation, relationship, education (columns 7, 8 and 4), in that order.
+    let pilot = adult_with_pilots(&data, &[(6, 0.2), (7, 0.2), (3, 0.2)], 11);
     std::fs::write(dir.path().join("adult-pilot.csv"), pilot).unwrap();
     std::fs::write(dir.path().join("costs.csv"), ADULT_COSTS).unwrap();
     let mut args = vec!["plan"];
