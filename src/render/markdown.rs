@@ -128,7 +128,7 @@ pub fn plan_markdown(report: &PlanReport) -> String {
     let _ = writeln!(out, "\n## How the figures were made\n");
     let _ = writeln!(
         out,
-        "Every figure comes from repeated, seeded, stratified train/test trials on the data given. More rows are valued on learning curves fitted to nested subsamples; a new attribute by paired trials with and without it on its pilot rows, the difference extrapolated to the full data and added to today's curve; intervals come from a bootstrap over the repeats. Estimates read beyond four times the largest size measured are flagged as unreliable. Gains of options bought together are added ({}).\n",
+        "Every figure comes from repeated, seeded, stratified train/test trials on the data given. More rows are valued on learning curves fitted to nested subsamples; a new attribute by paired trials with and without it on its pilot rows, the difference measured there carried to the full data by its trend over the pilot's sizes (shrunk where the trend is lost in its noise) and added to today's curve; intervals come from a bootstrap over the repeats. Estimates read beyond four times the largest size measured are flagged as unreliable. Gains of options bought together are added ({}).\n",
         report.gain_model
     );
     if !report.warnings.is_empty() {

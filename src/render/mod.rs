@@ -102,6 +102,17 @@ fn with_interval(e: Option<&Estimate>) -> String {
     }
 }
 
+/// "+0.0123 [+0.0050, +0.0190] *": a signed estimate (a difference), starred when its test
+/// against its ideal value is significant at 1 − confidence.
+fn signed_estimate(e: &Estimate, confidence: f64) -> String {
+    signed_cell(
+        e.mean,
+        e.low,
+        e.high,
+        !significance(Some(e), confidence).is_empty(),
+    )
+}
+
 /// Marks an estimate whose test against its ideal value is significant at 1 − confidence.
 fn significance(e: Option<&Estimate>, confidence: f64) -> &'static str {
     match e.and_then(|e| e.p_value) {

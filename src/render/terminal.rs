@@ -462,9 +462,9 @@ fn appraisal_body(report: &AppraisalReport) -> String {
         let _ = writeln!(
             out,
             "  on the pilot at its size, with minus without, paired: accuracy {} (p {}), unfairness {} (p {}; negative is fairer)",
-            p.accuracy_difference.as_ref().map_or("n/a".into(), |e| with_interval(Some(e))),
+            p.accuracy_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
             p_value(p.accuracy_difference.as_ref().and_then(|e| e.p_value)),
-            p.unfairness_difference.as_ref().map_or("n/a".into(), |e| with_interval(Some(e))),
+            p.unfairness_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
             p_value(p.unfairness_difference.as_ref().and_then(|e| e.p_value))
         );
         if let Some(d) = &o.direct {
