@@ -74,6 +74,35 @@ fn adult_with_pilots(data: &Path, pilots: &[(usize, f64)], seed: u64) -> String 
     out
 }
 
+/// Writes `pilot` (an Adult file, see [`adult_with_pilots`]) and the cost sheet `costs` into `dir`
+/// and runs `acquest plan` on them with `flags`, 5 repeats, writing `dir/plan.json`; fails with
+/// acquest's standard error when it fails.
+fn plan_on_adult_pilots(dir: &Path, pilot: &str, costs: &str, flags: &[&str]) -> PathBuf {
+    std::fs::write(dir.join("adult-pilot.csv"), pilot).unwrap();
+    std::fs::write(dir.join("costs.csv"), costs).unwrap();
+    let mut args = vec!["plan"];
+    args.extend(adult_flags("adult-pilot.csv"));
+    args.extend(flags);
+    args.extend([
+        "--costs",
+        "costs.csv",
+        "--repeats",
+        "5",
+        "--quiet",
+        "--no-project",
+        "--json",
+        "plan.json",
+    ]);
+    let output = acquest().current_dir(dir).args(&args).output().unwrap();
+    assert!(
+        output.status.success(),
+        "acquest {}: {}",
+        args.join(" "),
+        String::from_utf8_lossy(&output.stderr)
+    );
+    dir.join("plan.json")
+}
+
 fn acquest() -> Command {
     let mut cmd = Command::cargo_bin("acquest").unwrap();
     cmd.env_remove("RAYON_NUM_THREADS");
@@ -1749,46 +1778,26 @@ fn a_cautious_plan_buys_a_feature_whose_pilot_gain_is_clear() {
         return;
     };
     let dir = tempfile::tempdir().unwrap();
-    std::fs::write(
-        dir.path().join("adult-pilot.csv"),
-        adult_with_pilots(&data, &[(5, 0.3)], 5),
-    )
-    .unwrap();
-    std::fs::write(
-        dir.path().join("costs.csv"),
-        "name,kind,column,per_row,fixed,max_rows,step,sensitive,note
+    let costs = "name,kind,column,per_row,fixed,max_rows,step,sensitive,note
 marital,feature,marital-status,0.40,1000,,,no,Marital status from the household survey
 more-records,rows,,1.50,0,30000,10000,no,Another census extract
-",
-    )
-    .unwrap();
-    let mut args = vec!["plan"];
-    args.extend(adult_flags("adult-pilot.csv"));
-    args.extend([
-        "--exclude",
-        "relationship",
-        "--costs",
-        "costs.csv",
-        "--budget",
-        "20000",
-        "--cautious",
-        "--weigh-fairness",
-        "0",
-        "--repeats",
-        "5",
-        "--quiet",
-        "--no-project",
-        "--json",
-        "plan.json",
-    ]);
-    acquest()
-        .current_dir(dir.path())
-        .args(&args)
-        .assert()
-        .success();
+";
+    let written = plan_on_adult_pilots(
+        dir.path(),
+        &adult_with_pilots(&data, &[(5, 0.3)], 5),
+        costs,
+        &[
+            "--exclude",
+            "relationship",
+            "--budget",
+            "20000",
+            "--cautious",
+            "--weigh-fairness",
+            "0",
+        ],
+    );
     let plan: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(dir.path().join("plan.json")).unwrap())
-            .unwrap();
+        serde_json::from_str(&std::fs::read_to_string(written).unwrap()).unwrap();
     let marital = plan["appraisal"]["options"]
         .as_array()
         .unwrap()

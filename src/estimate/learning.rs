@@ -654,13 +654,29 @@ fn fit_quantity(
 /// from two sets of trials on the same splits and orders, and their extension beyond the largest
 /// size measured. Pairing keeps the split-to-split noise the two share out of the difference.
 pub struct DifferenceCurves {
-    /// Per quantity (laid out as [`Quantity::all`]): `[repeat][size]`.
-    per_repeat: Vec<Vec<Vec<Option<f64>>>>,
-    sizes: Vec<f64>,
-    draws: Vec<Vec<usize>>,
+    /// Per quantity (laid out as [`Quantity::all`]): the last anchor and the trend, on all
+    /// repeats and on each bootstrap draw.
+    trends: Vec<Trends>,
+    groups: usize,
+    largest: f64,
     /// The factor by which the scorer widens bootstrap spreads (the overlap of repeated
     /// splits); the increment's noise is weighed at that width.
     spread: f64,
+}
+
+/// One quantity's last anchor and log-size trend of its upper anchors (NaN where undefined),
+/// on all repeats and per bootstrap draw: what [`extend_difference`] carries on. They do not
+/// depend on the size read at, so they are measured once.
+struct Trends {
+    all: AnchorAndSlope,
+    draws: Vec<AnchorAndSlope>,
+}
+
+#[derive(Clone, Copy)]
+struct AnchorAndSlope {
+    anchor: f64,
+    /// Per unit of ln n; `None` where the upper anchors give no slope.
+    slope: Option<f64>,
 }
 
 impl DifferenceCurves {
@@ -674,10 +690,14 @@ impl DifferenceCurves {
         seed: u64,
         spread: f64,
     ) -> DifferenceCurves {
-        let per_repeat = Quantity::all(group_count)
+        let sizes_f: Vec<f64> = sizes.iter().map(|&n| n as f64).collect();
+        let draws = bootstrap_draws(seed, with.len());
+        let all: Vec<usize> = (0..with.len()).collect();
+        let trends = Quantity::all(group_count)
             .into_iter()
             .map(|q| {
-                with.iter()
+                let per_repeat: Vec<Vec<Option<f64>>> = with
+                    .iter()
                     .zip(without)
                     .map(|(a, b)| {
                         a.iter()
@@ -685,80 +705,87 @@ impl DifferenceCurves {
                             .map(|(x, y)| Some(q.read(x)? - q.read(y)?))
                             .collect()
                     })
-                    .collect()
+                    .collect();
+                let measure = |draw: &[usize]| anchor_and_slope(&per_repeat, &sizes_f, draw);
+                Trends {
+                    all: measure(&all),
+                    draws: draws.iter().map(|d| measure(d)).collect(),
+                }
             })
             .collect();
         DifferenceCurves {
-            per_repeat,
-            sizes: sizes.iter().map(|&n| n as f64).collect(),
-            draws: bootstrap_draws(seed, with.len()),
+            trends,
+            groups: group_count,
+            largest: sizes_f.last().copied().unwrap_or(f64::NAN),
             spread,
         }
     }
 
     /// Every quantity's difference carried to size n (see [`extend_difference`]; not clipped).
     pub fn read(&self, n: f64) -> Reading {
-        let groups = (self.per_repeat.len() - 1) / 3;
         let extended: Vec<(f64, Vec<f64>)> = self
-            .per_repeat
+            .trends
             .iter()
-            .map(|per_repeat| {
-                extend_difference(per_repeat, &self.sizes, &self.draws, n, self.spread)
-            })
+            .map(|t| extend_difference(t, (n / self.largest).ln(), self.spread))
             .collect();
         Reading {
-            point: Quantities::from_fn(groups, |q| extended[q.index()].0),
-            draws: (0..self.draws.len())
-                .map(|b| Quantities::from_fn(groups, |q| extended[q.index()].1[b]))
+            point: Quantities::from_fn(self.groups, |q| extended[q.index()].0),
+            draws: (0..self.trends.first().map_or(0, |t| t.draws.len()))
+                .map(|b| Quantities::from_fn(self.groups, |q| extended[q.index()].1[b]))
                 .collect(),
         }
     }
 }
 
-/// One quantity's paired difference carried from the largest measured size to `n`: the mean
-/// difference measured there (the last anchor) plus the trend of the upper anchors in log size
-/// times ln(n / largest), that increment shrunk towards none by its noise
-/// ([`trend::keep_share`], its variance widened by `spread` as the scorer will widen it). Each
-/// bootstrap draw recomputes anchor and trend on its repeats. A draw's deviation of the
-/// increment is scaled by √w, w the share kept: with w = b²/(b² + v) the mean squared error of
-/// the shrunk increment w·b̂ is (1 − w)²b² + w²v = w·v, so √w is the scale at which the draws
-/// carry the shrunk increment's error (all of it when the trend is sure, little of it when the
-/// trend is mostly shrunk away). Returns the point and one value per draw (NaN where a draw
-/// lacks the last anchor).
-fn extend_difference(
+/// The mean difference at the largest size (the last anchor; NaN where the repeats of `draw`
+/// lack it) and the least-squares slope in ln n of the upper anchors' means.
+fn anchor_and_slope(
     per_repeat: &[Vec<Option<f64>>],
     sizes: &[f64],
-    draws: &[Vec<usize>],
-    n: f64,
-    spread: f64,
-) -> (f64, Vec<f64>) {
-    let Some(&largest) = sizes.last() else {
-        return (f64::NAN, vec![f64::NAN; draws.len()]);
-    };
+    draw: &[usize],
+) -> AnchorAndSlope {
     let upper = trend::upper_anchors(sizes);
-    let distance = (n / largest).ln();
-    let anchor_and_increment = |draw: &[usize]| -> (f64, f64) {
-        let (kept, means) = curve::means_over(per_repeat, draw, sizes.len());
-        let anchor = match kept.last() {
-            Some(&i) if i + 1 == sizes.len() => means[means.len() - 1],
-            _ => f64::NAN,
-        };
-        let (x, y): (Vec<f64>, Vec<f64>) = kept
-            .iter()
-            .zip(&means)
-            .filter(|(&i, _)| upper.contains(&i))
-            .map(|(&i, &m)| (sizes[i], m))
-            .unzip();
-        let increment = if distance == 0.0 {
+    let (kept, means) = curve::means_over(per_repeat, draw, sizes.len());
+    let anchor = match kept.last() {
+        Some(&i) if i + 1 == sizes.len() => means[means.len() - 1],
+        _ => f64::NAN,
+    };
+    let (x, y): (Vec<f64>, Vec<f64>) = kept
+        .iter()
+        .zip(&means)
+        .filter(|(&i, _)| upper.contains(&i))
+        .map(|(&i, &m)| (sizes[i], m))
+        .unzip();
+    AnchorAndSlope {
+        anchor,
+        slope: trend::log_slope(&x, &y),
+    }
+}
+
+/// One quantity's paired difference carried `distance` (ln of the size read at over the largest
+/// measured) beyond the largest measured size: the last anchor plus the upper anchors' trend
+/// times the distance, that increment shrunk towards none by its noise ([`trend::keep_share`],
+/// its variance widened by `spread` as the scorer will widen it). Each bootstrap draw has its own
+/// anchor and trend. A draw's deviation of the increment is scaled by √w, w the share kept: with
+/// w = b²/(b² + v) the mean squared error of the shrunk increment w·b̂ is (1 − w)²b² + w²v = w·v,
+/// so √w is the scale at which the draws carry the shrunk increment's error (all of it when the
+/// trend is sure, little of it when the trend is mostly shrunk away). Returns the point and one
+/// value per draw (NaN where a draw lacks the last anchor).
+fn extend_difference(trends: &Trends, distance: f64, spread: f64) -> (f64, Vec<f64>) {
+    let increment_of = |t: &AnchorAndSlope| {
+        if distance == 0.0 {
             0.0
         } else {
-            trend::log_slope(&x, &y).map_or(f64::NAN, |slope| slope * distance)
-        };
-        (anchor, increment)
+            t.slope.map_or(f64::NAN, |slope| slope * distance)
+        }
     };
-    let all: Vec<usize> = (0..per_repeat.len()).collect();
-    let (anchor, increment) = anchor_and_increment(&all);
-    let parts: Vec<(f64, f64)> = draws.iter().map(|d| anchor_and_increment(d)).collect();
+    let anchor = trends.all.anchor;
+    let increment = increment_of(&trends.all);
+    let parts: Vec<(f64, f64)> = trends
+        .draws
+        .iter()
+        .map(|t| (t.anchor, increment_of(t)))
+        .collect();
     let finite: Vec<f64> = parts
         .iter()
         .map(|p| p.1)

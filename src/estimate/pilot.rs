@@ -307,26 +307,25 @@ pub(super) fn reading_from_outcomes(
 /// flag says so, with the pilot's p-values, so that "not significant" is not read as "no
 /// effect seen".
 fn evidence_flag(pilot: &PilotSummary, headline: &Purchase, confidence: f64) -> Option<String> {
-    let alpha = 1.0 - confidence;
-    let below = |p: Option<f64>| p.is_some_and(|p| p < alpha);
-    let pilot_p = |e: &Option<Estimate>| e.as_ref().and_then(|e| e.p_value);
-    let mut seen = Vec::new();
-    if below(pilot_p(&pilot.accuracy_difference))
-        && !headline.accuracy_gain.differs_from_zero(confidence)
-    {
-        seen.push(format!(
-            "accuracy p = {}",
-            short_p(pilot_p(&pilot.accuracy_difference).unwrap_or(f64::NAN))
-        ));
-    }
-    if below(pilot_p(&pilot.unfairness_difference))
-        && !headline.unfairness_reduction.differs_from_zero(confidence)
-    {
-        seen.push(format!(
-            "unfairness p = {}",
-            short_p(pilot_p(&pilot.unfairness_difference).unwrap_or(f64::NAN))
-        ));
-    }
+    let seen: Vec<String> = [
+        (
+            "accuracy",
+            &pilot.accuracy_difference,
+            &headline.accuracy_gain,
+        ),
+        (
+            "unfairness",
+            &pilot.unfairness_difference,
+            &headline.unfairness_reduction,
+        ),
+    ]
+    .into_iter()
+    .filter_map(|(name, measured, carried)| {
+        let p = measured.as_ref()?.p_value?;
+        (p < 1.0 - confidence && !carried.differs_from_zero(confidence))
+            .then(|| format!("{name} p = {}", short_p(p)))
+    })
+    .collect();
     (!seen.is_empty()).then(|| {
         format!(
             "significant on the pilot at its own size ({}); the doubt is in carrying it to the full size",

@@ -5,7 +5,7 @@
 
 use std::path::Path;
 
-use super::{acquest, adult_flags, adult_with_pilots, shared};
+use super::{acquest, adult_with_pilots, plan_on_adult_pilots, shared};
 
 /// Compares `produced` (a report just written) with the committed golden copy `name`, or
 /// rewrites the copy under `ACQUEST_BLESS`.
@@ -126,22 +126,6 @@ fn golden_plan_on_the_adult_benchmark_file() {
     let dir = tempfile::tempdir().unwrap();
     // occupation, relationship, education (columns 7, 8 and 4), in that order.
     let pilot = adult_with_pilots(&data, &[(6, 0.2), (7, 0.2), (3, 0.2)], 11);
-    std::fs::write(dir.path().join("adult-pilot.csv"), pilot).unwrap();
-    std::fs::write(dir.path().join("costs.csv"), ADULT_COSTS).unwrap();
-    let mut args = vec!["plan"];
-    args.extend(adult_flags("adult-pilot.csv"));
-    args.extend([
-        "--costs",
-        "costs.csv",
-        "--budget",
-        "40000",
-        "--repeats",
-        "5",
-        "--quiet",
-        "--no-project",
-        "--json",
-        "plan.json",
-    ]);
-    run_in(dir.path(), &args);
-    check("adult-plan.json", &dir.path().join("plan.json"));
+    let written = plan_on_adult_pilots(dir.path(), &pilot, ADULT_COSTS, &["--budget", "40000"]);
+    check("adult-plan.json", &written);
 }
