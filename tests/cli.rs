@@ -1295,21 +1295,12 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
         .arg("--no-run")
         .assert()
         .success();
-    let plan_for = |budget: &str| -> acquest::report::PlanReport {
+    let plan_with = |args: &[&str]| -> acquest::report::PlanReport {
         let output = acquest()
             .current_dir(dir.path())
-            .args([
-                "plan",
-                "--budget",
-                budget,
-                "--repeats",
-                "4",
-                "--quiet",
-                "--json",
-                "-",
-                "--markdown",
-                "plan.md",
-            ])
+            .arg("plan")
+            .args(args)
+            .args(["--quiet", "--json", "-"])
             .output()
             .unwrap();
         assert!(
@@ -1318,6 +1309,16 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
             String::from_utf8_lossy(&output.stderr)
         );
         serde_json::from_slice(&output.stdout).unwrap()
+    };
+    let plan_for = |budget: &str| {
+        plan_with(&[
+            "--budget",
+            budget,
+            "--repeats",
+            "4",
+            "--markdown",
+            "plan.md",
+        ])
     };
     // demo-data/costs.csv: cheapest purchase postcode, 100 + 0.05 × 3,000 = 250.
     let report = plan_for("20000");
@@ -1350,6 +1351,43 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
         .all(|w| w[1].plan.score >= w[0].plan.score - 1e-12));
     let markdown = std::fs::read_to_string(dir.path().join("plan.md")).unwrap();
     assert!(markdown.contains("## Recommendation") && markdown.contains("## Cautions"));
+    // The recommendation carries the plan's doubt: its gains with intervals and the chance that
+    // it helps at all; a plan of one option carries that option's own estimate, and a plan
+    // whose gain cannot be told from zero says so first.
+    let summary = report
+        .summary
+        .as_ref()
+        .expect("a plan that buys has a summary");
+    if let [item] = &plan.items[..] {
+        if item.kind == acquest::report::OptionKind::Feature {
+            let option = report
+                .appraisal
+                .options
+                .iter()
+                .find(|o| o.name == item.option)
+                .unwrap();
+            assert_eq!(summary.source, "option");
+            assert_eq!(summary.utility, option.estimate.utility);
+            assert_eq!(summary.accuracy_gain, option.estimate.accuracy_gain);
+        }
+    }
+    let chance = summary.utility.chance_positive.unwrap();
+    assert!((0.0..=1.0).contains(&chance));
+    let recommendation = markdown.split("## Recommendation").nth(1).unwrap();
+    let first = recommendation.trim_start().lines().next().unwrap();
+    assert_eq!(
+        first.starts_with("**The plan's gain cannot be told from zero"),
+        !summary.differs_from_zero,
+        "{first}"
+    );
+    let whole = recommendation
+        .lines()
+        .find(|l| l.starts_with("The plan as a whole"))
+        .expect("the plan as a whole");
+    assert!(
+        whole.contains(&format!("{:+.4} [", summary.utility.mean)),
+        "{whole}"
+    );
 
     // The best plans are re-scored with their options together (SPEC 3.5); a plan of two
     // features is measured where their pilots overlap, or says why it cannot be.
@@ -1366,10 +1404,103 @@ fn plan_within_the_budget_and_an_empty_plan_below_the_cheapest_option() {
         assert!(c.joint.is_some() || c.note.is_some());
     }
     assert!(wide.plan.total_cost <= 30_000.0);
+    let wide_summary = wide.summary.as_ref().unwrap();
+    if wide_summary.source == "joint" {
+        let joint = wide
+            .candidates
+            .iter()
+            .find(|c| c.plan.items == wide.plan.items)
+            .and_then(|c| c.joint.as_ref())
+            .unwrap();
+        assert_eq!(wide_summary.utility, joint.utility);
+    }
+
+    // Planning on the saved appraisal (here, the one inside a plan report) measures nothing:
+    // its additive best and its frontier are those of the plan run on the data.
+    std::fs::write(
+        dir.path().join("saved.json"),
+        serde_json::to_string(&wide).unwrap(),
+    )
+    .unwrap();
+    let saved = plan_with(&["--appraisal", "saved.json", "--budget", "30000"]);
+    assert_eq!(saved.frontier, wide.frontier);
+    assert_eq!(saved.candidates[0].plan, wide.candidates[0].plan);
+    assert!(saved.candidates.iter().all(|c| c.joint.is_none()));
+    assert!(saved.chosen_by.contains("additive"));
 
     let poor = plan_for("200");
     assert!(poor.plan.items.is_empty());
     assert!(poor.explanation.unwrap().contains("below the cheapest"));
+}
+
+/// One "today": the baseline, the curves' full-size anchor and the plan's today come from the
+/// same trials (the baseline's splits, the full-size fit made the same way), so the three
+/// reports give the same figures to the last bit. Checked on the demo, whose plan measures
+/// unfairness by EOD.
+#[test]
+fn the_demo_reports_give_one_today() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .arg("demo")
+        .arg("--out")
+        .arg(dir.path())
+        .arg("--quiet")
+        .assert()
+        .success();
+    let read = |name: &str| -> serde_json::Value {
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join(name)).unwrap()).unwrap()
+    };
+    let (baseline, curves, plan) = (
+        read("baseline.json"),
+        read("curves.json"),
+        read("report.json"),
+    );
+    let model = &baseline["model"];
+    let accuracy = model["accuracy"]["mean"].as_f64().unwrap();
+    let comparison = &model["comparisons"][0];
+    let group = comparison["group"].as_str().unwrap();
+    let eod = comparison["equal_opportunity_difference"]["mean"]
+        .as_f64()
+        .unwrap();
+    let last_mean = |record: &serde_json::Value| {
+        record["anchors"].as_array().unwrap().last().unwrap()["mean"]
+            .as_f64()
+            .unwrap()
+    };
+    let curve_accuracy = curves["curves"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["quantity"] == "accuracy" && c["group"].is_null())
+        .map(last_mean)
+        .unwrap();
+    let curve_eod = curves["disparities"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|d| d["group"] == group && d["measure"] == "equal opportunity difference")
+        .map(last_mean)
+        .unwrap();
+    let today = &plan["appraisal"]["today"];
+    assert_eq!(today["source"], "trials");
+    assert_eq!(curve_accuracy, accuracy);
+    assert_eq!(today["accuracy"].as_f64().unwrap(), accuracy);
+    assert_eq!(curve_eod, eod);
+    assert_eq!(today["worst_group"], group);
+    assert_eq!(today["unfairness"].as_f64().unwrap(), eod.abs());
+    let rates: Vec<f64> = model["groups"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|g| g["selection_rate"]["mean"].as_f64().unwrap())
+        .collect();
+    let today_rates: Vec<f64> = today["selection_rates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r.as_f64().unwrap())
+        .collect();
+    assert_eq!(today_rates, rates);
 }
 
 /// Loads the demo's HTML report in headless Chromium (Debian's package, installed by .ci/run)
@@ -1425,6 +1556,16 @@ fn html_report_renders_its_charts_in_a_real_browser() {
     assert!(dom.contains("id=\"frontier\"") && dom.contains("class=\"chosen\""));
     assert!(dom.contains("id=\"plan\"") && dom.contains("id=\"options\""));
     assert!(dom.contains("polyline") && dom.contains("Cautions"));
+    // The recommendation shows the plan's gains with their intervals and the chance it helps.
+    let whole = dom
+        .split("id=\"whole\"")
+        .nth(1)
+        .and_then(|rest| rest.split("</p>").next())
+        .expect("the plan as a whole in the HTML");
+    assert!(
+        whole.matches('[').count() >= 3 && whole.contains("chance that it raises the utility"),
+        "{whole}"
+    );
     for file in ["report.json", "report.md", "curves.svg", "baseline.json"] {
         assert!(out.join(file).exists(), "{file}");
     }

@@ -66,6 +66,15 @@ pub(super) struct PlanArgs {
     /// Write the plan as one self-contained HTML file with charts.
     #[arg(long, value_name = "FILE")]
     pub(super) html: Option<PathBuf>,
+    /// Plan on a saved appraisal (the JSON of `acquest appraise`, or of an earlier plan) instead
+    /// of measuring again: any budget and rules in well under a second; the data and the cost
+    /// sheet are not read, and plans are not re-scored with their options together.
+    #[arg(long, value_name = "FILE")]
+    pub(super) appraisal: Option<PathBuf>,
+    /// Also measure what each feature held today does (ablation and permutation), as
+    /// `acquest appraise` does; the plan does not need it.
+    #[arg(long)]
+    pub(super) held_features: bool,
 }
 
 #[derive(Args)]

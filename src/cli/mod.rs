@@ -72,6 +72,57 @@ fn run_plan(choices: Choices, documents: &Documents, output: &OutputArgs) -> any
     documents.write(&report, output)
 }
 
+fn run_saved_plan(
+    path: &Path,
+    choices: &Choices,
+    documents: &Documents,
+    output: &OutputArgs,
+) -> anyhow::Result<()> {
+    let rules = acquest::settings::plan_rules(choices)?;
+    let mut value = read_report(path)?;
+    if value.get("command").and_then(|c| c.as_str()) == Some("plan") {
+        value = value["appraisal"].take();
+    }
+    let appraisal: acquest::report::AppraisalReport =
+        serde_json::from_value(value).map_err(|e| acquest::Error::Format {
+            path: path.to_path_buf(),
+            reason: format!(
+                "not an appraisal written by `acquest appraise --json` (or a plan's): {e}"
+            ),
+        })?;
+    let report = plan::run_on_saved(appraisal, &rules)?;
+    write_outputs(&report, render::plan_text(&report), output)?;
+    documents.write(&report, output)
+}
+
+/// Reads a JSON report written by acquest, checking that this acquest reads its format.
+fn read_report(path: &Path) -> anyhow::Result<serde_json::Value> {
+    let format_error = |reason: String| acquest::Error::Format {
+        path: path.to_path_buf(),
+        reason,
+    };
+    let text = std::fs::read_to_string(path).map_err(|e| acquest::Error::File {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    })?;
+    let value: serde_json::Value =
+        serde_json::from_str(&text).map_err(|e| format_error(format!("not a JSON report: {e}")))?;
+    if value.get("format").and_then(|v| v.as_str()) != Some("acquest-report") {
+        return Err(format_error("not a report written by acquest".into()).into());
+    }
+    let version = value.get("format_version").and_then(|v| v.as_u64());
+    if version != Some(u64::from(acquest::report::FORMAT_VERSION)) {
+        return Err(format_error(format!(
+            "written in report format {}, and this acquest reads format {}: \
+             run the command again to write it anew (docs/report.md, Changes)",
+            version.map_or("unknown".into(), |v| v.to_string()),
+            acquest::report::FORMAT_VERSION
+        ))
+        .into());
+    }
+    Ok(value)
+}
+
 fn run_appraise(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
     let appraisal = AppraisalSettings::from_choices(&choices)?;
@@ -175,24 +226,23 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 .no_adverse_impact
                 .then_some(true)
                 .or(choices.no_adverse_impact);
+            choices.held_features =
+                Some(args.held_features || choices.held_features.unwrap_or(false));
             let output = args.appraise.output;
-            run_plan(
-                choices,
-                &Documents {
-                    markdown: args.markdown,
-                    html: args.html,
-                },
-                &output,
-            )
+            let documents = Documents {
+                markdown: args.markdown,
+                html: args.html,
+            };
+            match args.appraisal {
+                Some(path) => run_saved_plan(&path, &choices, &documents, &output),
+                None => run_plan(choices, &documents, &output),
+            }
         }
         Command::Backtest(args) => run_backtest(*args),
         Command::Render(args) => {
-            let text = std::fs::read_to_string(&args.report).map_err(|e| acquest::Error::File {
-                path: args.report.clone(),
-                reason: e.to_string(),
-            })?;
+            let value = read_report(&args.report)?;
             let report: acquest::report::PlanReport =
-                serde_json::from_str(&text).map_err(|e| acquest::Error::Format {
+                serde_json::from_value(value).map_err(|e| acquest::Error::Format {
                     path: args.report.clone(),
                     reason: format!("not a plan report written by `acquest plan --json`: {e}"),
                 })?;

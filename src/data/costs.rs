@@ -3,48 +3,13 @@
 
 use std::path::Path;
 
-use serde::{Deserialize, Serialize};
+use serde::Deserialize;
 
 use crate::data::{Dataset, Values};
 use crate::error::{nearest_hint, Error, Result};
 use crate::report::OptionKind;
 
-/// What an option buys.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Acquisition {
-    /// A new attribute for every row: the candidate column, filled today on a pilot.
-    Feature {
-        /// The candidate column.
-        column: String,
-    },
-    /// More rows: of any case, or of one group (`column = value` of the protected attribute).
-    Rows {
-        /// `None` for rows of any group, or the protected column and the group's value.
-        filter: Option<(String, String)>,
-    },
-}
-
-/// One line of the cost sheet, checked.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct CostOption {
-    /// The option's name in the sheet.
-    pub name: String,
-    /// What it buys.
-    pub acquisition: Acquisition,
-    /// Cost per row acquired (per row covered, for a feature).
-    pub per_row: f64,
-    /// One-off cost.
-    pub fixed: f64,
-    /// For rows: how many can be had at most.
-    pub max_rows: Option<usize>,
-    /// For rows: the purchase granularity.
-    pub step: Option<usize>,
-    /// Needs a privacy or legal review.
-    pub sensitive: bool,
-    /// The sheet's note, shown beside the option.
-    pub note: String,
-}
+pub use crate::report::{Acquisition, CostOption};
 
 impl CostOption {
     /// What the option buys, as reports name it.

@@ -5,7 +5,10 @@
 use super::problem::Problem;
 use super::select::four_fifths_hold;
 use crate::error::Result;
-use crate::report::{Candidate, FrontierPoint, Plan, PlanRules};
+use crate::report::{
+    AppraisalReport, Candidate, Change, FrontierPoint, JointScore, OptionKind, Plan, PlanItem,
+    PlanRules, PlanSummary, Purchase,
+};
 
 /// Points of the budget frontier.
 pub const FRONTIER_POINTS: usize = 24;
@@ -19,7 +22,41 @@ pub fn run(
 ) -> Result<crate::report::PlanReport> {
     let (report, appraiser) =
         crate::estimate::appraise::run_with_options(settings, appraisal, progress)?;
-    let problem = Problem::new(&report, appraiser.options(), rules.cautious)?;
+    plan_on(report, rules, &|picks| appraiser.rescore(picks, progress))
+}
+
+/// Plans on a saved appraisal: any budget and rules, in well under a second, since nothing is
+/// measured. The candidates cannot be re-scored with their options together without the data,
+/// so the plan is chosen on the additive model, and the report says so.
+pub fn run_on_saved(
+    report: AppraisalReport,
+    rules: &PlanRules,
+) -> Result<crate::report::PlanReport> {
+    if report.costs.options.len() != report.options.len() {
+        return Err(crate::error::Error::Internal(
+            "the saved appraisal does not list its cost sheet's options (written by an older acquest): run `acquest appraise` again".into(),
+        ));
+    }
+    plan_on(report, rules, &|_| {
+        Ok(Err(
+            "planned from a saved appraisal: plans are re-scored with their options together only when `acquest plan` runs on the data".into(),
+        ))
+    })
+}
+
+/// A joint re-scoring of a plan's picks (option, new rows): the score, or why there is none.
+type Rescore<'a> =
+    &'a dyn Fn(&[(String, usize)]) -> Result<std::result::Result<JointScore, String>>;
+
+/// The plan for the budget on an appraisal: the additive best, the frontier, the best few plans
+/// re-scored by `rescore`, and the choice.
+fn plan_on(
+    report: AppraisalReport,
+    rules: &PlanRules,
+    rescore: Rescore,
+) -> Result<crate::report::PlanReport> {
+    let options = report.costs.options.clone();
+    let problem = Problem::new(&report, &options, rules.cautious)?;
     let additive_best = problem.solve(rules);
     let frontier = frontier(&problem, rules, FRONTIER_POINTS);
 
@@ -40,6 +77,14 @@ pub fn run(
     pool.dedup_by(|a, b| a.items == b.items);
     pool.retain(|p| !p.items.is_empty());
     pool.truncate(RESCORED_PLANS);
+    // The best plan without each of its features: a joint measurement can show that a
+    // feature adds nothing beside the others, and the plan without it must then be on the
+    // table (rows items stay, so the other items' values and costs are unchanged).
+    for plan in without_each_feature(&additive_best) {
+        if !plan.items.is_empty() && !pool.iter().any(|p| p.items == plan.items) {
+            pool.push(plan);
+        }
+    }
     let mut candidates = Vec::new();
     for plan in pool {
         let picks: Vec<(String, usize)> = plan
@@ -47,7 +92,7 @@ pub fn run(
             .iter()
             .map(|i| (i.option.clone(), i.new_rows))
             .collect();
-        let (joint, note) = match appraiser.rescore(&picks, progress)? {
+        let (joint, note) = match rescore(&picks)? {
             Ok(score) => (Some(score), None),
             Err(why) => (None, Some(why)),
         };
@@ -108,6 +153,7 @@ pub fn run(
             _ => "no purchase within the budget is expected to raise the utility (every option's estimated utility is zero or negative, or breaks a floor)".to_string(),
         })
     };
+    let summary = summarise(&report, &plan, &candidates);
     let mut warnings = report.warnings.clone();
     if problem.searches_cut_short.get() > 0 {
         warnings.push(format!(
@@ -118,10 +164,9 @@ pub fn run(
     }
     for c in &candidates {
         if let Some(note) = &c.note {
-            if c.plan.items.len() > 1 {
-                warnings.push(format!(
-                    "a candidate plan was not re-scored jointly: {note}"
-                ));
+            let warning = format!("a candidate plan was not re-scored jointly: {note}");
+            if c.plan.items.len() > 1 && !warnings.contains(&warning) {
+                warnings.push(warning);
             }
         }
     }
@@ -135,6 +180,7 @@ pub fn run(
         frontier,
         plan,
         chosen_by,
+        summary,
         candidates,
         explanation,
         cautions: report.cautions.clone(),
@@ -143,7 +189,152 @@ pub fn run(
     })
 }
 
-/// Plans re-scored jointly, at most.
+/// The plan with one of its feature items left out, for each feature item, its totals summed
+/// again from the items that remain.
+fn without_each_feature(plan: &Plan) -> Vec<Plan> {
+    if plan.items.len() < 2 {
+        return Vec::new();
+    }
+    (0..plan.items.len())
+        .filter(|&k| plan.items[k].kind == OptionKind::Feature)
+        .map(|k| {
+            let items: Vec<PlanItem> = plan
+                .items
+                .iter()
+                .enumerate()
+                .filter(|&(j, _)| j != k)
+                .map(|(_, i)| i.clone())
+                .collect();
+            Plan {
+                total_cost: items.iter().map(|i| i.cost).sum(),
+                accuracy_gain: items.iter().map(|i| i.accuracy_gain).sum(),
+                unfairness_reduction: items.iter().map(|i| i.unfairness_reduction).sum(),
+                score: items.iter().map(|i| i.utility).sum(),
+                items,
+            }
+        })
+        .collect()
+}
+
+/// The plan as a whole: a plan of one option carries that option's estimate; a plan measured
+/// with its options together carries the joint estimate; otherwise the options' estimates are
+/// summed and their intervals combined as if independent (each side's half-width in quadrature),
+/// the chance of a gain then read off a normal law with the combined spread.
+fn summarise(
+    report: &AppraisalReport,
+    plan: &Plan,
+    candidates: &[Candidate],
+) -> Option<PlanSummary> {
+    if plan.items.is_empty() {
+        return None;
+    }
+    let confidence = report.inputs.confidence;
+    let any_rows: usize = plan
+        .items
+        .iter()
+        .filter(|i| i.kind == OptionKind::Rows)
+        .map(|i| i.new_rows)
+        .sum();
+    let purchase_of = |item: &PlanItem| -> Option<&Purchase> {
+        let option = report.options.iter().find(|o| o.name == item.option)?;
+        let rows = if item.kind == OptionKind::Feature {
+            any_rows
+        } else {
+            item.new_rows
+        };
+        option
+            .steps
+            .iter()
+            .filter(|s| s.new_rows <= rows)
+            .max_by_key(|s| s.new_rows)
+            .or(Some(&option.estimate))
+    };
+    let flags: Vec<String> = plan
+        .items
+        .iter()
+        .filter_map(|i| report.options.iter().find(|o| o.name == i.option))
+        .flat_map(|o| o.flags.iter().map(move |f| format!("{}: {f}", o.name)))
+        .collect();
+    let joint = candidates
+        .iter()
+        .find(|c| c.plan.items == plan.items)
+        .and_then(|c| c.joint.as_ref());
+    let (accuracy_gain, unfairness_reduction, utility, source) = match (joint, &plan.items[..]) {
+        (Some(j), _) => (
+            j.accuracy_gain.clone(),
+            j.unfairness_reduction.clone(),
+            j.utility.clone(),
+            "joint",
+        ),
+        (None, [item]) => {
+            let p = purchase_of(item)?;
+            (
+                p.accuracy_gain.clone(),
+                p.unfairness_reduction.clone(),
+                p.utility.clone(),
+                "option",
+            )
+        }
+        (None, items) => {
+            let purchases: Vec<&Purchase> = items.iter().filter_map(purchase_of).collect();
+            let sum = |f: fn(&Purchase) -> &Change| {
+                summed(
+                    &purchases.iter().map(|p| f(p)).collect::<Vec<_>>(),
+                    confidence,
+                )
+            };
+            (
+                sum(|p| &p.accuracy_gain),
+                sum(|p| &p.unfairness_reduction),
+                sum(|p| &p.utility),
+                "summed",
+            )
+        }
+    };
+    Some(PlanSummary {
+        differs_from_zero: utility.differs_from_zero(confidence),
+        accuracy_gain,
+        unfairness_reduction,
+        utility,
+        source: source.into(),
+        flags,
+    })
+}
+
+/// Changes added as if independent: means summed, each side's distance from the mean added in
+/// quadrature; the p-value and the chance of a positive sum from a normal law whose spread is
+/// the combined interval's side towards zero over the normal quantile of the confidence, so
+/// that an interval holding zero never comes with a chance beyond the confidence's tail.
+fn summed(changes: &[&Change], confidence: f64) -> Change {
+    use statrs::distribution::{ContinuousCDF, Normal};
+    let mean: f64 = changes.iter().map(|c| c.mean).sum();
+    let side = |f: fn(&Change) -> Option<f64>| -> Option<f64> {
+        let mut total = 0.0;
+        for c in changes {
+            total += (f(c)? - c.mean).powi(2);
+        }
+        Some(total.sqrt())
+    };
+    let below = side(|c| c.low);
+    let above = side(|c| c.high);
+    let (low, high) = match (below, above) {
+        (Some(b), Some(a)) => (Some(mean - b), Some(mean + a)),
+        _ => (None, None),
+    };
+    let normal = Normal::new(0.0, 1.0).expect("the standard normal");
+    let z = normal.inverse_cdf(0.5 + confidence / 2.0);
+    let towards_zero = if mean >= 0.0 { below } else { above };
+    let spread = towards_zero.filter(|&d| d > 0.0).map(|d| d / z);
+    Change {
+        mean,
+        low,
+        high,
+        p_value: spread.map(|s| 2.0 * normal.cdf(-(mean.abs() / s))),
+        chance_positive: spread.map(|s| normal.cdf(mean / s)),
+    }
+}
+
+/// Plans re-scored jointly, besides the best plan without each of its features.
 pub const RESCORED_PLANS: usize = 4;
 
 /// The best plan at budgets from the cheapest purchase to everything (log-spaced, `points` of
@@ -168,4 +359,70 @@ pub fn frontier(problem: &Problem, rules: &PlanRules, points: usize) -> Vec<Fron
             }
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn change(mean: f64, low: f64, high: f64) -> Change {
+        Change {
+            mean,
+            low: Some(low),
+            high: Some(high),
+            p_value: None,
+            chance_positive: None,
+        }
+    }
+
+    #[test]
+    fn the_best_plan_without_each_feature_keeps_its_rows() {
+        // Constructed plan, no source needed: rows item plus two features.
+        let item = |option: &str, kind, cost, utility| PlanItem {
+            option: option.into(),
+            kind,
+            new_rows: if kind == OptionKind::Rows { 500 } else { 0 },
+            cost,
+            accuracy_gain: utility / 2.0,
+            unfairness_reduction: utility / 2.0,
+            utility,
+        };
+        let items = vec![
+            item("more", OptionKind::Rows, 100.0, 0.01),
+            item("a", OptionKind::Feature, 200.0, 0.02),
+            item("b", OptionKind::Feature, 400.0, 0.04),
+        ];
+        let plan = Plan {
+            total_cost: 700.0,
+            accuracy_gain: 0.035,
+            unfairness_reduction: 0.035,
+            score: 0.07,
+            items,
+        };
+        let subs = without_each_feature(&plan);
+        assert_eq!(subs.len(), 2);
+        let names = |p: &Plan| p.items.iter().map(|i| i.option.clone()).collect::<Vec<_>>();
+        assert_eq!(names(&subs[0]), ["more", "b"]);
+        assert_eq!(names(&subs[1]), ["more", "a"]);
+        assert!((subs[0].total_cost - 500.0).abs() < 1e-12);
+        assert!((subs[1].score - 0.03).abs() < 1e-12);
+    }
+
+    #[test]
+    fn summed_changes_combine_their_intervals_in_quadrature() {
+        // scipy 1.17.1: z = norm.ppf(0.95); s = sqrt(2)·0.01 / z;
+        // norm.cdf(0.03 / s) = 0.9997578214315264, 2·norm.cdf(−0.03 / s) = 0.00048435713694719494.
+        let sum = summed(&[&change(0.01, 0.0, 0.02), &change(0.02, 0.01, 0.03)], 0.9);
+        assert!((sum.mean - 0.03).abs() < 1e-15);
+        assert!((sum.low.unwrap() - (0.03 - 2f64.sqrt() * 0.01)).abs() < 1e-15);
+        assert!((sum.high.unwrap() - (0.03 + 2f64.sqrt() * 0.01)).abs() < 1e-15);
+        assert!((sum.chance_positive.unwrap() - 0.9997578214315264).abs() < 1e-9);
+        assert!((sum.p_value.unwrap() - 0.00048435713694719494).abs() < 1e-9);
+        // A lopsided interval: the spread is its side towards zero, 0.02 / z.
+        // scipy 1.17.1: norm.cdf(−0.005 / s) = 0.3404580292294064, twice it 0.6809160584588128.
+        let one = summed(&[&change(-0.005, -0.015, 0.015)], 0.9);
+        assert!((one.chance_positive.unwrap() - 0.3404580292294064).abs() < 1e-9);
+        assert!((one.p_value.unwrap() - 0.6809160584588128).abs() < 1e-9);
+        assert!(!one.differs_from_zero(0.9));
+    }
 }

@@ -87,7 +87,8 @@ pub enum Sizes<'a> {
     Whole,
     /// A learning curve: the training part in a nested order ([`nested_order`]), one encoding
     /// fitted on all of it, and a model per size fitted on the first rows (warm-started from
-    /// the size before), all measured on the repeat's test part. With `vary_group`, only that
+    /// the size before), all measured on the repeat's test part; a size that takes the whole
+    /// training part is fitted as [`Sizes::Whole`] fits it, so it is the same trial. With `vary_group`, only that
     /// group's training rows are ordered and counted by the sizes; every other training row is
     /// always used.
     Nested {
@@ -316,6 +317,17 @@ fn nested(
     let mut outcomes = Vec::with_capacity(sizes.len());
     for &size in sizes {
         let rows = (fixed_rows + size).min(order.len());
+        if rows == order.len() {
+            // All of the training part: the plain fit a whole-part trial makes (rows in order,
+            // no warm start), so that a curve's last anchor is the very trial the baseline
+            // runs on the same split, and the two report one "today".
+            let mut train = order.to_vec();
+            train.sort_unstable();
+            let whole_fit = whole(data, family, &Arm::of(columns), &train, test, 0, 0)?;
+            outcomes.extend(whole_fit.sizes);
+            tick();
+            continue;
+        }
         let x = x_pool.slice(ndarray::s![..rows, ..]);
         let model = family.fit_from(x, &y_pool[..rows], start.as_deref())?;
         start = model.warm_start();

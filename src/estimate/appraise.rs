@@ -174,7 +174,7 @@ pub fn run_with_options(
         options,
         inputs,
         costs_sha256: sha256,
-        held_features: true,
+        held_features: appraisal.held_features,
     };
     appraise_dataset(input, settings, appraisal, progress)
 }
@@ -219,7 +219,7 @@ pub fn appraise_dataset(
         &CurvePlan {
             rows: &all_rows,
             arms: vec![&data.features],
-            stream: Stream::CurveSplits,
+            stream: Stream::BaselineSplits,
             stage: "learning curves",
             smallest: None,
         },
@@ -247,9 +247,23 @@ pub fn appraise_dataset(
         confidence: trials.confidence,
         spread: overlap_spread(trials),
     };
-    let (today_unfairness, worst) = scorer
-        .unfairness(&now.point)
-        .unwrap_or((f64::NAN, data.reference));
+    // Today's figures are the baseline's (the same trials) unless the cap left today's rows
+    // unmeasured; then they are read off the curve.
+    let today = if main.schedule.capped {
+        let (unfairness, worst) = scorer
+            .unfairness(&now.point)
+            .unwrap_or((f64::NAN, data.reference));
+        baseline::TodayFigures {
+            accuracy: now.point.accuracy,
+            unfairness,
+            worst,
+            selection_rates: now.point.groups.iter().map(|r| r.selection).collect(),
+        }
+    } else {
+        let full: Vec<&crate::engine::trial::TrialOutcome> =
+            main.outcomes.iter().filter_map(|r| r.last()).collect();
+        baseline::today_figures(&data, &full, appraisal.fairness)
+    };
     // Row counts the rows options for any case can be bought in, for feature-with-rows readings.
     let overall_steps: Vec<usize> = {
         let mut steps: Vec<usize> = options
@@ -314,22 +328,27 @@ pub fn appraise_dataset(
             fairness: appraisal.fairness.name().into(),
             weigh_accuracy: appraisal.weigh_accuracy,
             weigh_fairness: appraisal.weigh_fairness,
+            options: options.clone(),
         },
         groups: baseline::group_summaries(&data),
         reference: baseline::reference_group(&data),
         today: Today {
             rows,
             training_rows: main.schedule.training_rows,
-            accuracy: now.point.accuracy,
-            unfairness: if today_unfairness.is_finite() {
-                today_unfairness
+            source: if main.schedule.capped {
+                "curve"
+            } else {
+                "trials"
+            }
+            .into(),
+            accuracy: today.accuracy,
+            unfairness: if today.unfairness.is_finite() {
+                today.unfairness
             } else {
                 0.0
             },
-            worst_group: data.group_list[worst].name.clone(),
-            selection_rates: (0..data.group_list.len())
-                .map(|g| now.point.groups[g].selection)
-                .collect(),
+            worst_group: data.group_list[today.worst].name.clone(),
+            selection_rates: today.selection_rates,
         },
         curves: main.fitted.curves.clone(),
         disparities: main.fitted.disparities.clone(),

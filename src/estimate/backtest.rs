@@ -317,6 +317,7 @@ pub fn run(
         fairness: backtest.fairness,
         weigh_accuracy: 1.0,
         weigh_fairness: 1.0,
+        held_features: false,
     };
     let inputs = baseline::inputs(settings, &table, &data);
     drop(table);

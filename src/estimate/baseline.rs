@@ -171,6 +171,63 @@ pub fn reference_group(data: &Dataset) -> ReferenceGroup {
     }
 }
 
+/// Today's figures, defined once: from the trials at all of today's training rows, the mean
+/// accuracy, each group's mean selection rate, and the unfairness of the worst compared group
+/// under `measure`, judged by the mean over trials of its disparity against the reference (as
+/// the baseline's worst group is). The baseline's trials, the curves' full-size anchor and the
+/// appraisal's "today" all come from the same trials, so they agree.
+pub struct TodayFigures {
+    /// Mean accuracy.
+    pub accuracy: f64,
+    /// Unfairness of the worst compared group (NaN when no group's disparity is defined).
+    pub unfairness: f64,
+    /// That group.
+    pub worst: usize,
+    /// Each group's mean selection rate.
+    pub selection_rates: Vec<f64>,
+}
+
+/// See [`TodayFigures`].
+pub fn today_figures(
+    data: &Dataset,
+    outcomes: &[&TrialOutcome],
+    measure: FairnessMeasure,
+) -> TodayFigures {
+    let mean = |values: Vec<f64>| -> f64 {
+        if values.is_empty() {
+            f64::NAN
+        } else {
+            values.iter().sum::<f64>() / values.len() as f64
+        }
+    };
+    let reference = data.reference;
+    let worst = fairness::worst(compared_groups(reference, data.group_list.len()).map(|g| {
+        let values: Vec<f64> = outcomes
+            .iter()
+            .filter_map(|o| measure.value(&o.counts[g], &o.counts[reference]))
+            .collect();
+        (
+            g,
+            (!values.is_empty()).then(|| measure.unfairness_of(mean(values))),
+        )
+    }));
+    TodayFigures {
+        accuracy: mean(outcomes.iter().map(|o| o.accuracy).collect()),
+        unfairness: worst.map_or(f64::NAN, |w| w.1),
+        worst: worst.map_or(reference, |w| w.0),
+        selection_rates: (0..data.group_list.len())
+            .map(|g| {
+                mean(
+                    outcomes
+                        .iter()
+                        .filter_map(|o| o.counts[g].selection_rate())
+                        .collect(),
+                )
+            })
+            .collect(),
+    }
+}
+
 fn compared_groups(reference: usize, count: usize) -> impl Iterator<Item = usize> {
     (0..count).filter(move |&g| g != reference)
 }

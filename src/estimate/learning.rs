@@ -260,7 +260,7 @@ pub fn run(
     let plan = CurvePlan {
         rows: &all_rows,
         arms: vec![&data.features],
-        stream: Stream::CurveSplits,
+        stream: Stream::BaselineSplits,
         stage: "learning curves",
         smallest: curve_settings.smallest,
     };
@@ -613,7 +613,7 @@ fn fit_quantity(
     };
     let choice = curve::choose_with_noise(&kept_sizes, &means, held_back, noise);
     let trend_all = curve::fit(
-        curve::Family::Log2,
+        curve::Family::Logarithmic,
         &kept_sizes,
         &means,
         &curve::size_weights(&kept_sizes),
@@ -633,7 +633,7 @@ fn fit_quantity(
                 let weights = curve::size_weights(&s);
                 let f = curve::fit(family, &s, &means, &weights);
                 let trend = (family == curve::Family::Flat)
-                    .then(|| curve::fit(curve::Family::Log2, &s, &means, &weights))
+                    .then(|| curve::fit(curve::Family::Logarithmic, &s, &means, &weights))
                     .filter(|t| {
                         t.status != curve::FitStatus::Failed
                             && trend_all.status != curve::FitStatus::Failed

@@ -66,11 +66,14 @@ impl Scorer<'_> {
             let above = finite.iter().filter(|&&d| d >= 0.0).count() as f64;
             (2.0 * below.min(above) / finite.len() as f64).min(1.0)
         });
+        let chance_positive = (finite.len() >= 10)
+            .then(|| finite.iter().filter(|&&d| d > 0.0).count() as f64 / finite.len() as f64);
         Change {
             mean: if point.is_finite() { point } else { 0.0 },
             low,
             high,
             p_value,
+            chance_positive,
         }
     }
 
@@ -208,6 +211,7 @@ pub(super) fn empty_purchase() -> Purchase {
         low: None,
         high: None,
         p_value: None,
+        chance_positive: None,
     };
     Purchase {
         new_rows: 0,

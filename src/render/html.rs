@@ -5,7 +5,7 @@
 use std::fmt::Write as _;
 
 use super::svg::{curve_chart, CurveSet};
-use super::{candidate_rows, change_cell, money, thousands};
+use super::{candidate_rows, change_cell, money, thousands, today_source, whole_plan};
 use crate::report::{Change, PlanReport};
 
 fn escape(text: &str) -> String {
@@ -261,7 +261,7 @@ pub fn plan_html(report: &PlanReport) -> String {
         escape(&a.inputs.data.path)
     );
     out.push_str(
-        "<style>body{font-family:Helvetica,Arial,sans-serif;margin:2em auto;max-width:980px;color:#222}\
+        "<style>body{font-family:Helvetica,Arial,sans-serif;margin:2em auto;max-width:980px;color:#222}.doubt{background:#fff4e0;border-left:4px solid #d08000;padding:.5em 1em}\
          table{border-collapse:collapse;margin:1em 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:left;font-size:13px}\
          th{background:#f2f2f2}.chart{display:block;margin:1em 0;background:#fafafa}.title{font-size:14px;font-weight:bold}\
          .label{font-size:12px}.tick{font-size:10px;fill:#444}.caution{background:#fff7e6;border-left:4px solid #e0a030;padding:.5em 1em}\
@@ -294,6 +294,14 @@ pub fn plan_html(report: &PlanReport) -> String {
             );
         }
         None => {
+            let whole = whole_plan(report);
+            if let Some(doubt) = whole.as_ref().and_then(|w| w.doubt.as_ref()) {
+                let _ = writeln!(
+                    out,
+                    "<p class=\"doubt\"><strong>{}</strong></p>",
+                    escape(doubt)
+                );
+            }
             let _ = writeln!(out, "<p>With a budget of {} {currency}:</p>\n<table id=\"plan\"><tr><th>buy</th><th>rows</th><th>cost ({currency})</th><th>accuracy gain</th><th>unfairness reduction</th></tr>", money(report.rules.budget));
             for i in &report.plan.items {
                 let _ = writeln!(
@@ -318,16 +326,27 @@ pub fn plan_html(report: &PlanReport) -> String {
                 p.accuracy_gain,
                 p.unfairness_reduction
             );
+            if let Some(whole) = whole {
+                let _ = writeln!(out, "<p id=\"whole\">{}</p>", escape(&whole.sentence));
+                if !whole.flags.is_empty() {
+                    out.push_str("<ul class=\"flags\">");
+                    for flag in &whole.flags {
+                        let _ = write!(out, "<li>{}</li>", escape(flag));
+                    }
+                    out.push_str("</ul>\n");
+                }
+            }
         }
     }
     let _ = writeln!(
         out,
-        "<p>Today: accuracy {:.4}; unfairness ({} of '{}' against '{}') {:.4}. Gains: {}.</p>",
+        "<p>Today: accuracy {:.4}; unfairness ({} of '{}' beside '{}') {:.4} ({}). Gains: {}.</p>",
         a.today.accuracy,
         escape(&a.costs.fairness.to_uppercase()),
         escape(&a.today.worst_group),
         escape(&a.reference.name),
         a.today.unfairness,
+        escape(&today_source(a)),
         escape(&report.gain_model)
     );
     let _ = writeln!(out, "<p>Chosen on {}.</p>", escape(&report.chosen_by));

@@ -38,6 +38,10 @@ pub fn plan_markdown(report: &PlanReport) -> String {
             );
         }
         None => {
+            let whole = whole_plan(report);
+            if let Some(doubt) = whole.as_ref().and_then(|w| w.doubt.as_ref()) {
+                let _ = writeln!(out, "**{doubt}**\n");
+            }
             let _ = writeln!(
                 out,
                 "With a budget of {} {currency}:\n",
@@ -55,16 +59,26 @@ pub fn plan_markdown(report: &PlanReport) -> String {
                 a.costs.fairness.to_uppercase(),
                 p.unfairness_reduction
             );
+            if let Some(whole) = whole {
+                let _ = writeln!(out, "{}\n", whole.sentence);
+                for flag in &whole.flags {
+                    let _ = writeln!(out, "- Note on {flag}");
+                }
+                if !whole.flags.is_empty() {
+                    out.push('\n');
+                }
+            }
         }
     }
     let _ = writeln!(
         out,
-        "Today the model's accuracy is {:.4} and its unfairness ({} of '{}' against '{}') is {:.4}.\n",
+        "Today the model's accuracy is {:.4} and its unfairness ({} of '{}' beside '{}') is {:.4} ({}).\n",
         a.today.accuracy,
         a.costs.fairness.to_uppercase(),
         a.today.worst_group,
         a.reference.name,
-        a.today.unfairness
+        a.today.unfairness,
+        today_source(a)
     );
     let _ = writeln!(out, "## Options considered\n");
     let _ = writeln!(out, "Mean and {level}% interval; * marks a change that differs from zero. Utility = {} x accuracy gain + {} x unfairness reduction.\n", a.costs.weigh_accuracy, a.costs.weigh_fairness);

@@ -171,6 +171,84 @@ fn plan_lines(report: &PlanReport) -> Vec<String> {
         .collect()
 }
 
+/// The plan as a whole, in words every format shows: a warning when its gain cannot be told
+/// from zero (shown first), its figures with intervals and the chance that it helps, and the
+/// flags of its options.
+struct WholePlan {
+    doubt: Option<String>,
+    figures: String,
+    /// The figures as a sentence of a document, with what the intervals and stars mean.
+    sentence: String,
+    flags: Vec<String>,
+}
+
+fn whole_plan(report: &PlanReport) -> Option<WholePlan> {
+    let s = report.summary.as_ref()?;
+    let confidence = report.appraisal.inputs.confidence;
+    let level = (confidence * 100.0).round();
+    let chance = s.utility.chance_positive.map(percent);
+    let source = match s.source.as_str() {
+        "joint" => "its options measured together",
+        "summed" => "its options' estimates added, their intervals combined as if independent",
+        _ => "its option's own estimate",
+    };
+    let doubt = (!s.differs_from_zero).then(|| {
+        format!(
+            "The plan's gain cannot be told from zero at {level}%{}. Read it as a lead to confirm, not a finding.",
+            chance
+                .as_ref()
+                .map_or(String::new(), |c| format!(": the chance that it raises the utility at all is {c}"))
+        )
+    });
+    let figures = format!(
+        "the plan as a whole ({source}): accuracy {}, unfairness reduction {}, utility {}{}",
+        change_cell(&s.accuracy_gain, confidence),
+        change_cell(&s.unfairness_reduction, confidence),
+        change_cell(&s.utility, confidence),
+        chance.map_or(String::new(), |c| format!(
+            "; chance that it raises the utility: {c}"
+        ))
+    );
+    let mut sentence = format!("{figures} ({level}% intervals; * differs from zero).");
+    if let Some(first) = sentence.get_mut(..1) {
+        first.make_ascii_uppercase();
+    }
+    Some(WholePlan {
+        doubt,
+        figures,
+        sentence,
+        flags: s.flags.clone(),
+    })
+}
+
+/// A chance as a percentage, "> 99%" and "< 1%" at the ends.
+fn percent(p: f64) -> String {
+    if p >= 0.995 {
+        "> 99%".into()
+    } else if p < 0.005 {
+        "< 1%".into()
+    } else {
+        format!("{:.0}%", p * 100.0)
+    }
+}
+
+/// Where today's figures come from, in words: the trial design stated once for every report.
+fn today_source(a: &crate::report::AppraisalReport) -> String {
+    if a.today.source == "curve" {
+        format!(
+            "read off today's learning curve at {} training rows, more than a trial trains on",
+            thousands(a.today.training_rows)
+        )
+    } else {
+        format!(
+            "the mean of {} trials at all {} training rows, each tested on {:.0}% of the rows held: the baseline's trials and figures",
+            a.inputs.repeats,
+            thousands(a.today.training_rows),
+            a.inputs.test_fraction * 100.0
+        )
+    }
+}
+
 /// A plan item in a few words: the option, and the rows bought for a rows option.
 fn item_label(i: &crate::report::PlanItem) -> String {
     if i.kind == OptionKind::Feature {

@@ -146,16 +146,16 @@ pub fn baseline_text(report: &BaselineReport) -> String {
 
     let _ = writeln!(
         out,
-        "\nDisparity against '{}' (* differs from the ideal at p < {:.2})",
+        "\nEach group beside the reference group '{}' (* differs from parity at p < {:.2})",
         report.reference.name,
         1.0 - inputs.confidence
     );
     let mut t = Table::new(&[
         "group",
-        "SPD (ideal 0)",
-        "DI (ideal 1)",
-        "EOD (ideal 0)",
-        "AOD (ideal 0)",
+        "gap in selection rate (0 = parity)",
+        "ratio of selection rates (1 = parity)",
+        "gap in true positive rate (0 = parity)",
+        "mean gap in TPR and FPR (0 = parity)",
     ]);
     for c in &m.comparisons {
         let cell = |e: &Option<Estimate>| {
@@ -175,8 +175,8 @@ pub fn baseline_text(report: &BaselineReport) -> String {
     }
     t.render(&mut out);
     out.push_str(
-        "  SPD statistical parity difference, DI disparate impact, EOD equal opportunity \
-         difference, AOD average odds difference\n",
+        "  the four columns are the statistical parity difference (SPD), disparate impact (DI), \
+         equal opportunity difference (EOD) and average odds difference (AOD)\n",
     );
     if m.comparisons.len() > 1 {
         let w = &m.worst;
@@ -266,7 +266,7 @@ pub fn curves_text(report: &CurvesReport) -> String {
 
     out.push_str(
         "
-Learning curves (value [band]; 'now' is the mean at all training rows)
+Learning curves (value [band]; 'now' is the mean of the trials at all training rows, the baseline's own trials)
 ",
     );
     let mut header: Vec<String> = vec![
@@ -303,7 +303,7 @@ Learning curves (value [band]; 'now' is the mean at all training rows)
     let _ = writeln!(
         out,
         "
-Disparities against '{}', derived from the fitted rates",
+How each group's gap to '{}' moves along the curves (derived from the fitted rates)",
         report.reference.name
     );
     let mut header: Vec<String> = vec![
@@ -378,13 +378,13 @@ fn appraisal_body(report: &AppraisalReport) -> String {
     );
     let _ = writeln!(
         out,
-        "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' against '{}'), read off the learning curve at {} training rows",
+        "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' beside '{}'); {}",
         report.today.accuracy,
         report.today.unfairness,
         c.fairness.to_uppercase(),
         report.today.worst_group,
         report.reference.name,
-        thousands(report.today.training_rows)
+        today_source(report)
     );
     let _ = writeln!(
         out,
@@ -592,6 +592,10 @@ pub fn plan_text(report: &PlanReport) -> String {
             let _ = writeln!(out, "  buy nothing: {why}");
         }
         None => {
+            let whole = whole_plan(report);
+            if let Some(doubt) = whole.as_ref().and_then(|w| w.doubt.as_ref()) {
+                let _ = writeln!(out, "  ! {doubt}");
+            }
             for line in plan_lines(report) {
                 let _ = writeln!(out, "  - {line}");
             }
@@ -603,6 +607,12 @@ pub fn plan_text(report: &PlanReport) -> String {
                 p.accuracy_gain,
                 p.unfairness_reduction
             );
+            if let Some(whole) = whole {
+                let _ = writeln!(out, "  {}", whole.figures);
+                for flag in &whole.flags {
+                    let _ = writeln!(out, "  note: {flag}");
+                }
+            }
         }
     }
     let _ = writeln!(out, "  chosen on {}", report.chosen_by);

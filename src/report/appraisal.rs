@@ -61,6 +61,47 @@ pub struct CostInputs {
     pub weigh_accuracy: f64,
     /// Weight of the unfairness reduction in the utility.
     pub weigh_fairness: f64,
+    /// The sheet's options as checked, in its order: what a plan from this appraisal buys and
+    /// at what cost, without reading the sheet or the data again.
+    #[serde(default)]
+    pub options: Vec<CostOption>,
+}
+
+/// What an option buys.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Acquisition {
+    /// A new attribute for every row: the candidate column, filled today on a pilot.
+    Feature {
+        /// The candidate column.
+        column: String,
+    },
+    /// More rows: of any case, or of one group (`column = value` of the protected attribute).
+    Rows {
+        /// `None` for rows of any group, or the protected column and the group's value.
+        filter: Option<(String, String)>,
+    },
+}
+
+/// One line of the cost sheet, checked (its cost rules are in `data::costs`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CostOption {
+    /// The option's name in the sheet.
+    pub name: String,
+    /// What it buys.
+    pub acquisition: Acquisition,
+    /// Cost per row acquired (per row covered, for a feature).
+    pub per_row: f64,
+    /// One-off cost.
+    pub fixed: f64,
+    /// For rows: how many can be had at most.
+    pub max_rows: Option<usize>,
+    /// For rows: the purchase granularity.
+    pub step: Option<usize>,
+    /// Needs a privacy or legal review.
+    pub sensitive: bool,
+    /// The sheet's note, shown beside the option.
+    pub note: String,
 }
 
 /// Today's fitted accuracy and unfairness.
@@ -70,7 +111,12 @@ pub struct Today {
     pub rows: usize,
     /// Training rows of a trial today.
     pub training_rows: usize,
-    /// Accuracy read off today's curve.
+    /// Where today's figures come from: `trials` (the mean of the trials at all of today's
+    /// training rows, the baseline's own trials and figures) or `curve` (read off today's
+    /// curve, where the training rows exceed the cap a trial trains on).
+    #[serde(default)]
+    pub source: String,
+    /// Today's accuracy.
     pub accuracy: f64,
     /// Unfairness on the primary measure (|SPD|, 1 − min(DI, 1/DI), |EOD| or |AOD|) of the
     /// worst compared group.
@@ -93,6 +139,10 @@ pub struct Change {
     pub high: Option<f64>,
     /// Two-sided bootstrap p-value against no change.
     pub p_value: Option<f64>,
+    /// The chance that the change is above zero: the share of the same draws that give the
+    /// interval and the p-value lying above zero.
+    #[serde(default)]
+    pub chance_positive: Option<f64>,
 }
 
 impl Change {

@@ -156,11 +156,11 @@ pub struct DisparityCurve {
 #[serde(rename_all = "kebab-case")]
 pub enum Family {
     /// y = a − b·n^(−c), c > 0: a power law levelling off at a.
-    Pow3,
+    PowerLaw,
     /// y = a − b·e^(−c·n), c > 0: an exponential approach to a.
-    Exp3,
-    /// y = a + b·ln n: no level; grows or falls without bound.
-    Log2,
+    Exponential,
+    /// y = a + b·ln n: a logarithmic trend, no level; grows or falls without bound.
+    Logarithmic,
     /// y = a: no trend.
     Flat,
 }

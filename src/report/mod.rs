@@ -19,7 +19,7 @@ pub use plan::*;
 /// Name of the report format, written into every report.
 pub const FORMAT: &str = "acquest-report";
 /// Version of the report format; raised when a field changes meaning or goes away.
-pub const FORMAT_VERSION: u32 = 1;
+pub const FORMAT_VERSION: u32 = 2;
 
 /// The cautions every report carries.
 pub const CAUTIONS: [&str; 4] = [

@@ -25,6 +25,8 @@ pub struct PlanReport {
     pub plan: Plan,
     /// What the plan was chosen on: the joint scores of the candidates, or the additive model.
     pub chosen_by: String,
+    /// The plan's gains as a whole, with their doubt; `None` for an empty plan.
+    pub summary: Option<PlanSummary>,
     /// The best plans under the additive model, each re-scored with its options together.
     pub candidates: Vec<Candidate>,
     /// Why the plan is empty, when it is.
@@ -119,4 +121,23 @@ pub struct JointScore {
     pub utility: Change,
     /// How it was estimated.
     pub method: String,
+}
+
+/// The plan's gains as a whole, with their intervals and the chance that it helps at all.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanSummary {
+    /// The plan's accuracy gain.
+    pub accuracy_gain: Change,
+    /// Its unfairness reduction.
+    pub unfairness_reduction: Change,
+    /// Its utility gain; `chance_positive` is the chance that the plan raises the utility.
+    pub utility: Change,
+    /// Where the figures come from: `option` (a plan of one option: its own estimate),
+    /// `joint` (the options measured together), or `summed` (the options' estimates added,
+    /// their intervals combined as if independent, and the chance read off a normal law).
+    pub source: String,
+    /// Whether the utility gain differs from zero at the report's confidence.
+    pub differs_from_zero: bool,
+    /// The flags of the plan's options, each led by the option's name.
+    pub flags: Vec<String>,
 }

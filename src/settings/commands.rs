@@ -118,6 +118,10 @@ pub struct AppraisalSettings {
     pub weigh_accuracy: f64,
     /// Weight of the unfairness reduction in the utility.
     pub weigh_fairness: f64,
+    /// Whether to measure what each feature held today does (ablation and permutation): on by
+    /// default in `appraise`, off in `plan`, which does not use it (`held-features` in the
+    /// project file, `--held-features` on `plan`).
+    pub held_features: bool,
 }
 
 impl AppraisalSettings {
@@ -152,6 +156,7 @@ impl AppraisalSettings {
             fairness: parse_fairness(choices.fairness.as_deref().unwrap_or("eod"))?,
             weigh_accuracy,
             weigh_fairness,
+            held_features: choices.held_features.unwrap_or(true),
         })
     }
 }

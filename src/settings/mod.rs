@@ -94,6 +94,8 @@ pub struct Choices {
     pub hold_group: Option<String>,
     /// `--rounds` (or `rounds` in the project file).
     pub rounds: Option<usize>,
+    /// `--held-features` on `plan` (or `held-features` in the project file).
+    pub held_features: Option<bool>,
 }
 
 macro_rules! overlay {
@@ -168,7 +170,8 @@ impl Choices {
             hold_features,
             pilot,
             hold_group,
-            rounds
+            rounds,
+            held_features
         )
     }
 }

@@ -8,15 +8,20 @@ use argmin::core::{CostFunction, Executor, State};
 use argmin::solver::brent::BrentOpt;
 
 /// Every family, in the order they are reported.
-pub const FAMILIES: [Family; 4] = [Family::Pow3, Family::Exp3, Family::Log2, Family::Flat];
+pub const FAMILIES: [Family; 4] = [
+    Family::PowerLaw,
+    Family::Exponential,
+    Family::Logarithmic,
+    Family::Flat,
+];
 
 impl Family {
     /// The family's formula in n.
     pub fn formula(self) -> &'static str {
         match self {
-            Family::Pow3 => "a - b*n^(-c)",
-            Family::Exp3 => "a - b*exp(-c*n)",
-            Family::Log2 => "a + b*ln(n)",
+            Family::PowerLaw => "a - b*n^(-c)",
+            Family::Exponential => "a - b*exp(-c*n)",
+            Family::Logarithmic => "a + b*ln(n)",
             Family::Flat => "a",
         }
     }
@@ -24,8 +29,8 @@ impl Family {
     /// Number of parameters.
     pub fn parameters(self) -> usize {
         match self {
-            Family::Pow3 | Family::Exp3 => 3,
-            Family::Log2 => 2,
+            Family::PowerLaw | Family::Exponential => 3,
+            Family::Logarithmic => 2,
             Family::Flat => 1,
         }
     }
@@ -33,18 +38,18 @@ impl Family {
     /// Bounds of c, in units of the scaled size x = n / n_ref.
     fn rate_bounds(self) -> (f64, f64) {
         match self {
-            Family::Pow3 => (0.005, 5.0),
-            Family::Exp3 => (0.05, 500.0),
-            Family::Log2 | Family::Flat => (1.0, 1.0),
+            Family::PowerLaw => (0.005, 5.0),
+            Family::Exponential => (0.05, 500.0),
+            Family::Logarithmic | Family::Flat => (1.0, 1.0),
         }
     }
 
     /// The basis φ(x) of the linear part: y = a + β·φ(x).
     fn basis(self, x: f64, c: f64) -> f64 {
         match self {
-            Family::Pow3 => x.powf(-c),
-            Family::Exp3 => (-c * x).exp(),
-            Family::Log2 => x.ln(),
+            Family::PowerLaw => x.powf(-c),
+            Family::Exponential => (-c * x).exp(),
+            Family::Logarithmic => x.ln(),
             Family::Flat => 0.0,
         }
     }
@@ -57,7 +62,7 @@ pub struct Fit {
     pub family: Family,
     /// How the fit ended.
     pub status: FitStatus,
-    /// a, β (= −b for pow3/exp3, b for log2) and c, on the scaled size x = n / n_ref.
+    /// a, β (= −b for the power law and the exponential, b for the logarithmic) and c, on the scaled size x = n / n_ref.
     level: f64,
     slope: f64,
     rate: f64,
@@ -75,8 +80,8 @@ impl Fit {
     /// The level the curve tends to as n grows, where it has one.
     pub fn asymptote(&self) -> Option<f64> {
         match self.family {
-            Family::Pow3 | Family::Exp3 | Family::Flat => Some(self.level),
-            Family::Log2 => (self.slope == 0.0).then_some(self.level),
+            Family::PowerLaw | Family::Exponential | Family::Flat => Some(self.level),
+            Family::Logarithmic => (self.slope == 0.0).then_some(self.level),
         }
     }
 
@@ -93,13 +98,13 @@ impl Fit {
     /// Parameters a, b, c of the family's formula in n itself (unscaled); absent ones are 0.
     pub fn parameters(&self) -> [f64; 3] {
         match self.family {
-            Family::Pow3 => [
+            Family::PowerLaw => [
                 self.level,
                 -self.slope * self.n_ref.powf(self.rate),
                 self.rate,
             ],
-            Family::Exp3 => [self.level, -self.slope, self.rate / self.n_ref],
-            Family::Log2 => [self.level - self.slope * self.n_ref.ln(), self.slope, 0.0],
+            Family::Exponential => [self.level, -self.slope, self.rate / self.n_ref],
+            Family::Logarithmic => [self.level - self.slope * self.n_ref.ln(), self.slope, 0.0],
             Family::Flat => [self.level, 0.0, 0.0],
         }
     }
@@ -181,8 +186,8 @@ pub fn fit(family: Family, sizes: &[f64], values: &[f64], weights: &[f64]) -> Fi
         .map(|((&n, &y), &w)| (n / n_ref, y, w))
         .collect();
     let (rate, status) = match family {
-        Family::Log2 | Family::Flat => (1.0, FitStatus::Converged),
-        Family::Pow3 | Family::Exp3 => {
+        Family::Logarithmic | Family::Flat => (1.0, FitStatus::Converged),
+        Family::PowerLaw | Family::Exponential => {
             let (low, high) = family.rate_bounds();
             let (low, high) = (low.ln(), high.ln());
             let step = (high - low) / (GRID - 1) as f64;
@@ -382,18 +387,18 @@ mod tests {
         let n = sizes();
         let w = size_weights(&n);
         let cases = [
-            (Family::Pow3, [0.86, 3.0, 0.5]),
-            (Family::Exp3, [0.80, 0.2, 1.0 / 3000.0]),
-            (Family::Log2, [0.40, 0.03, 0.0]),
+            (Family::PowerLaw, [0.86, 3.0, 0.5]),
+            (Family::Exponential, [0.80, 0.2, 1.0 / 3000.0]),
+            (Family::Logarithmic, [0.40, 0.03, 0.0]),
             (Family::Flat, [0.25, 0.0, 0.0]),
         ];
         for (family, [a, b, c]) in cases {
             let y: Vec<f64> = n
                 .iter()
                 .map(|&n| match family {
-                    Family::Pow3 => a - b * n.powf(-c),
-                    Family::Exp3 => a - b * (-c * n).exp(),
-                    Family::Log2 => a + b * n.ln(),
+                    Family::PowerLaw => a - b * n.powf(-c),
+                    Family::Exponential => a - b * (-c * n).exp(),
+                    Family::Logarithmic => a + b * n.ln(),
                     Family::Flat => a,
                 })
                 .collect();
@@ -420,12 +425,12 @@ mod tests {
         let w: Vec<f64> = size_weights(&n);
         let expected = [
             (
-                Family::Pow3,
+                Family::PowerLaw,
                 [0.8524756685597008, 4.18976146596958, 0.6791516749860809],
                 4.097770397490212e-06,
             ),
             (
-                Family::Exp3,
+                Family::Exponential,
                 [
                     0.8401521467394063,
                     0.0712132525318068,
@@ -434,7 +439,7 @@ mod tests {
                 8.331192322499254e-06,
             ),
             (
-                Family::Log2,
+                Family::Logarithmic,
                 [0.6968685096290081, 0.016884358192376964, 0.0],
                 3.026975315222485e-05,
             ),
@@ -463,10 +468,10 @@ mod tests {
         let quick: Vec<f64> = n.iter().map(|&n| 0.9 - 2.0 * n.powf(-0.8)).collect();
         let slow: Vec<f64> = n.iter().map(|&n| 0.9 - 0.5 * n.powf(-0.05)).collect();
         let top = *n.last().unwrap();
-        assert!(fit(Family::Pow3, &n, &quick, &w)
+        assert!(fit(Family::PowerLaw, &n, &quick, &w)
             .level_reached_from(top)
             .is_some());
-        assert!(fit(Family::Pow3, &n, &slow, &w)
+        assert!(fit(Family::PowerLaw, &n, &slow, &w)
             .level_reached_from(top)
             .is_none());
     }
@@ -476,7 +481,7 @@ mod tests {
         let n = sizes();
         let y: Vec<f64> = n.iter().map(|&n| 0.9 - 2.0 * n.powf(-0.45)).collect();
         let choice = choose(&n, &y, 2).unwrap();
-        assert_eq!(choice.fit().family, Family::Pow3);
+        assert_eq!(choice.fit().family, Family::PowerLaw);
         let flat: Vec<f64> = vec![0.3; n.len()];
         let choice = choose(&n, &flat, 2).unwrap();
         assert!(choice.fit().predict(1e6).abs() - 0.3 < 1e-9);

@@ -44,9 +44,9 @@ n = np.array([500.0, 707.0, 1000.0, 1414.0, 2000.0, 2828.0, 4000.0, 5657.0])
 y = np.array([0.7912, 0.8031, 0.8155, 0.8204, 0.8297, 0.8321, 0.8388, 0.8402])
 w = n / n.max()
 families = {
-    "pow3": (lambda n, a, b, c: a - b * n ** (-c), [0.86, 3.0, 0.5]),
-    "exp3": (lambda n, a, b, c: a - b * np.exp(-c * n), [0.84, 0.1, 1e-3]),
-    "log2": (lambda n, a, b: a + b * np.log(n), [0.5, 0.03]),
+    "power-law": (lambda n, a, b, c: a - b * n ** (-c), [0.86, 3.0, 0.5]),
+    "exponential": (lambda n, a, b, c: a - b * np.exp(-c * n), [0.84, 0.1, 1e-3]),
+    "logarithmic": (lambda n, a, b: a + b * np.log(n), [0.5, 0.03]),
 }
 for name, (f, p0) in families.items():
     p, _ = curve_fit(f, n, y, p0=p0, sigma=1 / np.sqrt(w), absolute_sigma=True, maxfev=200000,
