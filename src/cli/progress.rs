@@ -90,6 +90,7 @@ pub(super) fn shown_on(bar: &ProgressBar) -> impl Fn(Progress) + Sync + '_ {
         CLOCK.enter(p.stage);
         bar.set_message(p.stage);
         bar.set_length(p.total as u64);
-        bar.set_position(p.done as u64);
+        // A stage's count never shows past its total, whatever order the workers report in.
+        bar.set_position(p.done.min(p.total) as u64);
     }
 }

@@ -17,6 +17,7 @@ use sha2::{Digest, Sha256};
 pub use crate::report::SourceInfo;
 
 use crate::error::{nearest_hint, Error, Result};
+use crate::report::thousands;
 use crate::settings::{parse_comparison, CsvSettings, Membership, SchemaSettings, Settings};
 
 /// Code that marks a missing cell in a categorical column.
@@ -749,13 +750,15 @@ impl Dataset {
         }
         if no_label > 0 {
             warnings.push(format!(
-                "{no_label} rows have no value in the target column '{}' and are left out",
+                "{} rows have no value in the target column '{}' and are left out",
+                thousands(no_label),
                 target.name
             ));
         }
         if no_group > 0 {
             warnings.push(format!(
-                "{no_group} rows have no value in the protected column '{}' and are left out",
+                "{} rows have no value in the protected column '{}' and are left out",
+                thousands(no_group),
                 protected.name
             ));
         }
@@ -1207,10 +1210,12 @@ fn choose_features<'a>(
             let missing = column.missing_count();
             if missing as f64 > CANDIDATE_MISSING_SHARE * rows as f64 {
                 warnings.push(format!(
-                    "column '{}' is empty on {missing} of {rows} rows: taken for a candidate \
+                    "column '{}' is empty on {} of {} rows: taken for a candidate \
                      feature (filled on a pilot), not a current one; name it in --features to \
                      train on it",
-                    column.name
+                    column.name,
+                    thousands(missing),
+                    thousands(rows)
                 ));
                 candidates.push(column);
                 continue;

@@ -72,15 +72,7 @@ impl Table {
 }
 
 fn thousands(n: usize) -> String {
-    let digits = n.to_string();
-    let mut out = String::new();
-    for (i, ch) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i).is_multiple_of(3) {
-            out.push(',');
-        }
-        out.push(ch);
-    }
-    out
+    crate::report::thousands(n)
 }
 
 fn number(x: f64) -> String {

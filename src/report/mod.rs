@@ -21,6 +21,19 @@ pub const FORMAT: &str = "acquest-report";
 /// Version of the report format; raised when a field changes meaning or goes away.
 pub const FORMAT_VERSION: u32 = 2;
 
+/// A count with thousands separators ("32,561"), as every text of a report writes counts.
+pub fn thousands(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::new();
+    for (i, ch) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
+}
+
 /// The cautions every report carries.
 pub const CAUTIONS: [&str; 4] = [
     "These figures are statistical estimates from the data given, with the uncertainty shown; \
