@@ -331,6 +331,7 @@ fn summed(changes: &[&Change], confidence: f64) -> Change {
         high,
         p_value: spread.map(|s| 2.0 * normal.cdf(-(mean.abs() / s))),
         chance_positive: spread.map(|s| normal.cdf(mean / s)),
+        widened_to_point: changes.iter().any(|c| c.widened_to_point),
     }
 }
 
@@ -372,6 +373,7 @@ mod tests {
             high: Some(high),
             p_value: None,
             chance_positive: None,
+            widened_to_point: false,
         }
     }
 

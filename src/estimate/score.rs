@@ -7,8 +7,8 @@ use crate::data::Dataset;
 use crate::estimate::learning::{self, FittedCurves, Quantities, Reading};
 use crate::report::*;
 use crate::settings::Settings;
-use crate::stats::curve;
 use crate::stats::fairness::{self, Rates};
+use crate::stats::metrics;
 
 /// A gain computed from the quantities before and after.
 pub(super) type GainOf<'a> = &'a dyn Fn(&Quantities, &Quantities) -> Option<f64>;
@@ -47,34 +47,11 @@ impl Scorer<'_> {
 
     pub(super) fn change(&self, point: f64, draws: Vec<f64>) -> Change {
         let centre = if point.is_finite() { point } else { 0.0 };
-        let mut finite: Vec<f64> = draws
+        let stretched = draws
             .into_iter()
-            .filter(|d| d.is_finite())
             .map(|d| centre + self.spread * (d - centre))
             .collect();
-        let tail = (1.0 - self.confidence) / 2.0;
-        let (low, high) = if finite.len() >= 10 {
-            (
-                curve::quantile(&mut finite, tail),
-                curve::quantile(&mut finite, 1.0 - tail),
-            )
-        } else {
-            (None, None)
-        };
-        let p_value = (finite.len() >= 10).then(|| {
-            let below = finite.iter().filter(|&&d| d <= 0.0).count() as f64;
-            let above = finite.iter().filter(|&&d| d >= 0.0).count() as f64;
-            (2.0 * below.min(above) / finite.len() as f64).min(1.0)
-        });
-        let chance_positive = (finite.len() >= 10)
-            .then(|| finite.iter().filter(|&&d| d > 0.0).count() as f64 / finite.len() as f64);
-        Change {
-            mean: if point.is_finite() { point } else { 0.0 },
-            low,
-            high,
-            p_value,
-            chance_positive,
-        }
+        metrics::bootstrap_change(centre, stretched, self.confidence)
     }
 
     /// Values a purchase from the readings now and after.
@@ -199,6 +176,20 @@ pub(super) fn option_flags(
     if flat(&headline.accuracy_gain) && flat(&headline.unfairness_reduction) {
         flags.push("no trend: the curves are flat here, so no change is estimated (which does not show the change is zero)".into());
     }
+    let widened: Vec<&str> = [
+        ("accuracy gain", &headline.accuracy_gain),
+        ("unfairness reduction", &headline.unfairness_reduction),
+    ]
+    .into_iter()
+    .filter(|(_, c)| c.widened_to_point)
+    .map(|(name, _)| name)
+    .collect();
+    if !widened.is_empty() {
+        flags.push(format!(
+            "the fitted {} lay beyond the interval of its re-fitted draws, so the interval is widened to reach it: the draws disagree with the fit, read the interval rather than the point",
+            widened.join(" and the fitted ")
+        ));
+    }
     if option.sensitive {
         flags.push("sensitive: needs a privacy or legal review".into());
     }
@@ -212,6 +203,7 @@ pub(super) fn empty_purchase() -> Purchase {
         high: None,
         p_value: None,
         chance_positive: None,
+        widened_to_point: false,
     };
     Purchase {
         new_rows: 0,

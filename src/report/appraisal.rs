@@ -143,6 +143,10 @@ pub struct Change {
     /// interval and the p-value lying above zero.
     #[serde(default)]
     pub chance_positive: Option<f64>,
+    /// The fitted value lay beyond its draws' interval, and the interval was widened to reach
+    /// it: the draws (re-fitted curves) disagree with the fit, and the report says so.
+    #[serde(default)]
+    pub widened_to_point: bool,
 }
 
 impl Change {
@@ -217,14 +221,9 @@ pub struct PilotSummary {
     /// Bengio (2003) correction for the overlap of repeated splits. This is the pilot's
     /// evidence.
     pub accuracy_difference: Option<Estimate>,
-    /// Welch's t-test p of with against without at the pilot's full size, unpaired and
-    /// uncorrected: kept for comparison; it ignores that both sides share their splits.
-    pub accuracy_welch_p: Option<f64>,
     /// Unfairness with the feature minus without, on the pilot at its full size (paired and
     /// corrected as `accuracy_difference`).
     pub unfairness_difference: Option<Estimate>,
-    /// Welch's t-test p of the unfairness with against without (unpaired, uncorrected).
-    pub unfairness_welch_p: Option<f64>,
     /// One-way ANOVA p of the accuracy difference across the pilot's sizes (does the gain
     /// depend on the number of rows?).
     pub size_anova_p: Option<f64>,

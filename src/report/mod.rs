@@ -19,7 +19,7 @@ pub use plan::*;
 /// Name of the report format, written into every report.
 pub const FORMAT: &str = "acquest-report";
 /// Version of the report format; raised when a field changes meaning or goes away.
-pub const FORMAT_VERSION: u32 = 2;
+pub const FORMAT_VERSION: u32 = 3;
 
 /// A count with thousands separators ("32,561"), as every text of a report writes counts.
 pub fn thousands(n: usize) -> String {

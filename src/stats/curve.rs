@@ -365,11 +365,16 @@ pub fn quantile(values: &mut [f64], q: f64) -> Option<f64> {
         return None;
     }
     values.sort_by(f64::total_cmp);
-    let position = q.clamp(0.0, 1.0) * (values.len() - 1) as f64;
+    Some(quantile_sorted(values, q))
+}
+
+/// The `q` quantile of values already sorted and not empty, as [`quantile`].
+pub fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
+    let position = q.clamp(0.0, 1.0) * (sorted.len() - 1) as f64;
     let low = position.floor() as usize;
     let high = position.ceil() as usize;
     let t = position - low as f64;
-    Some(values[low] * (1.0 - t) + values[high] * t)
+    sorted[low] * (1.0 - t) + sorted[high] * t
 }
 
 #[cfg(test)]

@@ -336,28 +336,68 @@ pub fn estimate(
     })
 }
 
-/// Welch's t-test of equal means for two samples with unequal variances: (t, degrees of
-/// freedom, two-sided p). `None` with fewer than two values in a sample or no variance at all.
-pub fn welch_t_test(a: &[f64], b: &[f64]) -> Option<(f64, f64, f64)> {
-    let moments = |x: &[f64]| {
-        let n = x.len() as f64;
-        let mean = x.iter().sum::<f64>() / n;
-        let var = x.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0);
-        (n, mean, var)
+/// Fewest finite draws a bootstrap interval is read from.
+pub const MIN_DRAWS: usize = 10;
+
+/// A change read from bootstrap draws around its fitted value `point`, in one calculation: the
+/// percentile interval at `confidence` (linear interpolation between sorted draws), widened to
+/// reach the point where the point lies beyond it (`widened_to_point` says so); the p-value is
+/// that interval inverted, the smallest 1 − confidence at which it leaves zero out, so that the
+/// interval and the p-value can never disagree; the chance of a rise is the share of the same
+/// interpolated distribution above zero. Fewer than [`MIN_DRAWS`] draws give the point alone.
+pub fn bootstrap_change(point: f64, draws: Vec<f64>, confidence: f64) -> crate::report::Change {
+    use crate::stats::curve::quantile_sorted;
+    let mut change = crate::report::Change {
+        mean: point,
+        low: None,
+        high: None,
+        p_value: None,
+        chance_positive: None,
+        widened_to_point: false,
     };
-    if a.len() < 2 || b.len() < 2 {
-        return None;
+    let mut draws: Vec<f64> = draws.into_iter().filter(|d| d.is_finite()).collect();
+    if draws.len() < MIN_DRAWS {
+        return change;
     }
-    let (na, ma, va) = moments(a);
-    let (nb, mb, vb) = moments(b);
-    let (sa, sb) = (va / na, vb / nb);
-    if sa + sb <= 0.0 {
-        return None;
-    }
-    let t = (ma - mb) / (sa + sb).sqrt();
-    let df = (sa + sb).powi(2) / (sa * sa / (na - 1.0) + sb * sb / (nb - 1.0));
-    let dist = StudentsT::new(0.0, 1.0, df).ok()?;
-    Some((t, df, 2.0 * dist.sf(t.abs())))
+    draws.sort_by(f64::total_cmp);
+    let last = (draws.len() - 1) as f64;
+    // The share at which the interpolated draws cross zero: the largest q with Q(q) <= 0, and
+    // the smallest with Q(q) >= 0 (they differ where draws sit exactly on zero).
+    let up_to_zero = if draws[0] > 0.0 {
+        0.0
+    } else if let Some(i) = draws
+        .iter()
+        .rposition(|&d| d <= 0.0)
+        .filter(|&i| i + 1 < draws.len())
+    {
+        (i as f64 - draws[i] / (draws[i + 1] - draws[i])) / last
+    } else {
+        1.0
+    };
+    let from_zero = if draws[draws.len() - 1] < 0.0 {
+        1.0
+    } else if let Some(i) = draws.iter().position(|&d| d >= 0.0).filter(|&i| i > 0) {
+        ((i - 1) as f64 - draws[i - 1] / (draws[i] - draws[i - 1])) / last
+    } else {
+        0.0
+    };
+    let tail = (1.0 - confidence) / 2.0;
+    let (low, high) = (
+        quantile_sorted(&draws, tail),
+        quantile_sorted(&draws, 1.0 - tail),
+    );
+    change.widened_to_point = point < low || point > high;
+    change.low = Some(low.min(point));
+    change.high = Some(high.max(point));
+    change.p_value = Some(if point > 0.0 {
+        (2.0 * up_to_zero).min(1.0)
+    } else if point < 0.0 {
+        (2.0 * (1.0 - from_zero)).min(1.0)
+    } else {
+        1.0
+    });
+    change.chance_positive = Some(1.0 - up_to_zero);
+    change
 }
 
 /// One-way analysis of variance across groups of values: (F, p). `None` with fewer than two
@@ -531,16 +571,75 @@ mod tests {
     }
 
     #[test]
-    fn welch_anova_and_chi_square_match_scipy() {
-        // scipy 1.17.1 (tests/reference/reference.py): ttest_ind(a, b, equal_var=False):
-        // t = 3.3626912299068348, p = 0.008367380152792049, df = 8.989361702127658.
-        let a = [0.81, 0.83, 0.80, 0.84, 0.82, 0.85];
-        let b = [0.78, 0.80, 0.79, 0.77, 0.81];
-        let (t, df, p) = welch_t_test(&a, &b).unwrap();
-        assert!(close(t, 3.3626912299068348, 1e-9));
-        assert!(close(df, 8.989361702127658, 1e-9));
-        assert!(close(p, 0.008367380152792049, 1e-9));
-        // f_oneway(g1, g2, g3): F = 6.971428571428571, p = 0.014831242580448382.
+    fn bootstrap_interval_and_p_are_one_calculation() {
+        // numpy 2.4.6: numpy.quantile(d, 0.05) = -0.019799999999999998, numpy.quantile(d, 0.95)
+        // = 0.04609999999999999; scipy 1.17.1 brentq on numpy.quantile(d, q) = 0 gives
+        // q = 0.2272727272727273, so the inverted p is 0.4545454545454546.
+        let d = vec![
+            -0.031, 0.012, 0.044, -0.007, 0.025, 0.051, 0.018, -0.015, 0.033, 0.009, 0.027, 0.040,
+            -0.002, 0.021, 0.036,
+        ];
+        let c = bootstrap_change(0.02, d.clone(), 0.9);
+        assert!(close(c.low.unwrap(), -0.019799999999999998, 1e-12));
+        assert!(close(c.high.unwrap(), 0.04609999999999999, 1e-12));
+        assert!(close(c.p_value.unwrap(), 0.4545454545454546, 1e-12));
+        assert!(close(
+            c.chance_positive.unwrap(),
+            1.0 - 0.2272727272727273,
+            1e-12
+        ));
+        assert!(!c.widened_to_point);
+        // A fit beyond its draws: the interval reaches it and says so.
+        let c = bootstrap_change(0.09, d, 0.9);
+        assert_eq!(c.high, Some(0.09));
+        assert!(c.widened_to_point);
+        // Constructed draws, no source needed: at every confidence, the p-value is below
+        // 1 - confidence exactly when the interval leaves zero out, ties on zero included.
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand::rngs::StdRng::seed_from_u64(7);
+        for case in 0..400 {
+            let shift = rng.gen_range(-0.05..0.05);
+            let draws: Vec<f64> = (0..10 + case % 50)
+                .map(|_| {
+                    let v: f64 = rng.gen_range(-0.1..0.1) + shift;
+                    if case % 7 == 0 {
+                        (v * 20.0).round() / 20.0
+                    } else {
+                        v
+                    }
+                })
+                .collect();
+            let point = if case % 11 == 0 {
+                0.0
+            } else {
+                shift + rng.gen_range(-0.08..0.08)
+            };
+            for confidence in [0.5, 0.8, 0.9, 0.95] {
+                let c = bootstrap_change(point, draws.clone(), confidence);
+                let (low, high) = (c.low.unwrap(), c.high.unwrap());
+                assert!(low <= point && point <= high);
+                let excludes = low > 0.0 || high < 0.0;
+                let p = c.p_value.unwrap();
+                let margin = (p - (1.0 - confidence)).abs();
+                if margin > 1e-9 {
+                    assert_eq!(
+                        excludes,
+                        p < 1.0 - confidence,
+                        "case {case}, p {p}, [{low}, {high}]"
+                    );
+                }
+            }
+        }
+        assert_eq!(
+            bootstrap_change(0.1, vec![0.1; 9], 0.9).low,
+            None,
+            "too few draws"
+        );
+    }
+
+    #[test]
+    fn anova_and_chi_square_match_scipy() {
+        // scipy 1.17.1 (tests/reference/reference.py): f_oneway(g1, g2, g3): F = 6.971428571428571, p = 0.014831242580448382.
         let groups = vec![
             vec![0.01, 0.02, 0.015, 0.03],
             vec![0.02, 0.025, 0.03, 0.04],
