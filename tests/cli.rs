@@ -1503,6 +1503,108 @@ fn the_demo_reports_give_one_today() {
     assert_eq!(today_rates, rates);
 }
 
+#[test]
+fn render_writes_every_report_kind_as_markdown_and_html() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .args(["demo", "--quiet", "--out"])
+        .arg(dir.path())
+        .assert()
+        .success();
+    acquest()
+        .current_dir(dir.path())
+        .args([
+            "backtest",
+            "--quiet",
+            "--rounds",
+            "1",
+            "--hold-features",
+            "region",
+        ])
+        .args(["--json", "backtest.json"])
+        .assert()
+        .success();
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("report.json")).unwrap())
+            .unwrap();
+    std::fs::write(
+        dir.path().join("appraise.json"),
+        serde_json::to_string(&plan["appraisal"]).unwrap(),
+    )
+    .unwrap();
+    let cases = [
+        ("baseline", "## Groups", false),
+        ("curves", "## Learning curves", true),
+        ("appraise", "## Options, ranked by utility", true),
+        ("report", "## Recommendation", true),
+        ("backtest", "## How well each method did", false),
+    ];
+    for (name, heading, chart) in cases {
+        let (md, html) = (dir.path().join("out.md"), dir.path().join("out.html"));
+        acquest()
+            .arg("render")
+            .arg(dir.path().join(format!("{name}.json")))
+            .arg("--markdown")
+            .arg(&md)
+            .arg("--html")
+            .arg(&html)
+            .assert()
+            .success();
+        let (md, html) = (
+            std::fs::read_to_string(md).unwrap(),
+            std::fs::read_to_string(html).unwrap(),
+        );
+        assert!(md.starts_with("# ") && md.contains(heading), "{name}: {md}");
+        // Every report carries the cautions of the product description, section 4.
+        for text in [&md, &html] {
+            assert!(
+                text.contains("screening measures, not legal findings"),
+                "{name}"
+            );
+        }
+        assert!(html.starts_with("<!DOCTYPE html>") && html.ends_with("</html>\n"));
+        assert_eq!(
+            html.contains("<svg"),
+            chart,
+            "{name}: a chart where one is drawn"
+        );
+    }
+    // The baseline's figures are the JSON's, to the digits shown.
+    let baseline: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("baseline.json")).unwrap())
+            .unwrap();
+    acquest()
+        .arg("render")
+        .arg(dir.path().join("baseline.json"))
+        .arg("--markdown")
+        .arg(dir.path().join("b.md"))
+        .assert()
+        .success();
+    let md = std::fs::read_to_string(dir.path().join("b.md")).unwrap();
+    let accuracy = baseline["model"]["accuracy"]["mean"].as_f64().unwrap();
+    assert!(
+        md.contains(&format!("| accuracy | {accuracy:.4} [")),
+        "{md}"
+    );
+    // A report of no command that render knows is refused with exit 2, naming those it reads.
+    let other = serde_json::json!({
+        "format": "acquest-report",
+        "format_version": acquest::report::FORMAT_VERSION,
+        "command": "demo",
+    });
+    std::fs::write(dir.path().join("other.json"), other.to_string()).unwrap();
+    acquest()
+        .arg("render")
+        .arg(dir.path().join("other.json"))
+        .arg("--html")
+        .arg(dir.path().join("o.html"))
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains(
+            "render reads the reports of baseline",
+        ));
+}
+
 /// Loads the demo's HTML report in headless Chromium (Debian's package, installed by .ci/run)
 /// and checks that the browser built the charts. Skipped with a message where Chromium is
 /// absent outside CI; under CI its absence is a failure.

@@ -39,7 +39,7 @@ pub(super) enum Command {
     Backtest(Box<BacktestArgs>),
     /// Write the invented demo scenario to a folder and run it.
     Demo(DemoArgs),
-    /// Render a saved plan report (JSON) as Markdown or HTML.
+    /// Render a saved report (JSON) of any command as Markdown or HTML.
     Render(RenderArgs),
 }
 
@@ -108,7 +108,7 @@ pub(super) struct BacktestArgs {
 
 #[derive(Args)]
 pub(super) struct RenderArgs {
-    /// A JSON report written by `acquest plan --json` (or by the demo).
+    /// A JSON report written by any command's --json (baseline, curves, appraise, plan, backtest) or by the demo.
     pub(super) report: PathBuf,
     /// Write it as Markdown to FILE.
     #[arg(long, value_name = "FILE")]

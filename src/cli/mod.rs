@@ -15,7 +15,7 @@ use acquest::{demo, render};
 mod args;
 mod progress;
 
-use args::{BacktestArgs, Cli, Command, OutputArgs};
+use args::{BacktestArgs, Cli, Command, OutputArgs, RenderArgs};
 use progress::{progress_bar, shown_on, CLOCK, STARTED};
 
 fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
@@ -34,13 +34,28 @@ struct Documents {
 }
 
 impl Documents {
+    /// Writes a plan report's documents.
     fn write(
         &self,
         report: &acquest::report::PlanReport,
         output: &OutputArgs,
     ) -> anyhow::Result<()> {
+        self.write_with(
+            || render::plan_markdown(report),
+            || render::html::plan_html(report),
+            output,
+        )
+    }
+
+    /// Writes the documents that were asked for, each made only when asked.
+    fn write_with(
+        &self,
+        markdown: impl FnOnce() -> String,
+        html: impl FnOnce() -> String,
+        output: &OutputArgs,
+    ) -> anyhow::Result<()> {
         if let Some(path) = &self.markdown {
-            std::fs::write(path, render::plan_markdown(report)).with_context(|| {
+            std::fs::write(path, markdown()).with_context(|| {
                 format!("cannot write the Markdown report to {}", path.display())
             })?;
             status(
@@ -49,7 +64,7 @@ impl Documents {
             );
         }
         if let Some(path) = &self.html {
-            std::fs::write(path, render::html::plan_html(report))
+            std::fs::write(path, html())
                 .with_context(|| format!("cannot write the HTML report to {}", path.display()))?;
             status(
                 output,
@@ -58,6 +73,68 @@ impl Documents {
         }
         Ok(())
     }
+}
+
+/// A saved report of one kind, read from its JSON.
+fn saved<T: serde::de::DeserializeOwned>(
+    value: serde_json::Value,
+    path: &Path,
+    kind: &str,
+) -> anyhow::Result<T> {
+    serde_json::from_value(value).map_err(|e| {
+        acquest::Error::Format {
+            path: path.to_path_buf(),
+            reason: format!("its command is '{kind}', but it does not read as that report: {e}"),
+        }
+        .into()
+    })
+}
+
+/// Renders a saved report of any kind as the documents asked for.
+fn run_render(args: RenderArgs) -> anyhow::Result<()> {
+    if args.markdown.is_none() && args.html.is_none() {
+        return Err(acquest::Error::setting(
+            "--markdown",
+            "name --markdown FILE or --html FILE (or both)",
+        )
+        .into());
+    }
+    let path = &args.report;
+    let value = read_report(path)?;
+    let kind = value
+        .get("command")
+        .and_then(|c| c.as_str())
+        .unwrap_or("")
+        .to_string();
+    let documents = Documents {
+        markdown: args.markdown,
+        html: args.html,
+    };
+    let output = OutputArgs {
+        json: None,
+        quiet: true,
+        timings: false,
+    };
+    let document = match kind.as_str() {
+        "plan" => {
+            let report: acquest::report::PlanReport = saved(value, path, &kind)?;
+            return documents.write(&report, &output);
+        }
+        "baseline" => render::baseline_document(&saved(value, path, &kind)?),
+        "curves" => render::curves_document(&saved(value, path, &kind)?),
+        "appraise" => render::appraisal_document(&saved(value, path, &kind)?),
+        "backtest" => render::backtest_document(&saved(value, path, &kind)?),
+        other => {
+            return Err(acquest::Error::Format {
+                path: path.clone(),
+                reason: format!(
+                    "its command is '{other}'; render reads the reports of baseline, curves, appraise, plan and backtest"
+                ),
+            }
+            .into())
+        }
+    };
+    documents.write_with(|| document.markdown(), || document.html(), &output)
 }
 
 fn run_plan(choices: Choices, documents: &Documents, output: &OutputArgs) -> anyhow::Result<()> {
@@ -239,33 +316,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             }
         }
         Command::Backtest(args) => run_backtest(*args),
-        Command::Render(args) => {
-            let value = read_report(&args.report)?;
-            let report: acquest::report::PlanReport =
-                serde_json::from_value(value).map_err(|e| acquest::Error::Format {
-                    path: args.report.clone(),
-                    reason: format!("not a plan report written by `acquest plan --json`: {e}"),
-                })?;
-            if args.markdown.is_none() && args.html.is_none() {
-                return Err(acquest::Error::setting(
-                    "--markdown",
-                    "name --markdown FILE or --html FILE (or both)",
-                )
-                .into());
-            }
-            let documents = Documents {
-                markdown: args.markdown,
-                html: args.html,
-            };
-            documents.write(
-                &report,
-                &OutputArgs {
-                    json: None,
-                    quiet: true,
-                    timings: false,
-                },
-            )
-        }
+        Command::Render(args) => run_render(args),
         Command::Demo(args) => {
             let folder = args
                 .out

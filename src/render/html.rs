@@ -4,15 +4,45 @@
 
 use std::fmt::Write as _;
 
+use super::document::{escape, STYLE};
 use super::svg::{curve_chart, CurveSet};
 use super::{candidate_rows, change_cell, money, thousands, today_source, whole_plan};
-use crate::report::{Change, PlanReport};
+use crate::report::{AppraisalReport, Change, PlanReport};
 
-fn escape(text: &str) -> String {
-    text.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
+/// The options' gains side by side as dot-and-whisker charts, ranked as in the report.
+pub(super) fn options_charts(a: &AppraisalReport) -> String {
+    let ranked: Vec<&crate::report::OptionValue> = a
+        .ranking
+        .iter()
+        .filter_map(|r| a.options.iter().find(|o| o.name == r.name))
+        .collect();
+    let level = (a.inputs.confidence * 100.0).round();
+    let chart = |title: &str, gain: fn(&crate::report::OptionValue) -> &Change| {
+        options_chart(
+            &format!("{title} ({level}% interval)"),
+            &ranked
+                .iter()
+                .map(|o| (o.name.clone(), gain(o).clone()))
+                .collect::<Vec<_>>(),
+        )
+    };
+    format!(
+        "<div class=\"charts\">\n{}{}</div>\n",
+        chart("Accuracy gain", |o| &o.estimate.accuracy_gain),
+        chart("Unfairness reduction", |o| &o.estimate.unfairness_reduction)
+    )
+}
+
+/// The appraisal's learning curves with each group's rates.
+pub(super) fn appraisal_curves(a: &AppraisalReport) -> String {
+    curve_chart(&CurveSet {
+        inputs: &a.inputs,
+        schedule: &a.schedule,
+        groups: &a.groups,
+        reference: &a.reference,
+        curves: &a.curves,
+        disparities: &a.disparities,
+    })
 }
 
 /// The span of `values` widened by 8% each side (and to at least ±0.01 when flat).
@@ -260,13 +290,7 @@ pub fn plan_html(report: &PlanReport) -> String {
         "<title>acquest plan: {}</title>",
         escape(&a.inputs.data.path)
     );
-    out.push_str(
-        "<style>body{font-family:Helvetica,Arial,sans-serif;margin:2em auto;max-width:980px;color:#222}.doubt{background:#fff4e0;border-left:4px solid #d08000;padding:.5em 1em}\
-         table{border-collapse:collapse;margin:1em 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:left;font-size:13px}\
-         th{background:#f2f2f2}.chart{display:block;margin:1em 0;background:#fafafa}.title{font-size:14px;font-weight:bold}\
-         .label{font-size:12px}.tick{font-size:10px;fill:#444}.caution{background:#fff7e6;border-left:4px solid #e0a030;padding:.5em 1em}\
-         .charts{display:flex;flex-wrap:wrap;gap:10px}</style>\n</head>\n<body>\n",
-    );
+    let _ = write!(out, "<style>{STYLE}</style>\n</head>\n<body>\n");
     let _ = writeln!(out, "<h1>Data acquisition plan</h1>");
     let _ = writeln!(
         out,
@@ -365,12 +389,10 @@ pub fn plan_html(report: &PlanReport) -> String {
 
     let _ = writeln!(out, "<h2>Options considered</h2>");
     let _ = writeln!(out, "<table id=\"options\"><tr><th>rank</th><th>option</th><th>cost ({currency})</th><th>accuracy gain</th><th>unfairness reduction</th><th>utility per 1,000</th><th>notes</th></tr>");
-    let mut ranked = Vec::new();
     for r in &a.ranking {
         let Some(o) = a.options.iter().find(|o| o.name == r.name) else {
             continue;
         };
-        ranked.push(o);
         let _ = writeln!(
             out,
             "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{:+.5}</td><td>{}</td></tr>",
@@ -383,33 +405,10 @@ pub fn plan_html(report: &PlanReport) -> String {
             escape(&o.flags.join("; "))
         );
     }
-    out.push_str("</table>\n<div class=\"charts\">\n");
-    let level = (confidence * 100.0).round();
-    out.push_str(&options_chart(
-        &format!("Accuracy gain ({level}% interval)"),
-        &ranked
-            .iter()
-            .map(|o| (o.name.clone(), o.estimate.accuracy_gain.clone()))
-            .collect::<Vec<_>>(),
-    ));
-    out.push_str(&options_chart(
-        &format!("Unfairness reduction ({level}% interval)"),
-        &ranked
-            .iter()
-            .map(|o| (o.name.clone(), o.estimate.unfairness_reduction.clone()))
-            .collect::<Vec<_>>(),
-    ));
-    out.push_str("</div>\n");
-
+    out.push_str("</table>\n");
+    out.push_str(&options_charts(a));
     let _ = writeln!(out, "<h2>Learning curves and each group's rates</h2>");
-    out.push_str(&curve_chart(&CurveSet {
-        inputs: &a.inputs,
-        schedule: &a.schedule,
-        groups: &a.groups,
-        reference: &a.reference,
-        curves: &a.curves,
-        disparities: &a.disparities,
-    }));
+    out.push_str(&appraisal_curves(a));
     if !report.warnings.is_empty() {
         let _ = writeln!(out, "<h2>Warnings</h2>\n<ul>");
         for w in &report.warnings {

@@ -2,13 +2,17 @@
 //! JSON (here), the terminal view ([`terminal`]), Markdown ([`markdown`]), HTML ([`html`]) and
 //! its SVG charts ([`svg`]). The helpers here (tables, number formats) are shared by all.
 
+pub mod document;
 pub mod html;
 mod markdown;
 pub mod svg;
 mod terminal;
 
 pub use markdown::plan_markdown;
-pub use terminal::{appraisal_text, backtest_text, baseline_text, curves_text, plan_text};
+pub use terminal::{
+    appraisal_document, appraisal_text, backtest_document, backtest_text, baseline_document,
+    baseline_text, curves_document, curves_text, plan_text,
+};
 
 use crate::report::{Change, CurvePoint, Estimate, OptionKind, PlanReport};
 

@@ -2,45 +2,46 @@
 
 use std::fmt::Write as _;
 
+use super::document::Document;
 use super::*;
 use crate::report::{AppraisalReport, BaselineReport, CurvesReport, Gain, OptionKind, PlanReport};
 
 /// The baseline report as terminal text.
 pub fn baseline_text(report: &BaselineReport) -> String {
-    let mut out = String::new();
+    baseline_document(report).plain()
+}
+
+/// The baseline report's view.
+pub fn baseline_document(report: &BaselineReport) -> Document {
+    let mut d = Document::new("Baseline: the model today, its accuracy and fairness");
     let inputs = &report.inputs;
-    let _ = writeln!(
-        out,
+    d.text(format!(
         "acquest baseline: {} ({} rows read, {} used)",
         inputs.data.path,
         thousands(report.data.rows_read),
         thousands(report.data.rows_used)
-    );
-    let _ = writeln!(
-        out,
+    ));
+    d.text(format!(
         "target '{}', favourable '{}' (otherwise '{}'); protected '{}'",
         inputs.target, inputs.favourable, inputs.unfavourable, inputs.protected
-    );
+    ));
     let numeric = report
         .data
         .features
         .iter()
         .filter(|f| f.kind == "numeric")
         .count();
-    let _ = writeln!(
-        out,
-        "{} features ({} numeric, {} categorical){}; model {}, {} trials holding out {:.0}%, seed {}",
-        report.data.features.len(),
+    d.text(format!(
+"{} features ({} numeric, {} categorical){}; model {}, {} trials holding out {:.0}%, seed {}", report.data.features.len(),
         numeric,
         report.data.features.len() - numeric,
         if inputs.use_protected { ", protected attribute included" } else { "" },
         inputs.model,
         inputs.repeats,
         inputs.test_fraction * 100.0,
-        inputs.seed
-    );
+        inputs.seed));
 
-    out.push_str("\nGroups\n");
+    d.heading("Groups");
     let mut t = Table::new(&["group", "formed as", "rows", "favourable", "label rate"]);
     for g in &report.groups {
         let mark = if g.name == report.reference.name {
@@ -56,10 +57,10 @@ pub fn baseline_text(report: &BaselineReport) -> String {
             number(g.label_rate),
         ]);
     }
-    t.render(&mut out);
-    let _ = writeln!(out, "  reference: {}", report.reference.rule);
+    d.table(t);
+    d.note(format!("reference: {}", report.reference.rule));
 
-    out.push_str("\nBias already in the labels\n");
+    d.heading("Bias already in the labels");
     let mut t = Table::new(&[
         "group",
         "SPD",
@@ -101,18 +102,15 @@ pub fn baseline_text(report: &BaselineReport) -> String {
             }),
         ]);
     }
-    t.render(&mut out);
-    out.push_str("  four-fifths: each group's favourable rate over the highest group's; flagged only when below 0.8\n");
+    d.table(t);
+    d.note("four-fifths: each group's favourable rate over the highest group's; flagged only when below 0.8");
 
     let m = &report.model;
     let level = (inputs.confidence * 100.0).round();
-    let _ = writeln!(
-        out,
-        "\nModel on held-out rows ({} trials of {} training / {} test rows; mean [{level}% interval])",
-        m.trials,
+    d.heading(format!(
+"Model on held-out rows ({} trials of {} training / {} test rows; mean [{level}% interval])", m.trials,
         thousands(m.train_rows),
-        thousands(m.test_rows)
-    );
+        thousands(m.test_rows)));
     let mut t = Table::new(&["measure", "value"]);
     t.row(vec!["accuracy".into(), with_interval(Some(&m.accuracy))]);
     t.row(vec![
@@ -123,9 +121,9 @@ pub fn baseline_text(report: &BaselineReport) -> String {
         "AUC".into(),
         with_interval(m.area_under_curve.as_ref()),
     ]);
-    t.render(&mut out);
+    d.table(t);
 
-    out.push('\n');
+    d.gap();
     let mut t = Table::new(&[
         "group",
         "test rows",
@@ -142,14 +140,13 @@ pub fn baseline_text(report: &BaselineReport) -> String {
             with_interval(g.false_positive_rate.as_ref()),
         ]);
     }
-    t.render(&mut out);
+    d.table(t);
 
-    let _ = writeln!(
-        out,
-        "\nEach group beside the reference group '{}' (* differs from parity at p < {:.2})",
+    d.heading(format!(
+        "Each group beside the reference group '{}' (* differs from parity at p < {:.2})",
         report.reference.name,
         1.0 - inputs.confidence
-    );
+    ));
     let mut t = Table::new(&[
         "group",
         "gap in selection rate (0 = parity)",
@@ -173,10 +170,10 @@ pub fn baseline_text(report: &BaselineReport) -> String {
             cell(&c.average_odds_difference),
         ]);
     }
-    t.render(&mut out);
-    out.push_str(
-        "  the four columns are the statistical parity difference (SPD), disparate impact (DI), \
-         equal opportunity difference (EOD) and average odds difference (AOD)\n",
+    d.table(t);
+    d.note(
+        "the four columns are the statistical parity difference (SPD), disparate impact (DI), \
+         equal opportunity difference (EOD) and average odds difference (AOD)",
     );
     if m.comparisons.len() > 1 {
         let w = &m.worst;
@@ -185,19 +182,16 @@ pub fn baseline_text(report: &BaselineReport) -> String {
                 format!("{} ({:.4})", w.group, w.unfairness)
             })
         };
-        let _ = writeln!(
-            out,
-            "  worst group: SPD {}, DI {}, EOD {}, AOD {}",
+        d.note(format!(
+            "worst group: SPD {}, DI {}, EOD {}, AOD {}",
             show(&w.statistical_parity_difference),
             show(&w.disparate_impact),
             show(&w.equal_opportunity_difference),
             show(&w.average_odds_difference)
-        );
+        ));
     }
 
-    out.push_str(
-        "\nFour-fifths rule on the model's selections (ratio to the highest group, per trial)\n",
-    );
+    d.heading("Four-fifths rule on the model's selections (ratio to the highest group, per trial)");
     let mut t = Table::new(&["group", "impact ratio", "finding", "trials below 0.8"]);
     for f in &m.four_fifths {
         t.row(vec![
@@ -211,44 +205,41 @@ pub fn baseline_text(report: &BaselineReport) -> String {
             format!("{} of {}", f.trials_flagged, f.impact_ratio.trials),
         ]);
     }
-    t.render(&mut out);
+    d.table(t);
 
-    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
-    out
+    warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
+    d
 }
 
 /// The curves report as terminal text.
 pub fn curves_text(report: &CurvesReport) -> String {
-    let mut out = String::new();
+    curves_document(report).plain()
+}
+
+/// The curves report's view, with the curves' chart for the HTML.
+pub fn curves_document(report: &CurvesReport) -> Document {
+    let mut d =
+        Document::new("Learning curves: accuracy and each group's rates against training rows");
     let inputs = &report.inputs;
     let s = &report.schedule;
-    let _ = writeln!(
-        out,
-        "acquest curves: {} ({} rows); target '{}' favourable '{}', protected '{}'; model {}, {} repeats, seed {}",
-        inputs.data.path,
+    d.text(format!(
+"acquest curves: {} ({} rows); target '{}' favourable '{}', protected '{}'; model {}, {} repeats, seed {}", inputs.data.path,
         thousands(inputs.data.rows),
         inputs.target,
         inputs.favourable,
         inputs.protected,
         inputs.model,
         s.repeats,
-        inputs.seed
-    );
-    let _ = writeln!(
-        out,
-        "{} training sizes from {} to {} rows (all training rows), each repeat tested on the same {} held-out rows",
-        s.sizes.len(),
+        inputs.seed));
+    d.text(format!(
+"{} training sizes from {} to {} rows (all training rows), each repeat tested on the same {} held-out rows", s.sizes.len(),
         thousands(s.sizes[0]),
         thousands(*s.sizes.last().unwrap_or(&0)),
-        thousands(s.test_rows)
-    );
-    let _ = writeln!(out, "  smallest size: {}", s.smallest_rule);
+        thousands(s.test_rows)));
+    d.note(format!("smallest size: {}", s.smallest_rule));
     let level = (inputs.confidence * 100.0).round();
-    let _ = writeln!(
-        out,
-        "  each family is scored by forecasting the {} largest sizes from the others; bands: {level}% bootstrap over repeats ({} draws)",
-        s.held_back, s.bootstrap_draws
-    );
+    d.note(format!(
+"each family is scored by forecasting the {} largest sizes from the others; bands: {level}% bootstrap over repeats ({} draws)", s.held_back, s.bootstrap_draws));
     let top = *s.sizes.last().unwrap_or(&0);
     let requested: Vec<f64> = report
         .curves
@@ -264,11 +255,7 @@ pub fn curves_text(report: &CurvesReport) -> String {
         )
     };
 
-    out.push_str(
-        "
-Learning curves (value [band]; 'now' is the mean of the trials at all training rows, the baseline's own trials)
-",
-    );
+    d.heading("Learning curves (value [band]; 'now' is the mean of the trials at all training rows, the baseline's own trials)");
     let mut header: Vec<String> = vec![
         "measure".into(),
         "group".into(),
@@ -290,7 +277,9 @@ Learning curves (value [band]; 'now' is the mean of the trials at all training r
             row.push(curve_cell(c.at.get(i)));
         }
         let chosen = c.families.iter().find(|f| Some(f.family) == c.chosen);
-        row.push(chosen.map_or("none".into(), |f| f.formula.clone()));
+        row.push(chosen.map_or("none".into(), |f| {
+            format!("{} ({})", f.family.name(), f.formula)
+        }));
         row.push(
             chosen
                 .and_then(|f| f.forecast_error)
@@ -298,14 +287,12 @@ Learning curves (value [band]; 'now' is the mean of the trials at all training r
         );
         t.row(row);
     }
-    t.render(&mut out);
+    d.table(t);
 
-    let _ = writeln!(
-        out,
-        "
-How each group's gap to '{}' moves along the curves (derived from the fitted rates)",
+    d.heading(format!(
+        "How each group's gap to '{}' moves along the curves (derived from the fitted rates)",
         report.reference.name
-    );
+    ));
     let mut header: Vec<String> = vec![
         "measure".into(),
         "group".into(),
@@ -316,24 +303,21 @@ How each group's gap to '{}' moves along the curves (derived from the fitted rat
     header.extend(requested.iter().map(|&n| at_header(n)));
     let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
     let mut t = Table::new(&header_refs);
-    for d in &report.disparities {
+    for g in &report.disparities {
         let mut row = vec![
-            d.measure.clone(),
-            d.group.clone(),
-            maybe(d.in_labels),
-            d.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
-            maybe(d.asymptote),
+            g.measure.clone(),
+            g.group.clone(),
+            maybe(g.in_labels),
+            g.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
+            maybe(g.asymptote),
         ];
         for i in 0..requested.len() {
-            row.push(curve_cell(d.at.get(i)));
+            row.push(curve_cell(g.at.get(i)));
         }
         t.row(row);
     }
-    t.render(&mut out);
-    let _ = writeln!(
-        out,
-        "  'in labels': the same measure on the labels themselves; more rows of the same kind tend to pull the model towards it"
-    );
+    d.table(t);
+    d.note("'in labels': the same measure on the labels themselves; more rows of the same kind tend to pull the model towards it");
     if report
         .curves
         .iter()
@@ -343,31 +327,39 @@ How each group's gap to '{}' moves along the curves (derived from the fitted rat
             .iter()
             .any(|d| d.at.iter().any(|p| p.unreliable))
     {
-        let _ = writeln!(
-            out,
-            "  ! beyond {} rows, 4x the largest fitted size: extrapolated too far to be relied on",
+        d.note(format!(
+            "! beyond {} rows, 4x the largest fitted size: extrapolated too far to be relied on",
             thousands(s.reliable_up_to.round() as usize)
-        );
+        ));
     }
-    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
-    out
+    d.chart(None, super::svg::curves_svg(report));
+    warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
+    d
 }
 
 /// The appraisal report as terminal text.
 pub fn appraisal_text(report: &AppraisalReport) -> String {
-    let mut out = appraisal_body(report);
-    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
-    out
+    appraisal_document(report).plain()
+}
+
+/// The appraisal report's view.
+pub fn appraisal_document(report: &AppraisalReport) -> Document {
+    let mut d = appraisal_body(report);
+    d.chart(
+        Some("Learning curves and each group's rates"),
+        super::html::appraisal_curves(report),
+    );
+    warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
+    d
 }
 
 /// The appraisal without its warnings and cautions, for the reports that include it.
-fn appraisal_body(report: &AppraisalReport) -> String {
-    let mut out = String::new();
+fn appraisal_body(report: &AppraisalReport) -> Document {
+    let mut d = Document::new("Appraisal of the options on the cost sheet");
     let inputs = &report.inputs;
     let c = &report.costs;
     let confidence = inputs.confidence;
-    let _ = writeln!(
-        out,
+    d.text(format!(
         "acquest appraise: {} ({} rows) with cost sheet {}; model {}, {} repeats, seed {}",
         inputs.data.path,
         thousands(report.today.rows),
@@ -375,9 +367,8 @@ fn appraisal_body(report: &AppraisalReport) -> String {
         inputs.model,
         inputs.repeats,
         inputs.seed
-    );
-    let _ = writeln!(
-        out,
+    ));
+    d.text(format!(
         "today: accuracy {:.4}, unfairness {:.4} ({} of the worst group '{}' beside '{}'); {}",
         report.today.accuracy,
         report.today.unfairness,
@@ -385,18 +376,16 @@ fn appraisal_body(report: &AppraisalReport) -> String {
         report.today.worst_group,
         report.reference.name,
         today_source(report)
-    );
-    let _ = writeln!(
-        out,
+    ));
+    d.text(format!(
         "utility = {} x accuracy gain + {} x unfairness reduction; costs in {}; gains per 1,000 {}",
         c.weigh_accuracy, c.weigh_fairness, c.currency, c.currency
-    );
+    ));
 
     let level = (confidence * 100.0).round();
-    let _ = writeln!(
-        out,
-        "\nOptions, ranked by utility per 1,000 (mean [{level}% interval]; * differs from zero)"
-    );
+    d.heading(format!(
+        "Options, ranked by utility per 1,000 (mean [{level}% interval]; * differs from zero)"
+    ));
     let mut t = Table::new(&[
         "rank",
         "option",
@@ -435,12 +424,13 @@ fn appraisal_body(report: &AppraisalReport) -> String {
             r.cautious_rank.to_string(),
         ]);
     }
-    t.render(&mut out);
+    d.table(t);
     for o in &report.options {
         if !o.flags.is_empty() {
-            let _ = writeln!(out, "  {}: {}", o.name, o.flags.join("; "));
+            d.note(format!("{}: {}", o.name, o.flags.join("; ")));
         }
     }
+    d.chart(None, super::html::options_charts(report));
 
     for o in report
         .options
@@ -448,9 +438,8 @@ fn appraisal_body(report: &AppraisalReport) -> String {
         .filter(|o| o.kind == OptionKind::Feature)
     {
         let Some(p) = &o.pilot else { continue };
-        let _ = writeln!(
-            out,
-            "\nFeature '{}' ({}): pilot of {} rows ({} training){}",
+        d.heading(format!(
+            "Feature '{}' ({}): pilot of {} rows ({} training){}",
             o.name,
             o.target.as_deref().unwrap_or(""),
             thousands(p.rows),
@@ -458,24 +447,18 @@ fn appraisal_body(report: &AppraisalReport) -> String {
             p.mix_p_value.map_or(String::new(), |v| format!(
                 ", group and label mix against the rest: chi-square p = {v:.3}"
             ))
-        );
-        let _ = writeln!(
-            out,
-            "  on the pilot at its size, with minus without, paired: accuracy {} (p {}), unfairness {} (p {}; negative is fairer)",
-            p.accuracy_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
+        ));
+        d.note(format!(
+"on the pilot at its size, with minus without, paired: accuracy {} (p {}), unfairness {} (p {}; negative is fairer)", p.accuracy_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
             p_value(p.accuracy_difference.as_ref().and_then(|e| e.p_value)),
             p.unfairness_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
-            p_value(p.unfairness_difference.as_ref().and_then(|e| e.p_value))
-        );
-        if let Some(d) = &o.direct {
-            let _ = writeln!(
-                out,
-                "  at full size, anchored on today's curve: accuracy {}, unfairness reduction {}\n  the pilot curve extrapolated directly, for comparison: accuracy {}, unfairness reduction {}",
-                change_cell(&o.estimate.accuracy_gain, confidence),
+            p_value(p.unfairness_difference.as_ref().and_then(|e| e.p_value))));
+        if let Some(direct) = &o.direct {
+            d.note(format!(
+"at full size, anchored on today's curve: accuracy {}, unfairness reduction {}\n  the pilot curve extrapolated directly, for comparison: accuracy {}, unfairness reduction {}", change_cell(&o.estimate.accuracy_gain, confidence),
                 change_cell(&o.estimate.unfairness_reduction, confidence),
-                change_cell(&d.accuracy_gain, confidence),
-                change_cell(&d.unfairness_reduction, confidence)
-            );
+                change_cell(&direct.accuracy_gain, confidence),
+                change_cell(&direct.unfairness_reduction, confidence)));
         }
         if let (Some(first), Some(last)) = (o.steps.first(), o.steps.last()) {
             let step = |s: &crate::report::Purchase| {
@@ -487,13 +470,12 @@ fn appraisal_body(report: &AppraisalReport) -> String {
                     change_cell(&s.unfairness_reduction, confidence)
                 )
             };
-            let _ = writeln!(out, "  bought with new rows: {}", step(first));
+            d.note(format!("bought with new rows: {}", step(first)));
             if o.steps.len() > 1 {
-                let _ = writeln!(
-                    out,
-                    "                       {} (every step in the JSON report)",
+                d.note(format!(
+                    "                     {} (every step in the JSON report)",
                     step(last)
-                );
+                ));
             }
         }
     }
@@ -502,12 +484,11 @@ fn appraisal_body(report: &AppraisalReport) -> String {
         .iter()
         .filter(|o| o.kind == OptionKind::GroupRows)
     {
-        let _ = writeln!(
-            out,
-            "\nRows option '{}' ({}): every group's rates move",
+        d.heading(format!(
+            "Rows option '{}' ({}): every group's rates move",
             o.name,
             o.target.as_deref().unwrap_or("")
-        );
+        ));
         let mut t = Table::new(&[
             "group",
             "selection rate",
@@ -522,15 +503,12 @@ fn appraisal_body(report: &AppraisalReport) -> String {
                 change_cell(&g.false_positive_rate, confidence),
             ]);
         }
-        t.render(&mut out);
+        d.table(t);
     }
 
     if !report.held_features.is_empty() {
-        let _ = writeln!(
-            out,
-            "\nFeatures held today: change when dropped (retrained without) or scrambled (permuted on test rows); unfairness on {}",
-            c.fairness.to_uppercase()
-        );
+        d.heading(format!(
+"Features held today: change when dropped (retrained without) or scrambled (permuted on test rows); unfairness on {}", c.fairness.to_uppercase()));
         let mut t = Table::new(&[
             "feature",
             "accuracy if dropped",
@@ -556,15 +534,15 @@ fn appraisal_body(report: &AppraisalReport) -> String {
                 cell(&h.permutation_unfairness),
             ]);
         }
-        t.render(&mut out);
-        out.push_str("  a fall in accuracy when dropped is what the feature earns; a rise in unfairness when dropped means it makes the model fairer\n");
+        d.table(t);
+        d.note("a fall in accuracy when dropped is what the feature earns; a rise in unfairness when dropped means it makes the model fairer");
     }
-    out
+    d
 }
 
 /// The plan report as terminal text: the appraisal's table, then the plan and the frontier.
 pub fn plan_text(report: &PlanReport) -> String {
-    let mut out = appraisal_body(&report.appraisal);
+    let mut out = appraisal_body(&report.appraisal).plain();
     let currency = &report.appraisal.costs.currency;
     let rules = &report.rules;
     let _ = writeln!(
@@ -704,20 +682,23 @@ pub fn plan_text(report: &PlanReport) -> String {
     }
     t.render(&mut out);
     let _ = writeln!(out, "  gains: {}", report.gain_model);
-    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
+    plain_warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
     out
 }
 
 /// The backtest report as terminal text.
 pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
-    let mut out = String::new();
+    backtest_document(report).plain()
+}
+
+/// The backtest report's view.
+pub fn backtest_document(report: &crate::report::BacktestReport) -> Document {
+    let mut d = Document::new("Backtest: the appraisal's predictions against gains realised");
     let b = &report.backtest;
     let inputs = &report.inputs;
     let confidence = inputs.confidence;
-    let _ = writeln!(
-        out,
-        "Backtest of the appraisal on {} ({} rows), groups by {}: {} round{}, {:.0}% of rows held back{}{}.",
-        inputs.data.path,
+    d.text(format!(
+"Backtest of the appraisal on {} ({} rows), groups by {}: {} round{}, {:.0}% of rows held back{}{}.", inputs.data.path,
         thousands(inputs.data.rows),
         inputs.protected,
         b.rounds,
@@ -735,22 +716,15 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
                 b.hold_features.join(", "),
                 b.pilot * 100.0
             )
-        }
-    );
-    let _ = writeln!(
-        out,
-        "Each option is appraised on what is left, then bought for real and measured with the same trials ({} repeats, {} model).",
-        inputs.repeats, inputs.model
-    );
+        }));
+    d.text(format!(
+"Each option is appraised on what is left, then bought for real and measured with the same trials ({} repeats, {} model).", inputs.repeats, inputs.model));
     let shown = [Gain::Accuracy, Gain::Fairness(b.fairness)];
     for quantity in shown {
         let title = quantity.label();
-        let _ = writeln!(
-            out,
-            "\nPredicted and realised {title} ({:.0}% intervals; * realised differs from 0 at p < {})",
-            confidence * 100.0,
-            report.significance
-        );
+        d.heading(format!(
+"Predicted and realised {title} ({:.0}% intervals; * realised differs from 0 at p < {})", confidence * 100.0,
+            report.significance));
         let mut table = Table::new(&[
             "round",
             "option",
@@ -773,18 +747,17 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
                 }
             }
         }
-        table.render(&mut out);
+        d.table(table);
     }
     for summary in report
         .summary
         .iter()
         .filter(|s| shown.contains(&s.quantity))
     {
-        let _ = writeln!(
-            out,
-            "\nHow well each method did: {} (over every option and round)",
+        d.heading(format!(
+            "How well each method did: {} (over every option and round)",
             summary.quantity.label()
-        );
+        ));
         let mut table = Table::new(&[
             "method",
             "mean abs. error (pp)",
@@ -832,29 +805,27 @@ pub fn backtest_text(report: &crate::report::BacktestReport) -> String {
                 ),
             ]);
         }
-        table.render(&mut out);
-        let _ = writeln!(
-            out,
-            "  Nominal coverage {:.0}%. The realised value is itself measured with noise, so even exact intervals cover it less often than nominal; in brackets, the coverage with that noise allowed for.",
-            summary.nominal_coverage * 100.0
-        );
+        d.table(table);
+        d.note(format!(
+"Nominal coverage {:.0}%. The realised value is itself measured with noise, so even exact intervals cover it less often than nominal; in brackets, the coverage with that noise allowed for.", summary.nominal_coverage * 100.0));
     }
-    out.push_str("\nTargets\n");
+    d.heading("Targets");
     for t in &report.targets {
-        let _ = writeln!(
-            out,
-            "  [{}] {}: {}",
+        d.note(format!(
+            "[{}] {}: {}",
             if t.met { "met" } else { "not met" },
             t.target,
             t.figure
-        );
+        ));
     }
-    out.push_str("\nMethods\n");
-    for m in &report.methods {
-        let _ = writeln!(out, "  - {}: {}", m.method.name(), m.description);
-    }
-    warnings_and_cautions(&mut out, &report.warnings, &report.cautions);
-    out
+    let methods: Vec<String> = report
+        .methods
+        .iter()
+        .map(|m| format!("{}: {}", m.method.name(), m.description))
+        .collect();
+    d.list("Methods", &methods);
+    warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
+    d
 }
 
 /// "0.8512 [0.8490, 0.8534]" for a point on a curve, with "!" when beyond the reliable reach.
@@ -883,15 +854,13 @@ fn realised_cell(r: &crate::report::RealisedGain, significance: f64) -> String {
     )
 }
 
-fn warnings_and_cautions(out: &mut String, warnings: &[String], cautions: &[String]) {
-    if !warnings.is_empty() {
-        out.push_str("\nWarnings\n");
-        for w in warnings {
-            let _ = writeln!(out, "  - {w}");
-        }
-    }
-    out.push_str("\nCautions\n");
-    for c in cautions {
-        let _ = writeln!(out, "  - {c}");
-    }
+fn warnings_and_cautions(d: &mut Document, warnings: &[String], cautions: &[String]) {
+    d.list("Warnings", warnings);
+    d.list("Cautions", cautions);
+}
+
+fn plain_warnings_and_cautions(out: &mut String, warnings: &[String], cautions: &[String]) {
+    let mut d = Document::new("");
+    warnings_and_cautions(&mut d, warnings, cautions);
+    out.push_str(&d.plain());
 }

@@ -165,6 +165,18 @@ pub enum Family {
     Flat,
 }
 
+impl Family {
+    /// The family's name in the reports, as in the JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            Family::PowerLaw => "power-law",
+            Family::Exponential => "exponential",
+            Family::Logarithmic => "logarithmic",
+            Family::Flat => "flat",
+        }
+    }
+}
+
 /// How a fit ended.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]

@@ -387,6 +387,17 @@ mod tests {
     }
 
     #[test]
+    fn family_names_are_their_json_names() {
+        // Constructed, no source needed: the reports' text and JSON name a family alike.
+        for f in FAMILIES {
+            assert_eq!(
+                serde_json::to_string(&f).unwrap(),
+                format!("\"{}\"", f.name())
+            );
+        }
+    }
+
+    #[test]
     fn exact_curves_give_back_their_parameters() {
         // Constructed curves, no source needed: each family must recover what made the points.
         let n = sizes();
