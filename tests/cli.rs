@@ -1605,6 +1605,60 @@ fn render_writes_every_report_kind_as_markdown_and_html() {
         ));
 }
 
+#[test]
+fn the_frontier_is_at_round_budgets_or_at_those_asked_for() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .args(["demo", "--quiet", "--no-run", "--out"])
+        .arg(dir.path())
+        .assert()
+        .success();
+    acquest()
+        .current_dir(dir.path())
+        .args(["appraise", "--quiet", "--json", "appraise.json"])
+        .assert()
+        .success();
+    let frontier = |extra: &[&str]| -> Vec<f64> {
+        let out = acquest()
+            .current_dir(dir.path())
+            .args(["plan", "--appraisal", "appraise.json", "--budget", "20000"])
+            .args(extra)
+            .args(["--json", "-"])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let report: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        report["frontier"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|p| p["budget"].as_f64().unwrap())
+            .collect()
+    };
+    // Round budgets: one or two significant digits, common practice for a reader (no source).
+    let round = frontier(&[]);
+    assert!(round.len() >= 8, "{round:?}");
+    for b in &round {
+        let scale = 10f64.powi(b.log10().floor() as i32 - 1);
+        assert_eq!((b / scale).fract(), 0.0, "{b} is not round");
+    }
+    assert_eq!(
+        frontier(&["--budgets", "5000,1000,20000,1000"]),
+        [1000.0, 5000.0, 20000.0]
+    );
+    acquest()
+        .current_dir(dir.path())
+        .args(["plan", "--appraisal", "appraise.json", "--budget", "20000"])
+        .args(["--budgets", "1000,lots"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("--budgets"));
+}
+
 /// Loads the demo's HTML report in headless Chromium (Debian's package, installed by .ci/run)
 /// and checks that the browser built the charts. Skipped with a message where Chromium is
 /// absent outside CI; under CI its absence is a failure.

@@ -50,6 +50,10 @@ pub(super) struct PlanArgs {
     /// The budget, in the cost sheet's currency.
     #[arg(long, value_name = "AMOUNT")]
     pub(super) budget: Option<f64>,
+    /// Budgets to show the best plan at, comma-separated [default: round budgets from the
+    /// cheapest purchase to everything].
+    #[arg(long, value_name = "A,B,C", value_delimiter = ',')]
+    pub(super) budgets: Option<Vec<f64>>,
     /// Score plans by the lower end of each utility interval.
     #[arg(long)]
     pub(super) cautious: bool,

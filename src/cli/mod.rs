@@ -141,9 +141,10 @@ fn run_plan(choices: Choices, documents: &Documents, output: &OutputArgs) -> any
     let settings = Settings::from_choices(choices.clone())?;
     let appraisal = AppraisalSettings::from_choices(&choices)?;
     let rules = acquest::settings::plan_rules(&choices)?;
+    let budgets = acquest::settings::frontier_budgets(&choices)?;
     let bar = progress_bar(output.quiet);
     let show = shown_on(&bar);
-    let report = plan::run(&settings, &appraisal, &rules, &show)?;
+    let report = plan::run(&settings, &appraisal, &rules, &budgets, &show)?;
     bar.finish_and_clear();
     write_outputs(&report, render::plan_text(&report), output)?;
     documents.write(&report, output)
@@ -156,6 +157,7 @@ fn run_saved_plan(
     output: &OutputArgs,
 ) -> anyhow::Result<()> {
     let rules = acquest::settings::plan_rules(choices)?;
+    let budgets = acquest::settings::frontier_budgets(choices)?;
     let mut value = read_report(path)?;
     if value.get("command").and_then(|c| c.as_str()) == Some("plan") {
         value = value["appraisal"].take();
@@ -167,7 +169,7 @@ fn run_saved_plan(
                 "not an appraisal written by `acquest appraise --json` (or a plan's): {e}"
             ),
         })?;
-    let report = plan::run_on_saved(appraisal, &rules)?;
+    let report = plan::run_on_saved(appraisal, &rules, &budgets)?;
     write_outputs(&report, render::plan_text(&report), output)?;
     documents.write(&report, output)
 }
@@ -297,6 +299,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             let mut args = *args;
             let mut choices = args.appraise.choices()?;
             choices.budget = args.budget.or(choices.budget);
+            choices.budgets = args.budgets.or(choices.budgets);
             choices.cautious = args.cautious.then_some(true).or(choices.cautious);
             choices.keep_accuracy = args.keep_accuracy.then_some(true).or(choices.keep_accuracy);
             choices.no_adverse_impact = args

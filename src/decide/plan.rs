@@ -5,24 +5,29 @@
 use super::problem::Problem;
 use super::select::four_fifths_hold;
 use crate::error::Result;
+use crate::report::money;
 use crate::report::{
     AppraisalReport, Candidate, Change, FrontierPoint, JointScore, OptionKind, Plan, PlanItem,
     PlanRules, PlanSummary, Purchase,
 };
 
-/// Points of the budget frontier.
+/// Most points of the budget frontier.
 pub const FRONTIER_POINTS: usize = 24;
 
-/// Runs `acquest plan`: the appraisal, then the best plan for the budget and the frontier.
+/// Runs `acquest plan`: the appraisal, then the best plan for the budget and the frontier (at
+/// the budgets `frontier_at`, or at round budgets when it is empty).
 pub fn run(
     settings: &crate::settings::Settings,
     appraisal: &crate::settings::AppraisalSettings,
     rules: &PlanRules,
+    frontier_at: &[f64],
     progress: crate::engine::trial::ProgressSink,
 ) -> Result<crate::report::PlanReport> {
     let (report, appraiser) =
         crate::estimate::appraise::run_with_options(settings, appraisal, progress)?;
-    plan_on(report, rules, &|picks| appraiser.rescore(picks, progress))
+    plan_on(report, rules, frontier_at, &|picks| {
+        appraiser.rescore(picks, progress)
+    })
 }
 
 /// Plans on a saved appraisal: any budget and rules, in well under a second, since nothing is
@@ -31,13 +36,14 @@ pub fn run(
 pub fn run_on_saved(
     report: AppraisalReport,
     rules: &PlanRules,
+    frontier_at: &[f64],
 ) -> Result<crate::report::PlanReport> {
     if report.costs.options.len() != report.options.len() {
         return Err(crate::error::Error::Internal(
             "the saved appraisal does not list its cost sheet's options (written by an older acquest): run `acquest appraise` again".into(),
         ));
     }
-    plan_on(report, rules, &|_| {
+    plan_on(report, rules, frontier_at, &|_| {
         Ok(Err(
             "planned from a saved appraisal: plans are re-scored with their options together only when `acquest plan` runs on the data".into(),
         ))
@@ -53,12 +59,18 @@ type Rescore<'a> =
 fn plan_on(
     report: AppraisalReport,
     rules: &PlanRules,
+    frontier_at: &[f64],
     rescore: Rescore,
 ) -> Result<crate::report::PlanReport> {
     let options = report.costs.options.clone();
     let problem = Problem::new(&report, &options, rules.cautious)?;
     let additive_best = problem.solve(rules);
-    let frontier = frontier(&problem, rules, FRONTIER_POINTS);
+    let budgets = if frontier_at.is_empty() {
+        round_budgets_of(&problem)
+    } else {
+        frontier_at.to_vec()
+    };
+    let frontier = frontier(&problem, rules, &budgets);
 
     // The best few plans under the additive model, re-scored with their options together;
     // the choice is made on the joint scores where every candidate has one.
@@ -136,8 +148,8 @@ fn plan_on(
     } else {
         Some(match problem.cheapest() {
             _ if rules.no_adverse_impact && !four_fifths_hold(&problem.today_selection) => format!(
-                "no plan within the budget of {:.0} is expected to bring every group's selection rate to four-fifths of the highest (today: {})",
-                rules.budget,
+                "no plan within the budget of {} is expected to bring every group's selection rate to four-fifths of the highest (today: {})",
+                money(rules.budget),
                 report
                     .groups
                     .iter()
@@ -147,8 +159,9 @@ fn plan_on(
                     .join(", ")
             ),
             Some(cheapest) if cheapest > rules.budget => format!(
-                "the budget of {:.0} is below the cheapest purchase on offer ({cheapest:.0}): nothing can be bought",
-                rules.budget
+                "the budget of {} is below the cheapest purchase on offer ({}): nothing can be bought",
+                money(rules.budget),
+                money(cheapest)
             ),
             _ => "no purchase within the budget is expected to raise the utility (every option's estimated utility is zero or negative, or breaks a floor)".to_string(),
         })
@@ -338,33 +351,105 @@ fn summed(changes: &[&Change], confidence: f64) -> Change {
 /// Plans re-scored jointly, besides the best plan without each of its features.
 pub const RESCORED_PLANS: usize = 4;
 
-/// The best plan at budgets from the cheapest purchase to everything (log-spaced, `points` of
-/// them).
-pub fn frontier(problem: &Problem, rules: &PlanRules, points: usize) -> Vec<FrontierPoint> {
-    let (Some(low), high) = (problem.cheapest(), problem.everything()) else {
-        return Vec::new();
-    };
-    let low = low.max(1e-6);
-    let high = high.max(low);
-    (0..points)
-        .map(|k| {
-            let t = if points > 1 {
-                k as f64 / (points - 1) as f64
-            } else {
-                1.0
-            };
-            let budget = low * (high / low).powf(t);
-            FrontierPoint {
-                budget,
-                plan: problem.solve(&PlanRules { budget, ..*rules }),
-            }
+/// The frontier's budgets when none are asked for: round ones from the cheapest purchase to
+/// everything, at most [`FRONTIER_POINTS`].
+pub fn round_budgets_of(problem: &Problem) -> Vec<f64> {
+    match problem.cheapest() {
+        Some(low) => round_budgets(low.max(1e-6), problem.everything(), FRONTIER_POINTS),
+        None => Vec::new(),
+    }
+}
+
+/// The best plan at each of `budgets`.
+pub fn frontier(problem: &Problem, rules: &PlanRules, budgets: &[f64]) -> Vec<FrontierPoint> {
+    budgets
+        .iter()
+        .map(|&budget| FrontierPoint {
+            budget,
+            plan: problem.solve(&PlanRules { budget, ..*rules }),
         })
         .collect()
+}
+
+/// Round budgets from `low` (the cheapest purchase) to the first round budget that buys
+/// everything (`high`), in the finest series that gives at most `most` of them: every integer
+/// mantissa with quarters below 3, then 1-1.5-2-3-5-7, then 1-2-5 times a power of ten; the
+/// 1-2-5 series thinned evenly (both ends kept) where even it gives more.
+pub fn round_budgets(low: f64, high: f64, most: usize) -> Vec<f64> {
+    let series = |mantissas: &[f64]| -> Vec<f64> {
+        let mut budgets = Vec::new();
+        let first = low.log10().floor() as i32;
+        for k in first..first + 40 {
+            for &m in mantissas {
+                // Exact decimals for the powers below one as above.
+                let b = if k >= 0 {
+                    m * 10f64.powi(k)
+                } else {
+                    m / 10f64.powi(-k)
+                };
+                if b >= low * (1.0 - 1e-12) {
+                    budgets.push(b);
+                    if b >= high * (1.0 - 1e-12) {
+                        return budgets;
+                    }
+                }
+            }
+        }
+        budgets
+    };
+    let fine_to_coarse: [&[f64]; 3] = [
+        &[
+            1.0, 1.25, 1.5, 1.75, 2.0, 2.25, 2.5, 2.75, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0, 9.0,
+        ],
+        &[1.0, 1.5, 2.0, 3.0, 5.0, 7.0],
+        &[1.0, 2.0, 5.0],
+    ];
+    let mut budgets = Vec::new();
+    for mantissas in fine_to_coarse {
+        budgets = series(mantissas);
+        if budgets.len() <= most {
+            return budgets;
+        }
+    }
+    if most < 2 {
+        budgets.truncate(most);
+        return budgets;
+    }
+    let last = budgets.len() - 1;
+    let mut kept: Vec<f64> = (0..most)
+        .map(|i| budgets[(i * last + (most - 1) / 2) / (most - 1)])
+        .collect();
+    kept.dedup();
+    kept
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn frontier_budgets_are_round() {
+        // Constructed spans, no source needed: the demo's (cheapest 250, everything 78,047).
+        let b = round_budgets(250.0, 78_047.0, 24);
+        assert_eq!(
+            b,
+            [
+                300.0, 500.0, 700.0, 1e3, 1.5e3, 2e3, 3e3, 5e3, 7e3, 1e4, 1.5e4, 2e4, 3e4, 5e4,
+                7e4, 1e5
+            ]
+        );
+        // A narrow span takes the finest series; a wide one is thinned, both ends kept.
+        assert_eq!(
+            round_budgets(1000.0, 1600.0, 24),
+            [1000.0, 1250.0, 1500.0, 1750.0]
+        );
+        let wide = round_budgets(0.5, 1e12, 24);
+        assert_eq!(
+            (wide.len(), wide[0], *wide.last().unwrap()),
+            (24, 0.5, 1e12)
+        );
+        assert!(wide.windows(2).all(|w| w[0] < w[1]));
+    }
 
     fn change(mean: f64, low: f64, high: f64) -> Change {
         Change {

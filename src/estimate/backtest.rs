@@ -345,7 +345,7 @@ pub fn run(
         warnings.push(format!(
             "{} rows: realised gains on test parts this small are noisy, so few of them differ \
              significantly from zero and coverage and rank figures rest on few cases",
-            data.rows()
+            crate::report::thousands(data.rows())
         ));
     }
     Ok(BacktestReport {

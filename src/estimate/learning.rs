@@ -283,8 +283,10 @@ pub fn run(
     for &n in &requested(measured.schedule.training_rows) {
         if n > RELIABLE_MULTIPLE * top {
             warnings.push(format!(
-                "{n:.0} training rows is more than {RELIABLE_MULTIPLE}x the largest fitted size \
-                 ({top:.0}): the curves are extrapolated too far there to be relied on"
+                "{} training rows is more than {RELIABLE_MULTIPLE}x the largest fitted size \
+                 ({}): the curves are extrapolated too far there to be relied on",
+                thousands(n.round() as usize),
+                thousands(top.round() as usize)
             ));
         }
     }
@@ -355,9 +357,9 @@ pub fn measure_curves(
         warnings.push(format!(
             "{} training rows are more than the cap of {} a trial trains on (--max-train-rows): \
              the curves are measured up to {} rows and read beyond that by extrapolation",
-            training_rows,
-            trials.max_train_rows,
-            train.len()
+            thousands(training_rows),
+            thousands(trials.max_train_rows),
+            thousands(train.len())
         ));
     }
     let sizes = anchor_sizes(smallest, train.len()).ok_or_else(|| {

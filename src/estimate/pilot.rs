@@ -88,7 +88,7 @@ pub(super) fn feature_value(
             warnings.push(format!(
                 "option '{}': the pilot of {} rows is too small for a learning curve ({reason}); its gain is the difference measured at the pilot's size, not extrapolated",
                 option.name,
-                pilot.len()
+                crate::report::thousands(pilot.len())
             ));
             flags.push("pilot too small for a curve: gain measured at pilot size".into());
             (f64::INFINITY, None)

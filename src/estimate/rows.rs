@@ -70,9 +70,10 @@ fn group_curves(
         Some(sizes) => sizes,
         None => {
             warnings.push(format!(
-                "group '{}' has {m_all} training rows: its own curve starts at a quarter of them, \
+                "group '{}' has {} training rows: its own curve starts at a quarter of them, \
                  where its rarer label has fewer than {} rows",
                 data.group_list[g].name,
+                crate::report::thousands(m_all),
                 learning::MIN_CELL_ROWS
             ));
             learning::anchor_sizes((m_all / 4).max(2), m_all).ok_or_else(|| {

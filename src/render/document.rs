@@ -180,11 +180,11 @@ impl Document {
                     } else {
                         out.push_str("<p>");
                     }
-                    let lines: Vec<String> = t.lines().map(|l| escape(l.trim())).collect();
+                    let lines: Vec<String> = t.lines().map(|l| prose(l.trim())).collect();
                     let _ = writeln!(out, "{}</p>", lines.join("<br>"));
                 }
                 Block::Note(n) => {
-                    let lines: Vec<String> = n.lines().map(|l| escape(l.trim())).collect();
+                    let lines: Vec<String> = n.lines().map(|l| prose(l.trim())).collect();
                     let _ = writeln!(out, "<p class=\"remark\">{}</p>", lines.join("<br>"));
                 }
                 Block::Heading(h) => {
@@ -215,7 +215,7 @@ impl Document {
                     }
                     out.push_str("<ul>\n");
                     for i in items {
-                        let _ = writeln!(out, "<li>{}</li>", escape(i));
+                        let _ = writeln!(out, "<li>{}</li>", prose(i));
                     }
                     out.push_str("</ul>\n");
                     if caution {
@@ -254,7 +254,7 @@ impl Table {
 pub const STYLE: &str = "body{font-family:Helvetica,Arial,sans-serif;margin:2em auto;max-width:980px;color:#222}\
     .doubt{background:#fff4e0;border-left:4px solid #d08000;padding:.5em 1em}\
     table{border-collapse:collapse;margin:1em 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:left;font-size:13px}\
-    td.n{text-align:right;white-space:nowrap}th{background:#f2f2f2}.remark{color:#444;font-size:14px}h2{font-size:1.25em;margin-top:1.4em}\
+    td.n{text-align:right;white-space:nowrap}code{white-space:nowrap}th{background:#f2f2f2}.remark{color:#444;font-size:14px}h2{font-size:1.25em;margin-top:1.4em}\
     .chart{display:block;margin:1em 0;background:#fafafa}.title{font-size:14px;font-weight:bold}\
     .label{font-size:12px}.tick{font-size:10px;fill:#444}.caution{background:#fff7e6;border-left:4px solid #e0a030;padding:.5em 1em}\
     .charts{display:flex;flex-wrap:wrap;gap:10px}";
@@ -265,6 +265,32 @@ pub fn escape(text: &str) -> String {
         .replace('<', "&lt;")
         .replace('>', "&gt;")
         .replace('"', "&quot;")
+}
+
+/// Running text for HTML: escaped, and each command-line flag (`--features`) kept whole as
+/// code, so that a browser never breaks a line between its two dashes.
+pub fn prose(text: &str) -> String {
+    let mut out = String::new();
+    let mut rest = text;
+    while let Some(at) = rest.find("--") {
+        let starts_word = rest[..at]
+            .chars()
+            .next_back()
+            .is_none_or(|c| c.is_whitespace() || "('\"`".contains(c));
+        let flag_len = rest[at + 2..]
+            .find(|c: char| !(c.is_ascii_alphanumeric() || c == '-'))
+            .unwrap_or(rest.len() - at - 2);
+        if !starts_word || flag_len == 0 {
+            out.push_str(&escape(&rest[..at + 2]));
+            rest = &rest[at + 2..];
+            continue;
+        }
+        out.push_str(&escape(&rest[..at]));
+        let _ = write!(out, "<code>{}</code>", &rest[at..at + 2 + flag_len]);
+        rest = &rest[at + 2 + flag_len..];
+    }
+    out.push_str(&escape(rest));
+    out
 }
 
 /// Text that Markdown shows as written: the characters that would start a table cell,
@@ -296,12 +322,13 @@ mod tests {
         d.table(t);
         d.note("a note");
         d.list("Cautions", &["care".to_string()]);
+        d.note("name it in --features, not -- alone or a--b");
         d.list("Warnings", &[]);
         d.chart(None, "<svg></svg>".into());
         let plain = d.plain();
         assert_eq!(
             plain,
-            "first line\nsecond line\nthird line\n\nGroups\n  group   rate\n  -----  -----\n  a|b    0.5 *\n  a note\n\nCautions\n  - care\n"
+            "first line\nsecond line\nthird line\n\nGroups\n  group   rate\n  -----  -----\n  a|b    0.5 *\n  a note\n\nCautions\n  - care\n  name it in --features, not -- alone or a--b\n"
         );
         let md = d.markdown();
         assert!(md.starts_with("# Check \\<1\\>\n\nfirst line  \nsecond line  \nthird line\n\n## Groups\n\n| group | rate |\n|---|---:|\n| a\\|b | 0.5 \\* |\n"));
@@ -311,6 +338,7 @@ mod tests {
         assert!(html.contains("<p>first line<br>second line<br>third line</p>"));
         assert!(html.contains("<td>a|b</td><td class=\"n\">0.5 *</td>"));
         assert!(html.contains("<div class=\"chart\"><svg></svg></div>"));
+        assert!(html.contains("name it in <code>--features</code>, not -- alone or a--b"));
         assert!(html.contains("<div class=\"caution\"><ul>\n<li>care</li>"));
     }
 }

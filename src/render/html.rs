@@ -4,8 +4,8 @@
 
 use std::fmt::Write as _;
 
-use super::document::{escape, STYLE};
-use super::svg::{curve_chart, CurveSet};
+use super::document::{escape, prose, STYLE};
+use super::svg::{curve_chart, format_tick, tick_step, CurveSet};
 use super::{candidate_rows, change_cell, money, thousands, today_source, whole_plan};
 use crate::report::{AppraisalReport, Change, PlanReport};
 
@@ -176,6 +176,40 @@ fn frontier_chart(report: &PlanReport) -> String {
         width - left - right,
         height - top - bottom
     );
+    // Round ticks on both axes, with grid lines, and a title on each.
+    let cost_step = tick_step(max_cost);
+    for k in 0..=(max_cost / cost_step).floor() as usize {
+        let c = cost_step * k as f64;
+        let _ = writeln!(
+            out,
+            r##"<line x1="{x:.1}" y1="{top}" x2="{x:.1}" y2="{:.1}" stroke="#eee"/><text x="{x:.1}" y="{:.1}" class="tick" text-anchor="middle">{}</text>"##,
+            height - bottom,
+            height - bottom + 16.0,
+            money(c),
+            x = px(c)
+        );
+    }
+    let gain_step = tick_step(high - low);
+    let first = (low / gain_step).ceil() as i64;
+    let last = (high / gain_step).floor() as i64;
+    for k in first..=last {
+        let v = gain_step * k as f64;
+        let _ = writeln!(
+            out,
+            r##"<line x1="{left}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#eee"/><text x="{:.1}" y="{:.1}" class="tick" text-anchor="end">{}{}</text>"##,
+            width - right,
+            left - 5.0,
+            py(v) + 3.5,
+            if v > 0.0 { "+" } else { "" },
+            format_tick(v, gain_step),
+            y = py(v)
+        );
+    }
+    let middle = top + (height - top - bottom) / 2.0;
+    let _ = writeln!(
+        out,
+        r#"<text x="14" y="{middle:.1}" class="label" text-anchor="middle" transform="rotate(-90 14 {middle:.1})">gain (accuracy, or fall in unfairness)</text>"#
+    );
     let _ = writeln!(
         out,
         r##"<line x1="{left}" y1="{:.1}" x2="{:.1}" y2="{:.1}" stroke="#888" stroke-dasharray="3 3"/>"##,
@@ -246,26 +280,6 @@ fn frontier_chart(report: &PlanReport) -> String {
         px(chosen.total_cost) + 10.0,
         py(chosen.accuracy_gain.max(chosen.unfairness_reduction)) - 10.0,
         money(chosen.total_cost)
-    );
-    for k in 0..=4 {
-        let c = max_cost * k as f64 / 4.0;
-        let _ = writeln!(
-            out,
-            r#"<text x="{:.1}" y="{:.1}" class="tick" text-anchor="middle">{}</text>"#,
-            px(c),
-            height - bottom + 16.0,
-            money(c)
-        );
-    }
-    let _ = writeln!(
-        out,
-        r#"<text x="{:.1}" y="{:.1}" class="tick" text-anchor="end">{:+.3}</text><text x="{:.1}" y="{:.1}" class="tick" text-anchor="end">{:+.3}</text>"#,
-        left - 5.0,
-        py(high) + 10.0,
-        high,
-        left - 5.0,
-        py(low),
-        low
     );
     let _ = writeln!(
         out,
@@ -355,7 +369,7 @@ pub fn plan_html(report: &PlanReport) -> String {
                 if !whole.flags.is_empty() {
                     out.push_str("<ul class=\"flags\">");
                     for flag in &whole.flags {
-                        let _ = write!(out, "<li>{}</li>", escape(flag));
+                        let _ = write!(out, "<li>{}</li>", prose(flag));
                     }
                     out.push_str("</ul>\n");
                 }
@@ -412,7 +426,7 @@ pub fn plan_html(report: &PlanReport) -> String {
     if !report.warnings.is_empty() {
         let _ = writeln!(out, "<h2>Warnings</h2>\n<ul>");
         for w in &report.warnings {
-            let _ = writeln!(out, "<li>{}</li>", escape(w));
+            let _ = writeln!(out, "<li>{}</li>", prose(w));
         }
         out.push_str("</ul>\n");
     }

@@ -119,12 +119,7 @@ pub fn plan_markdown(report: &PlanReport) -> String {
     let _ = writeln!(out, "|---|---|---|---|---|");
     let mut last = String::new();
     for point in &report.frontier {
-        let buys: Vec<String> = point.plan.items.iter().map(|i| i.option.clone()).collect();
-        let buys = if buys.is_empty() {
-            "nothing".to_string()
-        } else {
-            buys.join(" + ")
-        };
+        let buys = plan_label(&point.plan);
         if buys == last {
             continue;
         }

@@ -141,7 +141,7 @@ fn signed_cell(mean: f64, low: Option<f64>, high: Option<f64>, significant: bool
 }
 
 fn money(x: f64) -> String {
-    thousands(x.round().max(0.0) as usize)
+    crate::report::money(x)
 }
 
 fn plan_lines(report: &PlanReport) -> Vec<String> {
@@ -254,6 +254,19 @@ fn item_label(i: &crate::report::PlanItem) -> String {
     }
 }
 
+/// A plan's purchases in one label, rows options with their row counts: "more-rows 1,000 +
+/// work-sample", or "nothing".
+fn plan_label(plan: &crate::report::Plan) -> String {
+    if plan.items.is_empty() {
+        return "nothing".into();
+    }
+    plan.items
+        .iter()
+        .map(item_label)
+        .collect::<Vec<_>>()
+        .join(" + ")
+}
+
 /// The candidate plans as table cells: plan, cost, summed utility, joint utility, how.
 pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
     let confidence = report.appraisal.inputs.confidence;
@@ -261,7 +274,6 @@ pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
         .candidates
         .iter()
         .map(|c| {
-            let names: Vec<&str> = c.plan.items.iter().map(|i| i.option.as_str()).collect();
             let (joint, how) = match &c.joint {
                 Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
                 None => (
@@ -270,7 +282,7 @@ pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
                 ),
             };
             [
-                names.join(" + "),
+                plan_label(&c.plan),
                 money(c.plan.total_cost),
                 format!("{:+.4}", c.plan.score),
                 joint,

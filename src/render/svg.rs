@@ -3,6 +3,8 @@
 
 use std::fmt::Write as _;
 
+use super::document::escape;
+
 use crate::report::{
     AnchorPoint, CurvePoint, CurveRecord, CurveSchedule, CurvesReport, DisparityCurve,
     GroupSummary, Inputs, ReferenceGroup,
@@ -35,13 +37,6 @@ struct Panel<'a> {
     series: Vec<Series<'a>>,
 }
 
-fn escape(text: &str) -> String {
-    text.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
-
 fn size_label(n: f64) -> String {
     if n >= 1e6 {
         format!("{}M", n / 1e6)
@@ -53,7 +48,8 @@ fn size_label(n: f64) -> String {
 }
 
 /// Round tick step for a span, aiming at about five ticks.
-fn tick_step(span: f64) -> f64 {
+/// A round step between axis ticks: about five of them over `span`.
+pub(super) fn tick_step(span: f64) -> f64 {
     let raw = span / 5.0;
     let power = 10f64.powf(raw.log10().floor());
     [1.0, 2.0, 2.5, 5.0, 10.0]
@@ -298,7 +294,7 @@ fn draw_panel(
     }
 }
 
-fn format_tick(y: f64, step: f64) -> String {
+pub(super) fn format_tick(y: f64, step: f64) -> String {
     let y = if y.abs() < step * 1e-6 { 0.0 } else { y };
     let decimals = (-step.log10().floor()).max(0.0) as usize
         + usize::from(step.log10().fract().abs() > 1e-9 && step < 1.0);

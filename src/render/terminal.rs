@@ -605,7 +605,6 @@ pub fn plan_text(report: &PlanReport) -> String {
             "unfairness reduction (joint)",
         ]);
         for c in &report.candidates {
-            let names: Vec<String> = c.plan.items.iter().map(item_label).collect();
             let joint = |f: &dyn Fn(&crate::report::JointScore) -> &Change| match (
                 &c.joint,
                 c.plan.items.len(),
@@ -615,7 +614,7 @@ pub fn plan_text(report: &PlanReport) -> String {
                 (None, _) => "n/a".to_string(),
             };
             t.row(vec![
-                names.join(" + "),
+                plan_label(&c.plan),
                 money(c.plan.total_cost),
                 format!("{:+.4}", c.plan.score),
                 joint(&|j| &j.utility),
@@ -626,29 +625,9 @@ pub fn plan_text(report: &PlanReport) -> String {
         t.render(&mut out);
         for c in &report.candidates {
             if let Some(j) = &c.joint {
-                let _ = writeln!(
-                    out,
-                    "  {}: {}",
-                    c.plan
-                        .items
-                        .iter()
-                        .map(|i| i.option.as_str())
-                        .collect::<Vec<_>>()
-                        .join(" + "),
-                    j.method
-                );
+                let _ = writeln!(out, "  {}: {}", plan_label(&c.plan), j.method);
             } else if let (Some(note), true) = (&c.note, c.plan.items.len() > 1) {
-                let _ = writeln!(
-                    out,
-                    "  {}: {}",
-                    c.plan
-                        .items
-                        .iter()
-                        .map(|i| i.option.as_str())
-                        .collect::<Vec<_>>()
-                        .join(" + "),
-                    note
-                );
+                let _ = writeln!(out, "  {}: {}", plan_label(&c.plan), note);
             }
         }
     }
@@ -662,12 +641,7 @@ pub fn plan_text(report: &PlanReport) -> String {
     ]);
     let mut last = String::new();
     for point in &report.frontier {
-        let buys: Vec<String> = point.plan.items.iter().map(item_label).collect();
-        let buys = if buys.is_empty() {
-            "nothing".to_string()
-        } else {
-            buys.join(" + ")
-        };
+        let buys = plan_label(&point.plan);
         if buys == last {
             continue;
         }

@@ -34,6 +34,11 @@ pub fn thousands(n: usize) -> String {
     out
 }
 
+/// An amount of money or a budget in whole units with thousands separators: "20,000".
+pub fn money(x: f64) -> String {
+    thousands(x.round().max(0.0) as usize)
+}
+
 /// The cautions every report carries.
 pub const CAUTIONS: [&str; 4] = [
     "These figures are statistical estimates from the data given, with the uncertainty shown; \

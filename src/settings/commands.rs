@@ -181,6 +181,30 @@ pub fn plan_rules(choices: &Choices) -> Result<PlanRules> {
     })
 }
 
+/// The budgets the plan's frontier is shown at (`--budgets`), checked and in order; empty for
+/// round budgets chosen from the cost sheet.
+pub fn frontier_budgets(choices: &Choices) -> Result<Vec<f64>> {
+    let mut budgets = choices.budgets.clone().unwrap_or_default();
+    if let Some(bad) = budgets.iter().find(|b| !(b.is_finite() && **b >= 0.0)) {
+        return Err(Error::setting(
+            "--budgets",
+            format!("every budget must be 0 or more, not {bad}"),
+        ));
+    }
+    if budgets.len() > MOST_BUDGETS {
+        return Err(Error::setting(
+            "--budgets",
+            format!("at most {MOST_BUDGETS} budgets, not {}", budgets.len()),
+        ));
+    }
+    budgets.sort_by(f64::total_cmp);
+    budgets.dedup();
+    Ok(budgets)
+}
+
+/// Most budgets `--budgets` takes: each is a solve of the plan.
+pub const MOST_BUDGETS: usize = 200;
+
 /// What `acquest backtest` holds back: `--hold-rows`, `--hold-features`, `--pilot`,
 /// `--hold-group`, `--rounds` and `--fairness`, checked.
 pub fn backtest_settings(choices: &Choices) -> Result<BacktestSettings> {

@@ -66,6 +66,8 @@ pub struct Choices {
     pub costs: Option<PathBuf>,
     /// `--budget` (or `budget` in the project file).
     pub budget: Option<f64>,
+    /// `--budgets` (or `budgets` in the project file).
+    pub budgets: Option<Vec<f64>>,
     /// `--currency` (or `currency` in the project file).
     pub currency: Option<String>,
     /// `--at` (or `at` in the project file).
@@ -157,6 +159,7 @@ impl Choices {
             max_train_rows,
             costs,
             budget,
+            budgets,
             currency,
             at,
             smallest,
