@@ -1684,44 +1684,58 @@ fn html_report_renders_its_charts_in_a_real_browser() {
         .arg("--quiet")
         .assert()
         .success();
-    let html = out.join("report.html");
     let profile = dir.path().join("profile");
-    let output = std::process::Command::new(chromium)
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-quic",
-            "--no-first-run",
-            "--disable-background-networking",
-            "--disable-component-update",
-            "--disable-sync",
-        ])
-        .arg(format!("--user-data-dir={}", profile.display()))
-        .arg("--dump-dom")
-        .arg(format!("file://{}", html.display()))
-        .output()
-        .unwrap();
-    let dom = String::from_utf8_lossy(&output.stdout);
-    // The recommendation, the frontier, two option charts and the learning curves.
-    assert!(
-        dom.matches("<svg").count() >= 4,
-        "{}",
-        &dom[..dom.len().min(500)]
-    );
-    assert!(dom.contains("id=\"frontier\"") && dom.contains("class=\"chosen\""));
-    assert!(dom.contains("id=\"plan\"") && dom.contains("id=\"options\""));
-    assert!(dom.contains("polyline") && dom.contains("Cautions"));
-    // The recommendation shows the plan's gains with their intervals and the chance it helps.
-    let whole = dom
-        .split("id=\"whole\"")
-        .nth(1)
-        .and_then(|rest| rest.split("</p>").next())
-        .expect("the plan as a whole in the HTML");
-    assert!(
-        whole.matches('[').count() >= 3 && whole.contains("chance that it raises the utility"),
-        "{whole}"
-    );
+    let dom_of = |html: &Path| -> String {
+        let output = std::process::Command::new(chromium)
+            .args([
+                "--headless",
+                "--no-sandbox",
+                "--disable-gpu",
+                "--disable-quic",
+                "--no-first-run",
+                "--disable-background-networking",
+                "--disable-component-update",
+                "--disable-sync",
+            ])
+            .arg(format!("--user-data-dir={}", profile.display()))
+            .arg("--dump-dom")
+            .arg(format!("file://{}", html.display()))
+            .output()
+            .unwrap();
+        String::from_utf8_lossy(&output.stdout).into_owned()
+    };
+    // The demo's plan, and a plan on Adult (the golden report, rendered again).
+    let adult = dir.path().join("adult.html");
+    acquest()
+        .arg("render")
+        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/golden/adult-plan.json"))
+        .arg("--html")
+        .arg(&adult)
+        .assert()
+        .success();
+    for html in [out.join("report.html"), adult] {
+        let dom = dom_of(&html);
+        // The recommendation, the frontier, two option charts and the learning curves.
+        assert!(
+            dom.matches("<svg").count() >= 4,
+            "{}",
+            &dom[..dom.len().min(500)]
+        );
+        assert!(dom.contains("id=\"frontier\"") && dom.contains("class=\"chosen\""));
+        assert!(dom.contains("id=\"plan\"") && dom.contains("id=\"options\""));
+        assert!(dom.contains("polyline") && dom.contains("Cautions"));
+        // The recommendation shows the plan's gains with their intervals and the chance it
+        // helps.
+        let whole = dom
+            .split("id=\"whole\"")
+            .nth(1)
+            .and_then(|rest| rest.split("</p>").next())
+            .expect("the plan as a whole in the HTML");
+        assert!(
+            whole.matches('[').count() >= 3 && whole.contains("chance that it raises the utility"),
+            "{whole}"
+        );
+    }
     for file in ["report.json", "report.md", "curves.svg", "baseline.json"] {
         assert!(out.join(file).exists(), "{file}");
     }

@@ -121,7 +121,7 @@ fn plan_on(
     let all_joint = !candidates.is_empty()
         && candidates
             .iter()
-            .all(|c| c.joint.is_some() || c.plan.items.len() < 2);
+            .all(|c| c.joint.is_some() || c.plan.scored_together());
     let (plan, chosen_by) = if all_joint {
         let best = candidates
             .iter()

@@ -84,7 +84,13 @@ impl Appraiser {
         let full = self.main.read(at);
         let (after, method) = if columns.len() < 2 {
             if columns.is_empty() {
-                (full, format!("today's curve read at {at:.0} training rows"))
+                (
+                    full,
+                    format!(
+                        "today's curve read at {} training rows",
+                        thousands(at.round() as usize)
+                    ),
+                )
             } else {
                 return Ok(Err(
                     "a single feature is already scored with its rows".into()
@@ -101,7 +107,7 @@ impl Appraiser {
                 return Ok(Err(format!(
                     "the pilots of {} overlap on {} rows, too few to measure them together",
                     columns.join(", "),
-                    pilot.len()
+                    thousands(pilot.len())
                 )));
             }
             let mut with_columns: Vec<Column> = data.features.clone();
@@ -121,12 +127,12 @@ impl Appraiser {
             )?;
             match &measured {
                 PilotMeasurement::Curves { difference, .. } => {
-                    (anchored(&full, &difference.read(at)), format!("{} measured together on the {} rows where their pilots overlap, extrapolated to {at:.0} training rows", columns.join(" + "), pilot.len()))
+                    (anchored(&full, &difference.read(at)), format!("{} measured together on the {} rows where their pilots overlap, extrapolated to {} training rows", columns.join(" + "), thousands(pilot.len()), thousands(at.round() as usize)))
                 }
                 PilotMeasurement::AtPilotSize { .. } => {
                     let difference =
                         measured.difference_at_pilot_size(data, self.settings.trials.seed);
-                    (anchored(&full, &difference), format!("{} measured together on the {} rows where their pilots overlap (too few for a curve: the difference there is carried over)", columns.join(" + "), pilot.len()))
+                    (anchored(&full, &difference), format!("{} measured together on the {} rows where their pilots overlap (too few for a curve: the difference there is carried over)", columns.join(" + "), thousands(pilot.len())))
                 }
             }
         };

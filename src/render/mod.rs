@@ -276,10 +276,11 @@ pub(crate) fn candidate_rows(report: &PlanReport) -> Vec<[String; 5]> {
         .map(|c| {
             let (joint, how) = match &c.joint {
                 Some(j) => (change_cell(&j.utility, confidence), j.method.clone()),
-                None => (
+                None if c.plan.scored_together() => (
                     "its own estimate".into(),
                     c.note.clone().unwrap_or_default(),
                 ),
+                None => ("n/a".into(), c.note.clone().unwrap_or_default()),
             };
             [
                 plan_label(&c.plan),

@@ -607,11 +607,11 @@ pub fn plan_text(report: &PlanReport) -> String {
         for c in &report.candidates {
             let joint = |f: &dyn Fn(&crate::report::JointScore) -> &Change| match (
                 &c.joint,
-                c.plan.items.len(),
+                c.plan.scored_together(),
             ) {
                 (Some(j), _) => change_cell(f(j), report.appraisal.inputs.confidence),
-                (None, 1) => "its own estimate".to_string(),
-                (None, _) => "n/a".to_string(),
+                (None, true) => "its own estimate".to_string(),
+                (None, false) => "n/a".to_string(),
             };
             t.row(vec![
                 plan_label(&c.plan),

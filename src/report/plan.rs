@@ -90,6 +90,21 @@ pub struct Plan {
     pub score: f64,
 }
 
+impl Plan {
+    /// Whether the plan's own estimate already takes its options together: one option, or
+    /// rows of every group with at most one feature (a feature bought with rows is read at
+    /// the plan's row count), so it needs no joint re-scoring.
+    pub fn scored_together(&self) -> bool {
+        let features = self
+            .items
+            .iter()
+            .filter(|i| i.kind == OptionKind::Feature)
+            .count();
+        self.items.len() < 2
+            || (features <= 1 && !self.items.iter().any(|i| i.kind == OptionKind::GroupRows))
+    }
+}
+
 /// A plan among the best under the additive model, with its joint score.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Candidate {
