@@ -291,20 +291,13 @@ pub fn write_demo(folder: &Path, size: DemoSize) -> Result<()> {
         reason: e.to_string(),
     };
     std::fs::create_dir_all(folder).map_err(io)?;
-    let file = std::fs::File::create(folder.join("applications.csv")).map_err(io)?;
-    let mut out = std::io::BufWriter::new(file);
     let mut rng = stream_rng(DEMO_SEED, Stream::DemoApplicants, 0);
     let applicants = std::iter::repeat_with(|| draw_applicant(&mut rng, DISABLED_SHARE));
-    write_applications(
-        &mut out,
-        applicants,
-        size.rows,
-        DEMO_SEED,
-        size.extra_columns,
-    )
+    crate::files::write_whole(&folder.join("applications.csv"), |out| {
+        write_applications(out, applicants, size.rows, DEMO_SEED, size.extra_columns)
+    })
     .map_err(io)?;
-    std::io::Write::flush(&mut out).map_err(io)?;
-    std::fs::write(folder.join("costs.csv"), costs_csv(size.rows)).map_err(io)?;
+    crate::files::write_text(&folder.join("costs.csv"), &costs_csv(size.rows)).map_err(io)?;
     let project = if size.rows == DEMO_ROWS {
         PROJECT_TOML.to_string()
     } else {
@@ -312,7 +305,7 @@ pub fn write_demo(folder: &Path, size: DemoSize) -> Result<()> {
         let budget = (20_000u128 * size.rows as u128 / DEMO_ROWS as u128) as u64;
         PROJECT_TOML.replace("budget = 20000", &format!("budget = {budget}"))
     };
-    std::fs::write(folder.join(crate::settings::PROJECT_FILE), project).map_err(io)?;
+    crate::files::write_text(&folder.join(crate::settings::PROJECT_FILE), &project).map_err(io)?;
     Ok(())
 }
 
@@ -330,11 +323,13 @@ pub fn write_parquet_copy(folder: &Path) -> Result<()> {
         .try_into_reader_with_file_path(Some(csv.clone()))
         .and_then(|r| r.finish())
         .map_err(|e| failed(&csv, e.to_string()))?;
-    let file = std::fs::File::create(&parquet).map_err(|e| failed(&parquet, e.to_string()))?;
-    ParquetWriter::new(file)
-        .finish(&mut frame)
-        .map_err(|e| failed(&parquet, e.to_string()))?;
-    Ok(())
+    crate::files::write_whole(&parquet, |out| {
+        ParquetWriter::new(out)
+            .finish(&mut frame)
+            .map(|_| ())
+            .map_err(std::io::Error::other)
+    })
+    .map_err(|e| failed(&parquet, e.to_string()))
 }
 
 #[cfg(test)]

@@ -22,6 +22,7 @@ pub mod demo;
 pub mod engine;
 pub mod error;
 pub mod estimate;
+pub mod files;
 pub mod render;
 pub mod report;
 pub mod settings;

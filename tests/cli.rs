@@ -1659,6 +1659,79 @@ fn the_frontier_is_at_round_budgets_or_at_those_asked_for() {
         .stderr(predicates::str::contains("--budgets"));
 }
 
+#[test]
+fn outputs_are_checked_before_the_work_and_written_whole() {
+    let dir = tempfile::tempdir().unwrap();
+    acquest()
+        .args(["demo", "--quiet", "--no-run", "--out"])
+        .arg(dir.path())
+        .assert()
+        .success();
+    // An output that cannot be written stops the run before any trial, naming flag and path.
+    for (flag, path) in [
+        ("--html", "/nonexistent/x.html"),
+        ("--json", "/nonexistent/x.json"),
+        ("--markdown", "."),
+    ] {
+        acquest()
+            .current_dir(dir.path())
+            .args(["plan", "--quiet", flag, path])
+            .assert()
+            .code(2)
+            .stderr(predicates::str::contains(flag))
+            .stderr(predicates::str::contains(path.trim_start_matches('.')))
+            .stdout(predicates::str::is_empty());
+    }
+    acquest()
+        .current_dir(dir.path())
+        .args(["plan", "--json", "-", "--markdown", "-"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("only one output"));
+    // '-' is standard output for every output flag: the document alone, no tables.
+    acquest()
+        .current_dir(dir.path())
+        .args(["appraise", "--quiet", "--json", "appraise.json"])
+        .assert()
+        .success();
+    let out = acquest()
+        .current_dir(dir.path())
+        .args(["plan", "--appraisal", "appraise.json", "--markdown", "-"])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.starts_with("# Data acquisition plan"), "{text}");
+    // A run interrupted mid-way leaves no file, whole or partial, where it was writing.
+    acquest()
+        .args(["demo", "--quiet", "--no-run", "--rows", "40000", "--out"])
+        .arg(dir.path().join("large"))
+        .assert()
+        .success();
+    let reports = dir.path().join("reports");
+    std::fs::create_dir(&reports).unwrap();
+    let child = std::process::Command::new(env!("CARGO_BIN_EXE_acquest"))
+        .current_dir(dir.path().join("large"))
+        .args(["plan", "--quiet"])
+        .arg("--json")
+        .arg(reports.join("plan.json"))
+        .arg("--html")
+        .arg(reports.join("plan.html"))
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(std::time::Duration::from_millis(1500));
+    let killed = std::process::Command::new("kill")
+        .args(["-INT", &child.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(killed.success());
+    let done = child.wait_with_output().unwrap();
+    assert_eq!(done.status.code(), Some(130), "interrupted, not finished");
+    assert!(String::from_utf8_lossy(&done.stderr).contains("interrupted"));
+    assert_eq!(std::fs::read_dir(&reports).unwrap().count(), 0);
+}
+
 /// Loads the demo's HTML report in headless Chromium (Debian's package, installed by .ci/run)
 /// and checks that the browser built the charts. Skipped with a message where Chromium is
 /// absent outside CI; under CI its absence is a failure.

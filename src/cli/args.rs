@@ -64,10 +64,10 @@ pub(super) struct PlanArgs {
     /// highest group's.
     #[arg(long)]
     pub(super) no_adverse_impact: bool,
-    /// Write the plan as Markdown to FILE, to paste into a proposal.
+    /// Write the plan as Markdown to FILE, to paste into a proposal ('-' for standard output).
     #[arg(long, value_name = "FILE")]
     pub(super) markdown: Option<PathBuf>,
-    /// Write the plan as one self-contained HTML file with charts.
+    /// Write the plan as one self-contained HTML file with charts ('-' for standard output).
     #[arg(long, value_name = "FILE")]
     pub(super) html: Option<PathBuf>,
     /// Plan on a saved appraisal (the JSON of `acquest appraise`, or of an earlier plan) instead
@@ -114,10 +114,10 @@ pub(super) struct BacktestArgs {
 pub(super) struct RenderArgs {
     /// A JSON report written by any command's --json (baseline, curves, appraise, plan, backtest) or by the demo.
     pub(super) report: PathBuf,
-    /// Write it as Markdown to FILE.
+    /// Write it as Markdown to FILE ('-' for standard output).
     #[arg(long, value_name = "FILE")]
     pub(super) markdown: Option<PathBuf>,
-    /// Write it as self-contained HTML to FILE.
+    /// Write it as self-contained HTML to FILE ('-' for standard output).
     #[arg(long, value_name = "FILE")]
     pub(super) html: Option<PathBuf>,
 }
@@ -160,7 +160,7 @@ pub(super) struct CurvesArgs {
     /// Smallest training size [default: the smallest at which every group and label has 10 rows].
     #[arg(long, value_name = "ROWS")]
     pub(super) smallest: Option<usize>,
-    /// Write a chart of the curves to FILE (SVG).
+    /// Write a chart of the curves to FILE (SVG; '-' for standard output).
     #[arg(long, value_name = "FILE")]
     pub(super) svg: Option<PathBuf>,
     #[command(flatten)]
@@ -285,7 +285,7 @@ pub(super) struct TrialArgs {
 
 #[derive(Args)]
 pub(super) struct OutputArgs {
-    /// Write the JSON report to FILE ('-' for standard output, in place of the table).
+    /// Write the JSON report to FILE ('-' for standard output, in place of the tables).
     #[arg(long, value_name = "FILE")]
     pub(super) json: Option<PathBuf>,
     /// No progress bars.
@@ -294,6 +294,9 @@ pub(super) struct OutputArgs {
     /// When done, print the wall time of each stage and the models fitted to standard error.
     #[arg(long)]
     pub(super) timings: bool,
+    /// Some output (this JSON, or a document) goes to standard output, so the tables do not.
+    #[arg(skip)]
+    pub(super) to_standard: bool,
 }
 
 impl DataArgs {

@@ -10,7 +10,7 @@ use clap::Parser;
 use acquest::decide::plan;
 use acquest::estimate::{appraise, baseline, learning};
 use acquest::settings::{AppraisalSettings, Choices, CurveSettings, Settings, PROJECT_FILE};
-use acquest::{demo, render};
+use acquest::{demo, files, render};
 
 mod args;
 mod progress;
@@ -55,21 +55,10 @@ impl Documents {
         output: &OutputArgs,
     ) -> anyhow::Result<()> {
         if let Some(path) = &self.markdown {
-            std::fs::write(path, markdown()).with_context(|| {
-                format!("cannot write the Markdown report to {}", path.display())
-            })?;
-            status(
-                output,
-                &format!("Markdown report written to {}", path.display()),
-            );
+            write_file(path, &markdown(), "Markdown report", output)?;
         }
         if let Some(path) = &self.html {
-            std::fs::write(path, html())
-                .with_context(|| format!("cannot write the HTML report to {}", path.display()))?;
-            status(
-                output,
-                &format!("HTML report written to {}", path.display()),
-            );
+            write_file(path, &html(), "HTML report", output)?;
         }
         Ok(())
     }
@@ -99,6 +88,10 @@ fn run_render(args: RenderArgs) -> anyhow::Result<()> {
         )
         .into());
     }
+    let to_standard = check_outputs(&[
+        ("--markdown", args.markdown.as_deref()),
+        ("--html", args.html.as_deref()),
+    ])?;
     let path = &args.report;
     let value = read_report(path)?;
     let kind = value
@@ -114,6 +107,7 @@ fn run_render(args: RenderArgs) -> anyhow::Result<()> {
         json: None,
         quiet: true,
         timings: false,
+        to_standard,
     };
     let document = match kind.as_str() {
         "plan" => {
@@ -236,24 +230,58 @@ fn run_curves(choices: Choices, svg: Option<&Path>, output: &OutputArgs) -> anyh
     let show = shown_on(&bar);
     let report = learning::run(&settings, &curve_settings, &show)?;
     bar.finish_and_clear();
-    if let Some(path) = svg {
-        std::fs::write(path, render::svg::curves_svg(&report))
-            .with_context(|| format!("cannot write the chart to {}", path.display()))?;
-    }
     write_outputs(&report, render::curves_text(&report), output)?;
     if let Some(path) = svg {
-        status(output, &format!("Chart written to {}", path.display()));
+        write_file(path, &render::svg::curves_svg(&report), "Chart", output)?;
     }
     Ok(())
 }
 
-/// A line about files written: on stdout, unless the JSON report goes there.
+/// A line about files written: on stdout, unless an output goes there.
 fn status(output: &OutputArgs, line: &str) {
-    if output.json.as_deref() == Some(Path::new("-")) {
+    if output.to_standard {
         eprintln!("{line}");
     } else {
         println!("{line}");
     }
+}
+
+/// Writes one output whole (or to standard output for `-`), and says so.
+fn write_file(path: &Path, contents: &str, what: &str, output: &OutputArgs) -> anyhow::Result<()> {
+    if files::is_standard(path) {
+        print!("{contents}");
+        return Ok(());
+    }
+    files::write_text(path, contents).with_context(|| {
+        format!(
+            "cannot write the {} to {}",
+            what.to_lowercase(),
+            path.display()
+        )
+    })?;
+    status(output, &format!("{what} written to {}", path.display()));
+    Ok(())
+}
+
+/// Checks every output before any work: each can be written, and at most one goes to standard
+/// output. Returns whether one does.
+fn check_outputs(outputs: &[(&str, Option<&Path>)]) -> anyhow::Result<bool> {
+    let mut standard: Option<&str> = None;
+    for (flag, path) in outputs {
+        let Some(path) = path else { continue };
+        files::check_writable(path, flag)?;
+        if files::is_standard(path) {
+            if let Some(other) = standard {
+                return Err(acquest::Error::setting(
+                    flag,
+                    format!("{other} already writes to standard output ('-'); only one output can"),
+                )
+                .into());
+            }
+            standard = Some(flag);
+        }
+    }
+    Ok(standard.is_some())
 }
 
 fn write_outputs<T: serde::Serialize>(
@@ -261,15 +289,14 @@ fn write_outputs<T: serde::Serialize>(
     text: String,
     output: &OutputArgs,
 ) -> anyhow::Result<()> {
-    match output.json.as_deref() {
-        Some(path) if path == Path::new("-") => print!("{}", render::json(report)),
-        Some(path) => {
-            std::fs::write(path, render::json(report))
-                .with_context(|| format!("cannot write the JSON report to {}", path.display()))?;
-            print!("{text}");
-            println!("\nJSON report written to {}", path.display());
+    if !output.to_standard {
+        print!("{text}");
+    }
+    if let Some(path) = output.json.as_deref() {
+        if !files::is_standard(path) && !output.to_standard {
+            println!();
         }
-        None => print!("{text}"),
+        write_file(path, &render::json(report), "JSON report", output)?;
     }
     if output.timings {
         eprint!("{}", CLOCK.report(*STARTED));
@@ -279,12 +306,17 @@ fn write_outputs<T: serde::Serialize>(
 
 fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
-        Command::Baseline(args) => {
+        Command::Baseline(mut args) => {
+            args.output.to_standard = check_outputs(&[("--json", args.output.json.as_deref())])?;
             let choices = args.data.choices(args.trials)?;
             run_baseline(choices, &args.output)
         }
         Command::Curves(args) => {
-            let args = *args;
+            let mut args = *args;
+            args.output.to_standard = check_outputs(&[
+                ("--json", args.output.json.as_deref()),
+                ("--svg", args.svg.as_deref()),
+            ])?;
             let mut choices = args.data.choices(args.trials)?;
             choices.at = args.at.or(choices.at.take());
             choices.smallest = args.smallest.or(choices.smallest);
@@ -292,11 +324,17 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         }
         Command::Appraise(args) => {
             let mut args = *args;
+            args.output.to_standard = check_outputs(&[("--json", args.output.json.as_deref())])?;
             let choices = args.choices()?;
             run_appraise(choices, &args.output)
         }
         Command::Plan(args) => {
             let mut args = *args;
+            args.appraise.output.to_standard = check_outputs(&[
+                ("--json", args.appraise.output.json.as_deref()),
+                ("--markdown", args.markdown.as_deref()),
+                ("--html", args.html.as_deref()),
+            ])?;
             let mut choices = args.appraise.choices()?;
             choices.budget = args.budget.or(choices.budget);
             choices.budgets = args.budgets.or(choices.budgets);
@@ -318,7 +356,11 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 None => run_plan(choices, &documents, &output),
             }
         }
-        Command::Backtest(args) => run_backtest(*args),
+        Command::Backtest(args) => {
+            let mut args = *args;
+            args.output.to_standard = check_outputs(&[("--json", args.output.json.as_deref())])?;
+            run_backtest(args)
+        }
         Command::Render(args) => run_render(args),
         Command::Demo(args) => {
             let folder = args
@@ -328,6 +370,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 rows: args.rows.unwrap_or(demo::DEMO_ROWS),
                 extra_columns: args.extra_columns.unwrap_or(0),
             };
+            files::check_folder(&folder, "--out")?;
             if size.rows < 500 {
                 return Err(acquest::Error::setting(
                     "--rows",
@@ -354,6 +397,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 json: Some(folder.join(name)),
                 quiet: args.quiet,
                 timings: false,
+                to_standard: false,
             };
             run_baseline(choices.clone(), &output("baseline.json"))?;
             println!();
@@ -375,9 +419,26 @@ fn run(cli: Cli) -> anyhow::Result<()> {
     }
 }
 
+/// On Ctrl-C (or a termination signal) the files being written are removed before the run
+/// ends, so that no partial file is left; nothing else is written then.
+fn clean_up_when_interrupted() {
+    use signal_hook::consts::{SIGINT, SIGTERM};
+    let Ok(mut signals) = signal_hook::iterator::Signals::new([SIGINT, SIGTERM]) else {
+        return;
+    };
+    std::thread::spawn(move || {
+        if let Some(signal) = signals.forever().next() {
+            files::remove_partial_files();
+            eprintln!("\ninterrupted: nothing half-written is left");
+            std::process::exit(128 + signal);
+        }
+    });
+}
+
 /// Runs the command line and returns the exit code.
 pub fn main() -> ExitCode {
     std::sync::LazyLock::force(&STARTED);
+    clean_up_when_interrupted();
     let cli = Cli::parse();
     match run(cli) {
         Ok(()) => ExitCode::SUCCESS,
