@@ -1605,19 +1605,30 @@ fn render_writes_every_report_kind_as_markdown_and_html() {
         ));
 }
 
-#[test]
-fn the_frontier_is_at_round_budgets_or_at_those_asked_for() {
+/// A folder holding the demo's files, not yet run.
+fn demo_folder() -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
     acquest()
         .args(["demo", "--quiet", "--no-run", "--out"])
         .arg(dir.path())
         .assert()
         .success();
+    dir
+}
+
+/// The appraisal of the demo in `folder`, saved as `name` there.
+fn appraise_to(folder: &Path, name: &str) {
     acquest()
-        .current_dir(dir.path())
-        .args(["appraise", "--quiet", "--json", "appraise.json"])
+        .current_dir(folder)
+        .args(["appraise", "--quiet", "--json", name])
         .assert()
         .success();
+}
+
+#[test]
+fn the_frontier_is_at_round_budgets_or_at_those_asked_for() {
+    let dir = demo_folder();
+    appraise_to(dir.path(), "appraise.json");
     let frontier = |extra: &[&str]| -> Vec<f64> {
         let out = acquest()
             .current_dir(dir.path())
@@ -1661,12 +1672,7 @@ fn the_frontier_is_at_round_budgets_or_at_those_asked_for() {
 
 #[test]
 fn outputs_are_checked_before_the_work_and_written_whole() {
-    let dir = tempfile::tempdir().unwrap();
-    acquest()
-        .args(["demo", "--quiet", "--no-run", "--out"])
-        .arg(dir.path())
-        .assert()
-        .success();
+    let dir = demo_folder();
     // An output that cannot be written stops the run before any trial, naming flag and path.
     for (flag, path) in [
         ("--html", "/nonexistent/x.html"),
@@ -1689,11 +1695,7 @@ fn outputs_are_checked_before_the_work_and_written_whole() {
         .code(2)
         .stderr(predicates::str::contains("only one output"));
     // '-' is standard output for every output flag: the document alone, no tables.
-    acquest()
-        .current_dir(dir.path())
-        .args(["appraise", "--quiet", "--json", "appraise.json"])
-        .assert()
-        .success();
+    appraise_to(dir.path(), "appraise.json");
     let out = acquest()
         .current_dir(dir.path())
         .args(["plan", "--appraisal", "appraise.json", "--markdown", "-"])
