@@ -605,6 +605,30 @@ fn bad_inputs_end_with_exit_2_and_a_message_that_names_the_problem() {
         (
             "cases.csv",
             good.clone(),
+            vec!["--repeats", "1"],
+            "at least 2 for an interval",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--test-fraction", "0.99"],
+            "to train on",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--repeats", "-3"],
+            "--repeats",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
+            vec!["--confidence", "-0.9"],
+            "--confidence",
+        ),
+        (
+            "cases.csv",
+            good.clone(),
             vec!["--model", "forest"],
             "unknown model",
         ),
@@ -813,7 +837,7 @@ fn curves_on_too_few_rows_stop_with_a_clear_message() {
         .unwrap();
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(2), "{stderr}");
-    assert!(stderr.contains("learning curve"), "{stderr}");
+    assert!(stderr.contains("too few rows for trials"), "{stderr}");
     assert!(!stderr.contains("panicked"));
 }
 
@@ -1220,6 +1244,22 @@ fn bad_cost_sheets_name_the_line_and_field() {
         ),
         ("a,rows,,1,0,,1,no,\n", "field max_rows"),
         ("a,rows,,1,0,10,1,maybe,\n", "field sensitive"),
+        (
+            "a,rows,,1,0,50,100,no,\n",
+            "line 2, field step: 100 is more than max_rows 50",
+        ),
+        (
+            "a,rows,,1,0,50,0,no,\n",
+            "field step: 0 is not a whole number",
+        ),
+        (
+            "a,feature,shortlisted,1,0,,,no,\n",
+            "'shortlisted' is the target column",
+        ),
+        (
+            "a,feature,disability,1,0,,,no,\n",
+            "'disability' is the protected column",
+        ),
     ];
     for (lines, expected) in cases {
         let (code, stderr, _) = appraise_with_sheet(&format!("{header}{lines}"), |d| d);
@@ -1246,6 +1286,49 @@ fn bad_cost_sheets_name_the_line_and_field() {
     );
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("no pilot rows"), "{stderr}");
+    // A pilot of 2 rows, and a pilot of one label, are named with their counts before any work.
+    // `pilot` gives the pilot column's cell of a data row (1-based) from its cell and label.
+    type Pilot = fn(usize, &str, &str) -> String;
+    let cases: [(Pilot, &str); 2] = [
+        (
+            |row, _, _| if row <= 2 { "3".into() } else { String::new() },
+            "holds 2 rows",
+        ),
+        (
+            |_, cell, label| {
+                if label == "yes" {
+                    cell.into()
+                } else {
+                    String::new()
+                }
+            },
+            "0 without",
+        ),
+    ];
+    for (pilot, expected) in cases {
+        let (code, stderr, _) = appraise_with_sheet(
+            &format!("{header}a,feature,reference_rating,1,0,,,no,\n"),
+            |d| {
+                d.lines()
+                    .enumerate()
+                    .map(|(row, l)| {
+                        let mut f: Vec<String> = l.split(',').map(String::from).collect();
+                        if row > 0 {
+                            let label = f.last().cloned().unwrap_or_default();
+                            f[7] = pilot(row, &f[7], &label);
+                        }
+                        f.join(",") + "\n"
+                    })
+                    .collect()
+            },
+        );
+        assert_eq!(code, 2, "{stderr}");
+        assert!(
+            stderr.contains("line 2, field column: the pilot of 'reference_rating'")
+                && stderr.contains(expected),
+            "{stderr}"
+        );
+    }
 }
 
 #[test]

@@ -24,22 +24,29 @@ pub(super) struct Cli {
 pub(super) enum Command {
     /// Data summary, groups, bias in the labels, and the current model's accuracy and fairness
     /// with intervals.
+    #[command(allow_negative_numbers = true)]
     Baseline(Box<BaselineArgs>),
     /// Learning curves of accuracy and of each group's rates, fitted and extrapolated, with the
     /// disparities they imply.
+    #[command(allow_negative_numbers = true)]
     Curves(Box<CurvesArgs>),
     /// Every option of a cost sheet valued: accuracy and fairness gains with intervals, cost,
     /// gain per 1,000; and what each feature already held does.
+    #[command(allow_negative_numbers = true)]
     Appraise(Box<AppraiseArgs>),
     /// The budgeted plan: which options to buy within the budget, and the best plan at other
     /// budgets.
+    #[command(allow_negative_numbers = true)]
     Plan(Box<PlanArgs>),
     /// How far the appraisal can be trusted on this data: hold rows and features back, appraise
     /// buying them, buy them for real, and compare predicted with realised gains.
+    #[command(allow_negative_numbers = true)]
     Backtest(Box<BacktestArgs>),
     /// Write the invented demo scenario to a folder and run it.
+    #[command(allow_negative_numbers = true)]
     Demo(DemoArgs),
     /// Render a saved report (JSON) of any command as Markdown or HTML.
+    #[command(allow_negative_numbers = true)]
     Render(RenderArgs),
 }
 

@@ -7,7 +7,7 @@ use serde::Deserialize;
 
 use crate::data::{Dataset, Values};
 use crate::error::{nearest_hint, Error, Result};
-use crate::report::OptionKind;
+use crate::report::{thousands, OptionKind};
 
 pub use crate::report::{Acquisition, CostOption};
 
@@ -316,11 +316,18 @@ impl RawOption {
     }
 }
 
+/// Fewest rows a pilot can be measured on (common practice, no source: a with/without trial
+/// needs rows to train and to test on).
+pub const MIN_PILOT_ROWS: usize = 20;
+/// Fewest rows of each label a pilot needs (common practice, no source).
+pub const MIN_PILOT_LABEL_ROWS: usize = 5;
+
 /// Checks every option against the data and returns them in the sheet's order.
 pub fn check_options(
     path: &Path,
     raw: Vec<(usize, RawOption)>,
     data: &Dataset,
+    target: &str,
     protected: &str,
 ) -> Result<Vec<CostOption>> {
     let error = |line: usize, field: &str, reason: String| Error::Format {
@@ -347,7 +354,11 @@ pub fn check_options(
                 })?;
                 let Some(candidate) = data.candidates.iter().find(|c| c.name == column) else {
                     let is_feature = data.features.iter().any(|c| c.name == column);
-                    let reason = if is_feature {
+                    let reason = if column == target {
+                        format!("'{column}' is the target column (--target), the label the model predicts: it cannot be bought as a feature")
+                    } else if column == protected {
+                        format!("'{column}' is the protected column (--protected): it forms the groups and is not offered as a feature (--use-protected lets the model see it)")
+                    } else if is_feature {
                         format!("'{column}' is already a current feature, filled on most rows; a candidate is filled only on a pilot")
                     } else {
                         format!(
@@ -364,15 +375,44 @@ pub fn check_options(
                         format!("'{column}' has no pilot rows: it is empty everywhere"),
                     ));
                 }
+                let pilot = pilot_rows(data, &column);
+                let favourable = pilot.iter().filter(|&&i| data.labels[i]).count();
+                let rarer = favourable.min(pilot.len() - favourable);
+                if pilot.len() < MIN_PILOT_ROWS || rarer < MIN_PILOT_LABEL_ROWS {
+                    return Err(error(
+                        line,
+                        "column",
+                        format!(
+                            "the pilot of '{column}' (the rows where it is filled) holds {} rows, {} with the favourable label and {} without: a model can be trained and tested on a pilot of at least {MIN_PILOT_ROWS} rows with {MIN_PILOT_LABEL_ROWS} of each label",
+                            thousands(pilot.len()),
+                            thousands(favourable),
+                            thousands(pilot.len() - favourable)
+                        ),
+                    ));
+                }
                 Acquisition::Feature { column }
             }
             "rows" => {
-                if o.max_rows.is_none() {
+                let Some(max_rows) = o.max_rows else {
                     return Err(error(
                         line,
                         "max_rows",
                         "a rows option says how many rows can be had".into(),
                     ));
+                };
+                match o.step {
+                    Some(step) if step > max_rows => {
+                        return Err(error(
+                            line,
+                            "step",
+                            format!(
+                                "{} is more than max_rows {}: no step of it can be bought",
+                                thousands(step),
+                                thousands(max_rows)
+                            ),
+                        ));
+                    }
+                    _ => {}
                 }
                 let filter = match &o.column {
                     None => None,

@@ -143,6 +143,8 @@ pub struct Table {
     /// Lines of the file before the first data row (skipped lines and the header), so that data
     /// row `r` (1-based) is near line `r + lines_before_data`.
     pub lines_before_data: usize,
+    /// What the reader should know about how the file was read (decimal commas).
+    pub warnings: Vec<Warning>,
 }
 
 impl Table {
@@ -212,17 +214,31 @@ pub fn read_table(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Res
         return Err(format_error("holds no data rows".into()));
     }
     let mut columns = Vec::with_capacity(frame.width());
+    let mut warnings = Vec::new();
+    // In a file whose fields are not parted by commas, a comma inside a number is a decimal
+    // comma; elsewhere only where it cannot be a thousands separator.
+    let comma_is_decimal = delimiter.is_some_and(|d| d != b',');
     // Each text column is dropped as soon as it is typed, so the file is not held twice.
     for column in frame.take_columns() {
         let name = column.name().to_string();
         let force_text = categorical.contains(&name);
-        columns.push(type_column(
+        let (typed, comma) = type_column(
             name,
             &column,
             &csv.missing_tokens,
             force_text,
+            comma_is_decimal,
             (!is_parquet).then_some(lines_before_data),
-        )?);
+        )?;
+        if let Some(example) = comma {
+            warnings.push(format!(
+                "column '{}' holds numbers written with a decimal comma (such as '{example}'): read as numbers, '{example}' as {}; add --categorical '{}' if they are codes",
+                typed.name,
+                example.replace(',', "."),
+                typed.name
+            ));
+        }
+        columns.push(typed);
     }
     // A line with no cell at all (such as a blank last line) is not a row.
     let blank: Vec<bool> = (0..rows)
@@ -248,7 +264,21 @@ pub fn read_table(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Res
         },
         columns,
         lines_before_data,
+        warnings,
     })
+}
+
+/// A number written with one decimal comma ("0,75", "-12,5"), as a number; `None` for anything
+/// else. With `any_digits` false, three digits after the comma ("1,250") are taken for a
+/// thousands separator and refused.
+fn decimal_comma(cell: &str, any_digits: bool) -> Option<f64> {
+    let (whole, fraction) = cell.split_once(',')?;
+    let digits = whole.trim_start_matches(['-', '+']);
+    let plain = |s: &str| !s.is_empty() && s.bytes().all(|b| b.is_ascii_digit());
+    if !plain(digits) || !plain(fraction) || (!any_digits && fraction.len() == 3) {
+        return None;
+    }
+    format!("{whole}.{fraction}").parse().ok()
 }
 
 fn describe_delimiter(d: u8) -> String {
@@ -513,8 +543,9 @@ fn type_column(
     column: &polars::prelude::Column,
     missing: &[String],
     force_text: bool,
+    comma_is_decimal: bool,
     line_offset: Option<usize>,
-) -> Result<Column> {
+) -> Result<(Column, Option<String>)> {
     let dtype = column.dtype();
     if dtype.is_primitive_numeric() && !force_text {
         let cast = column
@@ -532,10 +563,13 @@ fn type_column(
             }
             values.push(v);
         }
-        return Ok(Column {
-            name,
-            values: std::sync::Arc::new(Values::Numeric(values)),
-        });
+        return Ok((
+            Column {
+                name,
+                values: std::sync::Arc::new(Values::Numeric(values)),
+            },
+            None,
+        ));
     }
     let text = if matches!(dtype, DataType::String) {
         column.clone()
@@ -550,6 +584,8 @@ fn type_column(
 
     let mut present = 0usize;
     let mut numeric = 0usize;
+    let mut with_comma = 0usize;
+    let mut first_comma: Option<String> = None;
     let mut first_text: Option<(usize, String)> = None;
     let mut first_non_finite: Option<(usize, String)> = None;
     if !force_text {
@@ -563,6 +599,11 @@ fn type_column(
                 Ok(_) => {
                     numeric += 1;
                     first_non_finite.get_or_insert((row, cell.to_string()));
+                }
+                Err(_) if decimal_comma(cell, comma_is_decimal).is_some() => {
+                    numeric += 1;
+                    with_comma += 1;
+                    first_comma.get_or_insert_with(|| cell.to_string());
                 }
                 Err(_) => {
                     first_text.get_or_insert((row, cell.to_string()));
@@ -588,12 +629,21 @@ fn type_column(
         }
         let values = strings
             .into_iter()
-            .map(|cell| clean_cell(cell, missing).and_then(|c| c.parse::<f64>().ok()))
+            .map(|cell| {
+                clean_cell(cell, missing).and_then(|c| {
+                    c.parse::<f64>()
+                        .ok()
+                        .or_else(|| decimal_comma(c, comma_is_decimal))
+                })
+            })
             .collect();
-        return Ok(Column {
-            name,
-            values: std::sync::Arc::new(Values::Numeric(values)),
-        });
+        return Ok((
+            Column {
+                name,
+                values: std::sync::Arc::new(Values::Numeric(values)),
+            },
+            (with_comma > 0).then_some(first_comma).flatten(),
+        ));
     }
     let mut index: HashMap<String, u32> = HashMap::new();
     let mut levels: Vec<String> = Vec::new();
@@ -608,10 +658,13 @@ fn type_column(
         };
         codes.push(code);
     }
-    Ok(Column {
-        name,
-        values: std::sync::Arc::new(Values::Categorical { levels, codes }),
-    })
+    Ok((
+        Column {
+            name,
+            values: std::sync::Arc::new(Values::Categorical { levels, codes }),
+        },
+        None,
+    ))
 }
 
 fn non_finite(name: &str, row: usize, line_offset: Option<usize>, cell: &str) -> Error {
@@ -645,6 +698,20 @@ pub struct Group {
 
 /// Something the user should know about the data, with no effect on whether the run goes on.
 pub type Warning = String;
+
+/// Fewest rows of each label a trial's training part needs (common practice, no source: below
+/// it a model has too little of one class to learn from).
+pub const MIN_TRAIN_LABEL_ROWS: usize = 20;
+/// Fewest rows of each label a trial's test part needs for its rates to mean anything (common
+/// practice, no source).
+pub const MIN_TEST_LABEL_ROWS: usize = 10;
+/// Fewest rows of a label in one group's test part below which that group is named in a
+/// warning (common practice, no source).
+pub const MIN_GROUP_TEST_ROWS: usize = 5;
+/// Fewer repeats than this give a warning that the intervals are rough.
+pub const FEW_REPEATS: usize = 5;
+/// The repeats the warning suggests.
+const DEFAULT_GOOD_REPEATS: usize = 10;
 
 /// The data ready for trials: labels, groups and feature columns, restricted to usable rows.
 #[derive(Debug, Clone)]
@@ -715,14 +782,94 @@ impl Dataset {
         self.labels.len()
     }
 
-    /// Reads the file and applies the schema.
+    /// Reads the file, applies the schema and checks the trial design against the rows: what
+    /// every command starts with.
     pub fn load(settings: &Settings) -> Result<(Table, Dataset)> {
+        let (table, mut dataset) = Dataset::read(settings)?;
+        let design = dataset.check_design(&settings.trials)?;
+        dataset.warnings.extend(design);
+        Ok((table, dataset))
+    }
+
+    /// Reads the file and applies the schema, without the trial design's check.
+    pub fn read(settings: &Settings) -> Result<(Table, Dataset)> {
         let table = read_table(&settings.data, &settings.csv, &settings.schema.categorical)?;
         for name in &settings.schema.categorical {
             table.column(name, "--categorical")?;
         }
         let dataset = Dataset::from_table(&table, &settings.schema)?;
         Ok((table, dataset))
+    }
+
+    /// Whether the trial design can give meaningful figures on these rows, decided here for
+    /// every command: an error where the training or test part of a trial would hold too few
+    /// rows of a label ([`MIN_TRAIN_LABEL_ROWS`], [`MIN_TEST_LABEL_ROWS`]); a warning naming
+    /// each group whose test part would hold fewer than [`MIN_GROUP_TEST_ROWS`] of a label, and
+    /// for fewer than [`FEW_REPEATS`] repeats.
+    pub fn check_design(&self, trials: &crate::settings::TrialSettings) -> Result<Vec<Warning>> {
+        let share = trials.test_fraction;
+        let favourable = self.labels.iter().filter(|&&l| l).count();
+        let counts = [favourable, self.rows() - favourable];
+        let (least, label) = if counts[0] <= counts[1] {
+            (counts[0], "favourable")
+        } else {
+            (counts[1], "unfavourable")
+        };
+        let test = least as f64 * share;
+        let train = least as f64 * (1.0 - share);
+        // The test shares that would do, to two decimals.
+        let lowest = (MIN_TEST_LABEL_ROWS as f64 / least as f64 * 100.0).ceil() / 100.0;
+        let highest = ((1.0 - MIN_TRAIN_LABEL_ROWS as f64 / least as f64) * 100.0).floor() / 100.0;
+        if lowest > highest {
+            return Err(Error::NotEnoughData(format!(
+                "too few rows for trials: the rarer label ({label}) is on {} rows; a trial needs \
+                 at least {MIN_TRAIN_LABEL_ROWS} of each label to train on and \
+                 {MIN_TEST_LABEL_ROWS} to test on",
+                thousands(least)
+            )));
+        }
+        if train < MIN_TRAIN_LABEL_ROWS as f64 || test < MIN_TEST_LABEL_ROWS as f64 {
+            return Err(Error::setting(
+                "--test-fraction",
+                format!(
+                    "too few rows for trials at {share}: it leaves about {} {label} rows to train \
+                     on and {} to test on (of {}), and a trial needs at least \
+                     {MIN_TRAIN_LABEL_ROWS} of each label to train on and {MIN_TEST_LABEL_ROWS} \
+                     to test on; a share from {:.2} to {:.2} would do",
+                    train.floor(),
+                    test.floor(),
+                    thousands(least),
+                    lowest,
+                    highest
+                ),
+            ));
+        }
+        let mut warnings = Vec::new();
+        let thin: Vec<String> = self
+            .group_sizes()
+            .iter()
+            .zip(&self.group_list)
+            .filter_map(|(&(rows, fav), group)| {
+                let fewest = fav.min(rows - fav) as f64 * share;
+                (fewest < MIN_GROUP_TEST_ROWS as f64)
+                    .then(|| format!("'{}' (about {:.0})", group.name, fewest.floor()))
+            })
+            .collect();
+        if !thin.is_empty() {
+            warnings.push(format!(
+                "with --test-fraction {share}, the test part of a trial holds fewer than \
+                 {MIN_GROUP_TEST_ROWS} rows of a label in group {}: that group's rates rest on \
+                 very few rows and their intervals are wide",
+                thin.join(", ")
+            ));
+        }
+        if trials.repeats < FEW_REPEATS {
+            warnings.push(format!(
+                "{} repeats: intervals from so few trials are rough; use --repeats {} or more",
+                trials.repeats, DEFAULT_GOOD_REPEATS
+            ));
+        }
+        Ok(warnings)
     }
 
     /// Applies the schema to a table.
@@ -735,7 +882,7 @@ impl Dataset {
                 "is the same column as --target",
             ));
         }
-        let mut warnings = Vec::new();
+        let mut warnings = table.warnings.clone();
         let (labels, favourable, unfavourable) = read_labels(target, &schema.favourable)?;
         let (groups, group_list) = form_groups(protected, schema.groups.as_deref(), &mut warnings)?;
 
@@ -1270,6 +1417,41 @@ mod tests {
     }
 
     #[test]
+    fn decimal_commas_are_read_as_numbers_and_said() {
+        // Constructed file, no source needed: a semicolon file as spreadsheets in many European
+        // locales write it.
+        let text = "x;w;g;y\n".to_string()
+            + &rows(200, |i| {
+                format!(
+                    "{},{};{};{};{}",
+                    i % 7,
+                    i % 100,
+                    if i % 3 == 0 { "1,250" } else { "2" },
+                    if i % 2 == 0 { "a" } else { "b" },
+                    if i % 5 < 2 { "yes" } else { "no" }
+                )
+            });
+        let f = write(&text, ".csv");
+        let (table, data) = Dataset::read(&settings_for(f.path(), |_| {})).unwrap();
+        let x = table.column("x", "--features").unwrap();
+        assert_eq!(x.kind(), "numeric");
+        assert_eq!(x.text(1).as_deref(), Some("1.1"));
+        // Three digits after the comma: still a decimal comma where fields are parted by ';'.
+        assert_eq!(
+            table.column("w", "--features").unwrap().text(0).as_deref(),
+            Some("1.25")
+        );
+        assert!(data
+            .warnings
+            .iter()
+            .any(|w| w.contains("'x'") && w.contains("decimal comma")));
+        assert_eq!(decimal_comma("1,250", false), None, "a thousands separator");
+        assert_eq!(decimal_comma("-0,5", false), Some(-0.5));
+        assert_eq!(decimal_comma("1,2,3", true), None);
+        assert_eq!(decimal_comma("a,5", true), None);
+    }
+
+    #[test]
     fn sniffs_separators() {
         assert_eq!(sniff_delimiter(&["a;b;c", "1;2;3"]), Some(b';'));
         assert_eq!(sniff_delimiter(&["a b c", "1 2 3"]), Some(b' '));
@@ -1290,7 +1472,7 @@ mod tests {
             });
         let f = write(&body, ".csv");
         let s = settings_for(f.path(), |_| {});
-        let (table, data) = Dataset::load(&s).unwrap();
+        let (table, data) = Dataset::read(&s).unwrap();
         assert_eq!(table.rows(), 60);
         let x = table.column("x", "t").unwrap();
         assert_eq!(x.kind(), "numeric");
@@ -1311,7 +1493,7 @@ mod tests {
                 )
             });
         let f = write(&body, ".csv");
-        let e = Dataset::load(&settings_for(f.path(), |_| {})).unwrap_err();
+        let e = Dataset::read(&settings_for(f.path(), |_| {})).unwrap_err();
         let m = e.to_string();
         assert!(
             m.contains("'x'") && m.contains("row 8") && m.contains("abc"),
@@ -1342,7 +1524,7 @@ mod tests {
             c.protected = Some("age".into());
             c.groups = Some("young=<=25;older=>25".into());
         });
-        let (_, d) = Dataset::load(&s).unwrap();
+        let (_, d) = Dataset::read(&s).unwrap();
         assert_eq!(d.group_list[0].definition, "age <= 25");
         let young = d.groups.iter().filter(|&&g| g == 0).count();
         assert_eq!(young, (0..200).filter(|i| 18 + i % 40 <= 25).count());
@@ -1351,14 +1533,14 @@ mod tests {
             c.protected = Some("code".into());
             c.groups = Some("first=A1;others=*".into());
         });
-        let (_, d) = Dataset::load(&s).unwrap();
+        let (_, d) = Dataset::read(&s).unwrap();
         assert_eq!(d.group_sizes()[0].0, 67);
 
         let s = settings_for(f.path(), |c| {
             c.protected = Some("code".into());
             c.groups = Some("first=A9;others=*".into());
         });
-        assert!(Dataset::load(&s).unwrap_err().to_string().contains("A9"));
+        assert!(Dataset::read(&s).unwrap_err().to_string().contains("A9"));
     }
 
     #[test]
@@ -1373,7 +1555,7 @@ mod tests {
             });
         let f = write(&body, ".csv");
         let s = settings_for(f.path(), |c| c.favourable = Some(">50K".into()));
-        let (_, d) = Dataset::load(&s).unwrap();
+        let (_, d) = Dataset::read(&s).unwrap();
         assert_eq!(d.labels.iter().filter(|&&l| l).count(), 30);
     }
 
@@ -1382,7 +1564,7 @@ mod tests {
         let body = "x,g,y\n".to_string() + &rows(60, |i| format!("{i},{},{}", i % 2, i % 20));
         let f = write(&body, ".csv");
         let s = settings_for(f.path(), |c| c.favourable = Some(">=10".into()));
-        let (_, d) = Dataset::load(&s).unwrap();
+        let (_, d) = Dataset::read(&s).unwrap();
         assert_eq!(d.labels.iter().filter(|&&l| l).count(), 30);
         assert_eq!(d.favourable, "y >= 10");
     }
@@ -1399,7 +1581,7 @@ mod tests {
                 )
             });
         let f = write(&body, ".csv");
-        let (_, d) = Dataset::load(&settings_for(f.path(), |_| {})).unwrap();
+        let (_, d) = Dataset::read(&settings_for(f.path(), |_| {})).unwrap();
         assert_eq!(d.features.len(), 1);
         assert_eq!(d.candidates[0].name, "pilot");
         assert!(d.warnings.iter().any(|w| w.contains("candidate")));

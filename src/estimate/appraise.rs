@@ -162,7 +162,13 @@ pub fn run_with_options(
 ) -> Result<(AppraisalReport, Appraiser)> {
     let (table, data) = Dataset::load(settings)?;
     let raw = costs::read_cost_sheet(&appraisal.costs)?;
-    let options = costs::check_options(&appraisal.costs, raw, &data, &settings.schema.protected)?;
+    let options = costs::check_options(
+        &appraisal.costs,
+        raw,
+        &data,
+        &settings.schema.target,
+        &settings.schema.protected,
+    )?;
     let sha256 = {
         use sha2::{Digest, Sha256};
         let bytes = std::fs::read(&appraisal.costs).map_err(|e| Error::File {

@@ -302,5 +302,11 @@ mod tests {
         assert_eq!(thousands(32561), "32,561");
         assert_eq!(thousands(999), "999");
         assert_eq!(thousands(1_000_000), "1,000,000");
+        // Amounts beyond any integer type print every digit of the nearest whole number.
+        assert_eq!(money(19_499.6), "19,500");
+        assert_eq!(money(2e19), "20,000,000,000,000,000,000");
+        assert_eq!(money(1e25), "10,000,000,000,000,000,905,969,664");
+        assert_eq!(money(-1500.0), "-1,500");
+        assert_eq!(money(0.4), "0");
     }
 }

@@ -23,7 +23,11 @@ pub const FORMAT_VERSION: u32 = 3;
 
 /// A count with thousands separators ("32,561"), as every text of a report writes counts.
 pub fn thousands(n: usize) -> String {
-    let digits = n.to_string();
+    grouped(&n.to_string())
+}
+
+/// Digits grouped by three with commas.
+fn grouped(digits: &str) -> String {
     let mut out = String::new();
     for (i, ch) in digits.chars().enumerate() {
         if i > 0 && (digits.len() - i).is_multiple_of(3) {
@@ -34,9 +38,15 @@ pub fn thousands(n: usize) -> String {
     out
 }
 
-/// An amount of money or a budget in whole units with thousands separators: "20,000".
+/// An amount of money or a budget in whole units with thousands separators ("20,000"), exact
+/// for any finite amount however large (every digit of the nearest whole number).
 pub fn money(x: f64) -> String {
-    thousands(x.round().max(0.0) as usize)
+    if !x.is_finite() {
+        return x.to_string();
+    }
+    let whole = format!("{:.0}", x.abs());
+    let sign = if x.round() < 0.0 { "-" } else { "" };
+    format!("{sign}{}", grouped(&whole))
 }
 
 /// The cautions every report carries.

@@ -427,10 +427,12 @@ impl Settings {
             }
         };
         let repeats = choices.repeats.unwrap_or(DEFAULT_REPEATS);
-        if repeats == 0 {
+        if repeats < 2 {
             return Err(Error::setting(
                 "--repeats",
-                "must be at least 1 (10 or more gives useful intervals)",
+                format!(
+                    "must be at least 2 for an interval, not {repeats} (10 or more gives useful ones)"
+                ),
             ));
         }
         let test_fraction = choices.test_fraction.unwrap_or(0.3);
@@ -626,8 +628,14 @@ mod tests {
     fn zero_repeats_is_refused() {
         let mut c = minimal();
         c.repeats = Some(0);
-        let e = Settings::from_choices(c).unwrap_err();
+        let e = Settings::from_choices(c.clone()).unwrap_err();
         assert!(e.to_string().contains("--repeats"));
+        c.repeats = Some(1);
+        let e = Settings::from_choices(c).unwrap_err();
+        assert!(
+            e.to_string().contains("at least 2"),
+            "one trial gives no interval"
+        );
     }
 
     #[test]
