@@ -87,6 +87,22 @@ impl Error {
         !matches!(self, Error::Internal(_))
     }
 
+    /// The same error, naming `path` as the file it is about (a file read in place of another,
+    /// such as standard input held in a temporary file).
+    pub fn for_path(self, path: &std::path::Path) -> Self {
+        match self {
+            Error::File { reason, .. } => Error::File {
+                path: path.to_path_buf(),
+                reason,
+            },
+            Error::Format { reason, .. } => Error::Format {
+                path: path.to_path_buf(),
+                reason,
+            },
+            other => other,
+        }
+    }
+
     /// Shorthand for a [`Error::BadSetting`].
     pub fn setting(flag: &str, reason: impl Into<String>) -> Self {
         Error::BadSetting {

@@ -126,6 +126,39 @@ fn lock() -> std::sync::MutexGuard<'static, Vec<PathBuf>> {
     IN_PROGRESS.lock().unwrap_or_else(|e| e.into_inner())
 }
 
+/// Standard input, copied whole into a temporary file in the working folder, so that it can be
+/// read as any data file; [`release`] removes it (as does Ctrl-C).
+pub fn hold_standard_input() -> std::io::Result<PathBuf> {
+    let path = PathBuf::from(format!(".acquest-standard-input-{}", std::process::id()));
+    lock().push(path.clone());
+    let copied = std::fs::File::create(&path).and_then(|mut file| {
+        std::io::copy(&mut std::io::stdin().lock(), &mut file)?;
+        file.flush()
+    });
+    if let Err(e) = copied {
+        release(&path);
+        return Err(e);
+    }
+    Ok(path)
+}
+
+/// A text file read whole; `-` reads standard input.
+pub fn read_text(path: &Path) -> std::io::Result<String> {
+    if is_standard(path) {
+        let mut text = String::new();
+        std::io::Read::read_to_string(&mut std::io::stdin().lock(), &mut text)?;
+        Ok(text)
+    } else {
+        std::fs::read_to_string(path)
+    }
+}
+
+/// Removes a file held by [`hold_standard_input`].
+pub fn release(path: &Path) {
+    let _ = std::fs::remove_file(path);
+    lock().retain(|p| p != path);
+}
+
 /// Removes the temporary files being written now: called when the run is interrupted, so that
 /// Ctrl-C leaves no partial file behind.
 pub fn remove_partial_files() {

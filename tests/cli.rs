@@ -1688,6 +1688,17 @@ fn render_writes_every_report_kind_as_markdown_and_html() {
         ));
 }
 
+/// Runs a command that writes its JSON report to standard output, and reads the report.
+fn json_of(command: &mut Command) -> serde_json::Value {
+    let out = command.output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
 /// A folder holding the demo's files, not yet run.
 fn demo_folder() -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
@@ -1713,19 +1724,13 @@ fn the_frontier_is_at_round_budgets_or_at_those_asked_for() {
     let dir = demo_folder();
     appraise_to(dir.path(), "appraise.json");
     let frontier = |extra: &[&str]| -> Vec<f64> {
-        let out = acquest()
-            .current_dir(dir.path())
-            .args(["plan", "--appraisal", "appraise.json", "--budget", "20000"])
-            .args(extra)
-            .args(["--json", "-"])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
+        let report = json_of(
+            acquest()
+                .current_dir(dir.path())
+                .args(["plan", "--appraisal", "appraise.json", "--budget", "20000"])
+                .args(extra)
+                .args(["--json", "-"]),
         );
-        let report: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
         report["frontier"]
             .as_array()
             .unwrap()
@@ -1815,6 +1820,53 @@ fn outputs_are_checked_before_the_work_and_written_whole() {
     assert_eq!(done.status.code(), Some(130), "interrupted, not finished");
     assert!(String::from_utf8_lossy(&done.stderr).contains("interrupted"));
     assert_eq!(std::fs::read_dir(&reports).unwrap().count(), 0);
+}
+
+#[test]
+fn standard_input_is_read_as_the_data_file() {
+    let dir = demo_folder();
+    let json = |args: &[&str], input: Option<Vec<u8>>| -> serde_json::Value {
+        let mut command = acquest();
+        command
+            .current_dir(dir.path())
+            .args(["baseline", "--quiet", "--json", "-"])
+            .args(args);
+        if let Some(bytes) = input {
+            command.write_stdin(bytes);
+        }
+        json_of(&mut command)
+    };
+    let from_file = json(&[], None);
+    let bytes = std::fs::read(dir.path().join("applications.csv")).unwrap();
+    let from_input = json(&["--data", "-"], Some(bytes));
+    assert_eq!(from_input["inputs"]["data"]["path"], "standard input");
+    assert_eq!(
+        from_input["inputs"]["data"]["sha256"],
+        from_file["inputs"]["data"]["sha256"]
+    );
+    assert_eq!(from_input["model"], from_file["model"]);
+    let left: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with('.'))
+        .collect();
+    assert!(left.is_empty(), "temporary files left: {left:?}");
+    // The cost sheet too; one input at most can read standard input.
+    let sheet = std::fs::read(dir.path().join("costs.csv")).unwrap();
+    let report = json_of(
+        acquest()
+            .current_dir(dir.path())
+            .args(["appraise", "--quiet", "--costs", "-", "--json", "-"])
+            .write_stdin(sheet),
+    );
+    assert_eq!(report["costs"]["path"], "standard input");
+    assert_eq!(report["options"].as_array().unwrap().len(), 5);
+    acquest()
+        .current_dir(dir.path())
+        .args(["appraise", "--data", "-", "--costs", "-"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("only one input"));
 }
 
 /// Loads the demo's HTML report in headless Chromium (Debian's package, installed by .ci/run)

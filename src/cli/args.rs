@@ -351,6 +351,14 @@ impl AppraiseArgs {
         let trials = std::mem::take(&mut self.trials);
         let mut choices = data.choices(trials)?;
         choices.costs = self.costs.take().or(choices.costs.take());
+        let standard = |p: &Option<PathBuf>| p.as_deref() == Some(Path::new("-"));
+        if standard(&choices.data) && standard(&choices.costs) {
+            return Err(acquest::Error::setting(
+                "--costs",
+                "--data already reads standard input ('-'); only one input can",
+            )
+            .into());
+        }
         choices.currency = self.currency.take().or(choices.currency.take());
         choices.fairness = self.fairness.take().or(choices.fairness.take());
         choices.weigh_accuracy = self.weigh_accuracy.or(choices.weigh_accuracy);

@@ -174,7 +174,7 @@ fn read_report(path: &Path) -> anyhow::Result<serde_json::Value> {
         path: path.to_path_buf(),
         reason,
     };
-    let text = std::fs::read_to_string(path).map_err(|e| acquest::Error::File {
+    let text = files::read_text(path).map_err(|e| acquest::Error::File {
         path: path.to_path_buf(),
         reason: e.to_string(),
     })?;

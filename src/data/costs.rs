@@ -78,13 +78,21 @@ const FIELDS: [&str; 9] = [
     "note",
 ];
 
-/// Reads a cost sheet: JSON (an array of options, or an object with an `options` array) when
-/// the file starts with `[` or `{`, CSV otherwise.
-pub fn read_cost_sheet(path: &Path) -> Result<Vec<(usize, RawOption)>> {
-    let text = std::fs::read_to_string(path).map_err(|e| Error::File {
+/// Reads a cost sheet (`-` for standard input): JSON (an array of options, or an object with an
+/// `options` array) when the file starts with `[` or `{`, CSV otherwise. Returns its lines and
+/// the SHA-256 of the text read.
+pub fn read_cost_sheet(path: &Path) -> Result<(Vec<(usize, RawOption)>, String)> {
+    let text = crate::files::read_text(path).map_err(|e| Error::File {
         path: path.to_path_buf(),
         reason: e.to_string(),
     })?;
+    let sha256 = {
+        use sha2::{Digest, Sha256};
+        Sha256::digest(text.as_bytes())
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect::<String>()
+    };
     let format_error = |reason: String| Error::Format {
         path: path.to_path_buf(),
         reason,
@@ -122,7 +130,7 @@ pub fn read_cost_sheet(path: &Path) -> Result<Vec<(usize, RawOption)>> {
     if lines.is_empty() {
         return Err(format_error("lists no options".into()));
     }
-    lines
+    let options = lines
         .into_iter()
         .map(|(line, raw)| {
             RawOption::from_line(raw)
@@ -138,7 +146,8 @@ pub fn read_cost_sheet(path: &Path) -> Result<Vec<(usize, RawOption)>> {
                     ))
                 })
         })
-        .collect()
+        .collect::<Result<_>>()?;
+    Ok((options, sha256))
 }
 
 /// Splits a CSV line on commas, honouring double quotes.

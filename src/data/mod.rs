@@ -167,8 +167,25 @@ impl Table {
 }
 
 /// Reads the data file named in the settings: Parquet when the file carries the Parquet marker,
-/// CSV otherwise. `categorical` names columns kept as categories even when they look numeric.
+/// CSV otherwise; `-` reads standard input (held in a temporary file in the working folder while
+/// it is read, then removed). `categorical` names columns kept as categories even when they look
+/// numeric.
 pub fn read_table(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<Table> {
+    if !crate::files::is_standard(path) {
+        return read_file(path, csv, categorical);
+    }
+    let held = crate::files::hold_standard_input().map_err(|e| Error::File {
+        path: path.to_path_buf(),
+        reason: format!("cannot read standard input: {e}"),
+    })?;
+    let read = read_file(&held, csv, categorical);
+    crate::files::release(&held);
+    let mut table = read.map_err(|e| e.for_path(path))?;
+    table.source.path = "standard input".into();
+    Ok(table)
+}
+
+fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<Table> {
     let file_error = |e: std::io::Error| Error::File {
         path: path.to_path_buf(),
         reason: e.to_string(),

@@ -7,7 +7,7 @@ use crate::data::costs::{self, Acquisition, CostOption};
 use crate::data::{Column, Dataset};
 use crate::engine::streams::Stream;
 use crate::engine::trial::ProgressSink;
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::estimate::baseline;
 use crate::estimate::learning::{self, CurvePlan, FittedCurves, Reading};
 use crate::report::*;
@@ -161,7 +161,7 @@ pub fn run_with_options(
     progress: ProgressSink,
 ) -> Result<(AppraisalReport, Appraiser)> {
     let (table, data) = Dataset::load(settings)?;
-    let raw = costs::read_cost_sheet(&appraisal.costs)?;
+    let (raw, sha256) = costs::read_cost_sheet(&appraisal.costs)?;
     let options = costs::check_options(
         &appraisal.costs,
         raw,
@@ -169,17 +169,6 @@ pub fn run_with_options(
         &settings.schema.target,
         &settings.schema.protected,
     )?;
-    let sha256 = {
-        use sha2::{Digest, Sha256};
-        let bytes = std::fs::read(&appraisal.costs).map_err(|e| Error::File {
-            path: appraisal.costs.clone(),
-            reason: e.to_string(),
-        })?;
-        Sha256::digest(&bytes)
-            .iter()
-            .map(|b| format!("{b:02x}"))
-            .collect::<String>()
-    };
     let inputs = baseline::inputs(settings, &table, &data);
     let input = AppraisalInput {
         data,
@@ -334,7 +323,11 @@ pub fn appraise_dataset(
         command: "appraise".into(),
         inputs,
         costs: CostInputs {
-            path: appraisal.costs.display().to_string(),
+            path: if crate::files::is_standard(&appraisal.costs) {
+                "standard input".into()
+            } else {
+                appraisal.costs.display().to_string()
+            },
             sha256,
             currency: appraisal.currency.clone(),
             fairness: appraisal.fairness.name().into(),

@@ -109,7 +109,7 @@ macro_rules! overlay {
 impl Choices {
     /// Reads a project file. Relative paths in it are taken relative to its folder.
     pub fn from_project_file(path: &Path) -> Result<Self> {
-        let text = std::fs::read_to_string(path).map_err(|e| Error::File {
+        let text = crate::files::read_text(path).map_err(|e| Error::File {
             path: path.to_path_buf(),
             reason: e.to_string(),
         })?;
