@@ -93,14 +93,19 @@ pub fn read_cost_sheet(path: &Path) -> Result<(Vec<(usize, RawOption)>, String)>
             .map(|b| format!("{b:02x}"))
             .collect::<String>()
     };
+    Ok((parse_cost_sheet(&text, path)?, sha256))
+}
+
+/// A cost sheet's text read as its options, with `path` named in errors.
+pub fn parse_cost_sheet(text: &str, path: &Path) -> Result<Vec<(usize, RawOption)>> {
     let format_error = |reason: String| Error::Format {
         path: path.to_path_buf(),
         reason,
     };
     let trimmed = text.trim_start();
     let lines: Vec<(usize, RawLine)> = if trimmed.starts_with('[') || trimmed.starts_with('{') {
-        let value: serde_json::Value = serde_json::from_str(&text)
-            .map_err(|e| format_error(format!("not valid JSON: {e}")))?;
+        let value: serde_json::Value =
+            serde_json::from_str(text).map_err(|e| format_error(format!("not valid JSON: {e}")))?;
         let items = match value {
             serde_json::Value::Array(items) => items,
             serde_json::Value::Object(mut map) => match map.remove("options") {
@@ -125,12 +130,12 @@ pub fn read_cost_sheet(path: &Path) -> Result<(Vec<(usize, RawOption)>, String)>
             })
             .collect::<Result<_>>()?
     } else {
-        parse_csv(&text).map_err(format_error)?
+        parse_csv(text).map_err(format_error)?
     };
     if lines.is_empty() {
         return Err(format_error("lists no options".into()));
     }
-    let options = lines
+    lines
         .into_iter()
         .map(|(line, raw)| {
             RawOption::from_line(raw)
@@ -146,8 +151,7 @@ pub fn read_cost_sheet(path: &Path) -> Result<(Vec<(usize, RawOption)>, String)>
                     ))
                 })
         })
-        .collect::<Result<_>>()?;
-    Ok((options, sha256))
+        .collect()
 }
 
 /// Splits a CSV line on commas, honouring double quotes.

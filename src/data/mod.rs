@@ -219,9 +219,20 @@ fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<T
 
     let (frame, delimiter, lines_before_data) = if is_parquet {
         let file = File::open(path).map_err(file_error)?;
-        let frame = ParquetReader::new(file)
-            .finish()
-            .map_err(|e| format_error(format!("cannot read as Parquet: {e}")))?;
+        // The Parquet reader can panic on a damaged file rather than fail: that too is a named
+        // error (found by tests/fuzz.rs), and its panic message is kept off the terminal.
+        let previous = std::panic::take_hook();
+        std::panic::set_hook(Box::new(|_| {}));
+        let read = std::panic::catch_unwind(|| ParquetReader::new(file).finish());
+        std::panic::set_hook(previous);
+        let frame = match read {
+            Ok(read) => read.map_err(|e| format_error(format!("cannot read as Parquet: {e}")))?,
+            Err(_) => {
+                return Err(format_error(
+                    "cannot read as Parquet: the file is damaged (its reader stopped on it)".into(),
+                ))
+            }
+        };
         (frame, None, 0)
     } else {
         read_csv(path, csv, &head)?
@@ -254,6 +265,14 @@ fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<T
                 example.replace(',', "."),
                 typed.name
             ));
+        }
+        if typed.len() != rows {
+            return Err(format_error(format!(
+                "the file is damaged: column '{}' holds {} values for {} rows",
+                typed.name,
+                typed.len(),
+                rows
+            )));
         }
         columns.push(typed);
     }

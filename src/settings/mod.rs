@@ -113,7 +113,13 @@ impl Choices {
             path: path.to_path_buf(),
             reason: e.to_string(),
         })?;
-        let mut choices: Choices = toml::from_str(&text).map_err(|e| Error::Format {
+        Choices::from_project_text(&text, path)
+    }
+
+    /// A project file's text read as choices, with `path` named in errors and relative paths
+    /// taken relative to its folder.
+    pub fn from_project_text(text: &str, path: &Path) -> Result<Self> {
+        let mut choices: Choices = toml::from_str(text).map_err(|e| Error::Format {
             path: path.to_path_buf(),
             reason: e.to_string().trim().to_string(),
         })?;
