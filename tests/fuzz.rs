@@ -5,7 +5,9 @@
 //! (acquest-fuzz-crashes) to be made a regression test.
 //!
 //! `ACQUEST_FUZZ_INPUTS` sets the inputs per parser (default 300, the short run of the test
-//! suite); tests/fuzz/run.sh runs the full one. `ACQUEST_FUZZ_SEED` changes the seed.
+//! suite); tests/fuzz/run.sh runs the full one. `ACQUEST_FUZZ_SEED` changes the seed, and
+//! `ACQUEST_FUZZ_ONLY=csv,parquet` runs those parsers alone. An input that aborts the process
+//! (an allocation that fails cannot be caught) is left as `NAME-current` there.
 
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::{Path, PathBuf};
@@ -128,11 +130,27 @@ fn mutate(rng: &mut ChaCha8Rng, base: &[u8]) -> Vec<u8> {
 /// Runs `parse` on every input, catching panics and timing each; returns the inputs that
 /// panicked or ran over the time limit.
 fn run_parser(name: &str, inputs: impl Iterator<Item = Vec<u8>>, parse: impl Fn(&[u8])) -> usize {
+    let only = std::env::var("ACQUEST_FUZZ_ONLY").unwrap_or_default();
+    if !only.is_empty() && !only.split(',').any(|o| o == name) {
+        return 0;
+    }
     let crashes = std::env::temp_dir().join("acquest-fuzz-crashes");
+    let _ = std::fs::create_dir_all(&crashes);
+    // The input under test, kept until it is done: an abort (an allocation that fails) ends
+    // the process, and leaves this file behind.
+    let current = crashes.join(format!("{name}-current"));
     let (mut count, mut bad, mut slowest) = (0usize, 0usize, Duration::ZERO);
     let started = Instant::now();
     for input in inputs {
         count += 1;
+        if count % 100_000 == 0 {
+            eprintln!("{name}: {count} inputs so far");
+        }
+        // Only for the readers of files, whose native code can abort; a write per input would
+        // slow the in-memory parsers a hundredfold.
+        if name.starts_with("csv") || name == "parquet" {
+            let _ = std::fs::write(&current, &input);
+        }
         let begun = Instant::now();
         let outcome = catch_unwind(AssertUnwindSafe(|| parse(&input)));
         let took = begun.elapsed();
@@ -153,6 +171,7 @@ fn run_parser(name: &str, inputs: impl Iterator<Item = Vec<u8>>, parse: impl Fn(
             );
         }
     }
+    let _ = std::fs::remove_file(&current);
     println!(
         "{name}: {count} inputs, {bad} panics or hangs, {:.1} s, slowest {:.3} s",
         started.elapsed().as_secs_f64(),
