@@ -93,7 +93,7 @@ impl Appraiser {
                 )
             } else {
                 return Ok(Err(
-                    "a single feature is already scored with its rows".into()
+                    "one feature: its own estimate, read at the plan's row count, already takes any rows bought with it into account".into()
                 ));
             }
         } else {
