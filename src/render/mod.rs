@@ -14,7 +14,7 @@ pub use terminal::{
     baseline_text, curves_document, curves_text, plan_text,
 };
 
-use crate::report::{Change, CurvePoint, Estimate, OptionKind, PlanReport};
+use crate::report::{money, thousands, Change, CurvePoint, Estimate, OptionKind, PlanReport};
 
 /// The report as pretty-printed JSON, ending in a newline.
 pub fn json<T: serde::Serialize>(report: &T) -> String {
@@ -73,10 +73,6 @@ impl Table {
             line(row, out);
         }
     }
-}
-
-fn thousands(n: usize) -> String {
-    crate::report::thousands(n)
 }
 
 fn number(x: f64) -> String {
@@ -138,10 +134,6 @@ fn signed_cell(mean: f64, low: Option<f64>, high: Option<f64>, significant: bool
         (Some(l), Some(h)) => format!("{mean:+.4} [{l:+.4}, {h:+.4}]{star}"),
         _ => format!("{mean:+.4}{star}"),
     }
-}
-
-fn money(x: f64) -> String {
-    crate::report::money(x)
 }
 
 fn plan_lines(report: &PlanReport) -> Vec<String> {
@@ -302,7 +294,8 @@ mod tests {
         assert_eq!(thousands(32561), "32,561");
         assert_eq!(thousands(999), "999");
         assert_eq!(thousands(1_000_000), "1,000,000");
-        // Amounts beyond any integer type print every digit of the nearest whole number.
+        // Amounts beyond any integer type print every digit of the nearest whole number: the
+        // f64 nearest 1e25 is 10000000000000000905969664 (Python 3.11: int(1e25)).
         assert_eq!(money(19_499.6), "19,500");
         assert_eq!(money(2e19), "20,000,000,000,000,000,000");
         assert_eq!(money(1e25), "10,000,000,000,000,000,905,969,664");
