@@ -2341,3 +2341,117 @@ more-records,rows,,1.50,0,30000,10000,no,Another census extract
         .collect();
     assert_eq!(bought, ["marital"], "{}", plan["plan"]);
 }
+
+#[test]
+fn a_pilot_of_one_group_leaves_its_fairness_unmeasured_and_out_of_the_sums() {
+    // The demo with the work-sample pilot kept on applicants of group 'none' only: the feature's
+    // effect on unfairness cannot be read, so it must be shown as not measured (never as 0),
+    // its utility must weigh accuracy alone, and plans must leave it out of their sums.
+    let dir = demo_folder();
+    let path = dir.path().join("applications.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let mut lines = text.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let column = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let (group, sample, label) = (
+        column("disability"),
+        column("work_sample"),
+        column("shortlisted"),
+    );
+    let (mut out, mut pilot, mut favourable) = (header.join(",") + "\n", 0, 0);
+    for line in lines {
+        let mut fields: Vec<&str> = line.split(',').collect();
+        if fields[group] != "none" {
+            fields[sample] = "";
+        }
+        if !fields[sample].is_empty() {
+            pilot += 1;
+            favourable += usize::from(fields[label] == "yes");
+        }
+        out += &(fields.join(",") + "\n");
+    }
+    std::fs::write(&path, out).unwrap();
+    let output = acquest()
+        .current_dir(dir.path())
+        .args(["plan", "--json", "plan.json"])
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let terminal = String::from_utf8_lossy(&output.stdout);
+    assert!(!terminal.contains("NaN"), "{terminal}");
+    assert!(terminal.contains("not measured"), "{terminal}");
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("plan.json")).unwrap())
+            .unwrap();
+    let appraisal = &report["appraisal"];
+    let option = appraisal["options"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|o| o["name"] == "work-sample")
+        .unwrap();
+    let estimate = &option["estimate"];
+    for field in ["mean", "low", "high", "p_value"] {
+        assert!(estimate["unfairness_reduction"][field].is_null(), "{field}");
+    }
+    assert!(estimate["fairness_per_1000"].is_null());
+    let weigh = appraisal["costs"]["weigh_accuracy"].as_f64().unwrap();
+    let accuracy = estimate["accuracy_gain"]["mean"].as_f64().unwrap();
+    assert!(accuracy.abs() > 1e-6, "the accuracy gain is measured");
+    assert!((estimate["utility"]["mean"].as_f64().unwrap() - weigh * accuracy).abs() < 1e-12);
+    let flags: Vec<&str> = option["flags"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f.as_str().unwrap())
+        .collect();
+    let counts =
+        format!("pilot rows by group: 'none' {pilot} ({favourable} favourable), 'declared' 0");
+    assert!(
+        flags.iter().any(|f| f.contains(&counts)),
+        "{counts} in {flags:?}"
+    );
+    assert!(flags
+        .iter()
+        .any(|f| f.starts_with("unfairness not measured")));
+    // Every plan's unfairness sum is that of the items measured; work-sample's item is null.
+    let mut with_it = 0;
+    for point in report["frontier"].as_array().unwrap() {
+        let plan = &point["plan"];
+        let items = plan["items"].as_array().unwrap();
+        let measured: f64 = items
+            .iter()
+            .filter_map(|i| i["unfairness_reduction"].as_f64())
+            .sum();
+        if items.iter().any(|i| i["option"] == "work-sample") {
+            with_it += 1;
+            let item = items.iter().find(|i| i["option"] == "work-sample").unwrap();
+            assert!(item["unfairness_reduction"].is_null());
+        }
+        assert!((plan["unfairness_reduction"].as_f64().unwrap() - measured).abs() < 1e-12);
+    }
+    assert!(with_it > 0, "some budget buys the work sample");
+    // Under the adverse-impact floor it cannot be shown to keep the floor: left out, said so.
+    let floor = json_of(acquest().current_dir(dir.path()).args([
+        "plan",
+        "--quiet",
+        "--no-adverse-impact",
+        "--json",
+        "-",
+    ]));
+    for point in floor["frontier"].as_array().unwrap() {
+        assert!(point["plan"]["items"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .all(|i| i["option"] != "work-sample"));
+    }
+    assert!(floor["warnings"].as_array().unwrap().iter().any(|w| w
+        .as_str()
+        .unwrap()
+        .contains("'work-sample' is left out of every plan")));
+}

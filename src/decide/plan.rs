@@ -5,7 +5,7 @@
 use super::problem::Problem;
 use super::select::four_fifths_hold;
 use crate::error::Result;
-use crate::report::money;
+use crate::report::{measured_sum, money};
 use crate::report::{
     AppraisalReport, Candidate, Change, FrontierPoint, JointScore, OptionKind, Plan, PlanItem,
     PlanRules, PlanSummary, Purchase,
@@ -86,14 +86,14 @@ fn plan_on(
             .total_cmp(&a.score)
             .then(a.total_cost.total_cmp(&b.total_cost))
     });
-    pool.dedup_by(|a, b| a.items == b.items);
+    pool.dedup_by(|a, b| a.buys_the_same(b));
     pool.retain(|p| !p.items.is_empty());
     pool.truncate(RESCORED_PLANS);
     // The best plan without each of its features: a joint measurement can show that a
     // feature adds nothing beside the others, and the plan without it must then be on the
     // table (rows items stay, so the other items' values and costs are unchanged).
     for plan in without_each_feature(&additive_best) {
-        if !plan.items.is_empty() && !pool.iter().any(|p| p.items == plan.items) {
+        if !plan.items.is_empty() && !pool.iter().any(|p| p.buys_the_same(&plan)) {
             pool.push(plan);
         }
     }
@@ -175,6 +175,28 @@ fn plan_on(
             super::select::NODE_LIMIT
         ));
     }
+    if rules.no_adverse_impact {
+        for option in &report.options {
+            let unmeasured: Vec<&str> = option
+                .estimate
+                .groups
+                .iter()
+                .filter(|g| !g.selection_rate.is_measured())
+                .map(|g| g.group.as_str())
+                .collect();
+            if !unmeasured.is_empty() {
+                warnings.push(format!(
+                    "option '{}' is left out of every plan under --no-adverse-impact: its effect on the selection rate of {} was not measured, so it cannot be shown to keep the floor",
+                    option.name,
+                    unmeasured
+                        .iter()
+                        .map(|g| format!("'{g}'"))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ));
+            }
+        }
+    }
     for c in &candidates {
         if let Some(note) = &c.note {
             let warning = format!("a candidate plan was not re-scored jointly: {note}");
@@ -221,7 +243,7 @@ fn without_each_feature(plan: &Plan) -> Vec<Plan> {
             Plan {
                 total_cost: items.iter().map(|i| i.cost).sum(),
                 accuracy_gain: items.iter().map(|i| i.accuracy_gain).sum(),
-                unfairness_reduction: items.iter().map(|i| i.unfairness_reduction).sum(),
+                unfairness_reduction: measured_sum(items.iter().map(|i| i.unfairness_reduction)),
                 score: items.iter().map(|i| i.utility).sum(),
                 items,
             }
@@ -270,7 +292,7 @@ fn summarise(
         .collect();
     let joint = candidates
         .iter()
-        .find(|c| c.plan.items == plan.items)
+        .find(|c| c.plan.buys_the_same(plan))
         .and_then(|c| c.joint.as_ref());
     let (accuracy_gain, unfairness_reduction, utility, source) = match (joint, &plan.items[..]) {
         (Some(j), _) => (
@@ -320,10 +342,19 @@ fn summarise(
 /// that an interval holding zero never comes with a chance beyond the confidence's tail.
 fn summed(changes: &[&Change], confidence: f64) -> Change {
     use statrs::distribution::{ContinuousCDF, Normal};
+    // What was not measured is left out of the sum (the plan's flags name it).
+    let changes: Vec<&Change> = changes
+        .iter()
+        .copied()
+        .filter(|c| c.is_measured())
+        .collect();
+    if changes.is_empty() {
+        return Change::not_measured();
+    }
     let mean: f64 = changes.iter().map(|c| c.mean).sum();
     let side = |f: fn(&Change) -> Option<f64>| -> Option<f64> {
         let mut total = 0.0;
-        for c in changes {
+        for c in &changes {
             total += (f(c)? - c.mean).powi(2);
         }
         Some(total.sqrt())

@@ -7,7 +7,7 @@ use super::select::{self, Floors, Value};
 use crate::data::costs::{Acquisition, CostOption};
 use crate::error::{Error, Result};
 use crate::report::{
-    AppraisalReport, OptionKind, OptionValue, Plan, PlanItem, PlanRules, Purchase,
+    measured_sum, AppraisalReport, OptionKind, OptionValue, Plan, PlanItem, PlanRules, Purchase,
 };
 
 impl Plan {
@@ -338,16 +338,28 @@ impl Problem {
                 value.score += v.score;
             }
             if cost <= rules.budget + 1e-9 {
-                let items: Vec<(f64, Value)> = self
-                    .features
+                // Under the adverse-impact floor, a feature whose effect on a group's
+                // selection rate was not measured cannot be shown to keep it: left out.
+                let eligible: Vec<usize> = (0..self.features.len())
+                    .filter(|&i| {
+                        !rules.no_adverse_impact
+                            || self.features[i]
+                                .selection_at(any_rows)
+                                .iter()
+                                .all(|c| c.is_finite())
+                    })
+                    .collect();
+                let items: Vec<(f64, Value)> = eligible
                     .iter()
-                    .map(|f| (f.cost(self.rows_held, new_rows), f.value(any_rows)))
+                    .map(|&i| {
+                        let f = &self.features[i];
+                        (f.cost(self.rows_held, new_rows), f.value(any_rows))
+                    })
                     .collect();
                 let capacity = rules.budget - cost;
-                let feature_selection: Vec<Vec<f64>> = self
-                    .features
+                let feature_selection: Vec<Vec<f64>> = eligible
                     .iter()
-                    .map(|f| f.selection_at(any_rows))
+                    .map(|&i| self.features[i].selection_at(any_rows))
                     .collect();
                 let floors = Floors {
                     keep_accuracy: rules.keep_accuracy,
@@ -379,6 +391,7 @@ impl Problem {
                     select::best_subset_pareto(&items, capacity)
                 };
                 if let Some((subset_cost, subset_score, subset)) = chosen {
+                    let subset: Vec<usize> = subset.into_iter().map(|i| eligible[i]).collect();
                     let score = value.score + subset_score;
                     let total = cost + subset_cost;
                     let better = match &best {
@@ -450,7 +463,7 @@ impl Problem {
         Plan {
             total_cost: items.iter().map(|i| i.cost).sum::<f64>() + 0.0,
             accuracy_gain: items.iter().map(|i| i.accuracy_gain).sum::<f64>() + 0.0,
-            unfairness_reduction: items.iter().map(|i| i.unfairness_reduction).sum::<f64>() + 0.0,
+            unfairness_reduction: measured_sum(items.iter().map(|i| i.unfairness_reduction)),
             score: items.iter().map(|i| i.utility).sum::<f64>() + 0.0,
             items,
         }

@@ -146,6 +146,14 @@ pub(super) fn feature_value(
             "pilot unlike the rest (its group and label mix differs, chi-square p < 0.05)".into(),
         );
     }
+    if !estimate.unfairness_reduction.is_measured() {
+        let groups = pilot_groups(data, &pilot);
+        warnings.push(format!(
+            "option '{}': its effect on unfairness is not measured, since a group's rates cannot be read on its pilot (the pilot's rows by group: {groups}); its utility weighs the accuracy gain alone. A pilot that holds every group, with both labels, measures it",
+            option.name
+        ));
+        flags.push(format!("pilot rows by group: {groups}"));
+    }
     flags.extend(option_flags(option, &estimate, trials.confidence));
     flags.extend(evidence_flag(&pilot_summary, &estimate, trials.confidence));
     let value = OptionValue {
@@ -198,6 +206,32 @@ impl PilotMeasurement {
             &reading_from_outcomes(data, without, seed),
         )
     }
+}
+
+/// The pilot's rows by group, with their favourable labels: "'none' 509 (212 favourable),
+/// 'declared' 0".
+fn pilot_groups(data: &Dataset, pilot: &[usize]) -> String {
+    let groups = data.group_list.len();
+    let (mut rows, mut favourable) = (vec![0usize; groups], vec![0usize; groups]);
+    for &i in pilot {
+        let g = data.groups[i] as usize;
+        rows[g] += 1;
+        favourable[g] += usize::from(data.labels[i]);
+    }
+    data.group_list
+        .iter()
+        .enumerate()
+        .map(|(g, group)| match rows[g] {
+            0 => format!("'{}' 0", group.name),
+            n => format!(
+                "'{}' {} ({} favourable)",
+                group.name,
+                thousands(n),
+                thousands(favourable[g])
+            ),
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// Measures `with_columns` against today's features on the `pilot` rows (stream `stream`).

@@ -72,23 +72,27 @@ impl Scorer<'_> {
                 .collect()
         };
         let accuracy = |n: &Quantities, a: &Quantities| Some(a.accuracy - n.accuracy);
-        let fairness =
-            |n: &Quantities, a: &Quantities| Some(self.unfairness(n)?.0 - self.unfairness(a)?.0);
-        let utility = |n: &Quantities, a: &Quantities| {
-            Some(self.weigh_accuracy * accuracy(n, a)? + self.weigh_fairness * fairness(n, a)?)
+        let fairness = |n: &Quantities, a: &Quantities| {
+            Some(self.unfairness(n)?.0 - self.unfairness(a)?.0).filter(|x| x.is_finite())
         };
-        let accuracy_gain = self.change(
-            accuracy(&now.point, &after.point).unwrap_or(f64::NAN),
-            per_draw(&accuracy),
-        );
-        let unfairness_reduction = self.change(
-            fairness(&now.point, &after.point).unwrap_or(f64::NAN),
-            per_draw(&fairness),
-        );
-        let utility_change = self.change(
-            utility(&now.point, &after.point).unwrap_or(f64::NAN),
-            per_draw(&utility),
-        );
+        // Where the fitted unfairness after the purchase cannot be measured (a group with no
+        // test rows, or none of a label the measure needs), the reduction is "not measured" and
+        // the utility weighs the accuracy gain alone.
+        let fairness_point = fairness(&now.point, &after.point);
+        let utility = |n: &Quantities, a: &Quantities| {
+            let fair = match fairness_point {
+                Some(_) => self.weigh_fairness * fairness(n, a)?,
+                None => 0.0,
+            };
+            Some(self.weigh_accuracy * accuracy(n, a)? + fair)
+        };
+        let measured = |point: Option<f64>, f: GainOf| match point {
+            Some(point) => self.change(point, per_draw(f)),
+            None => Change::not_measured(),
+        };
+        let accuracy_gain = measured(accuracy(&now.point, &after.point), &accuracy);
+        let unfairness_reduction = measured(fairness_point, &fairness);
+        let utility_change = measured(utility(&now.point, &after.point), &utility);
         let per_1000 = |x: f64| if cost > 0.0 { x / cost * 1000.0 } else { 0.0 };
         let groups = self
             .data
@@ -97,10 +101,10 @@ impl Scorer<'_> {
             .enumerate()
             .map(|(g, group)| {
                 let rate = |k: fn(&Rates) -> f64| {
-                    let draws = per_draw(&|n: &Quantities, a: &Quantities| {
-                        Some(k(&a.groups[g]) - k(&n.groups[g]))
-                    });
-                    self.change(k(&after.point.groups[g]) - k(&now.point.groups[g]), draws)
+                    let point = k(&after.point.groups[g]) - k(&now.point.groups[g]);
+                    let change =
+                        |n: &Quantities, a: &Quantities| Some(k(&a.groups[g]) - k(&n.groups[g]));
+                    measured(Some(point).filter(|p| p.is_finite()), &change)
                 };
                 GroupChange {
                     group: group.name.clone(),
@@ -171,6 +175,9 @@ pub(super) fn option_flags(
     let significant = |c: &Change| c.differs_from_zero(confidence);
     if !significant(&headline.accuracy_gain) && !significant(&headline.unfairness_reduction) {
         flags.push("neither gain differs significantly from zero".into());
+    }
+    if !headline.unfairness_reduction.is_measured() {
+        flags.push("unfairness not measured: its utility weighs the accuracy gain alone, and plans leave it out of their unfairness sums".into());
     }
     let flat = |c: &Change| matches!((c.low, c.high), (Some(l), Some(h)) if (h - l).abs() < 1e-12);
     if flat(&headline.accuracy_gain) && flat(&headline.unfairness_reduction) {

@@ -6,7 +6,10 @@ use std::fmt::Write as _;
 
 use super::document::{escape, prose, STYLE};
 use super::svg::{curve_chart, format_tick, tick_step, CurveSet};
-use super::{candidate_rows, change_cell, money, thousands, today_source, whole_plan};
+use super::{
+    candidate_rows, change_cell, money, plan_unfairness, signed, thousands, today_source,
+    whole_plan,
+};
 use crate::report::{AppraisalReport, Change, PlanReport};
 
 /// The options' gains side by side as dot-and-whisker charts, ranked as in the report.
@@ -71,6 +74,7 @@ fn options_chart(title: &str, rows: &[(String, Change)]) -> String {
                 0.0,
             ]
         })
+        .filter(|v| v.is_finite())
         .collect();
     let (low, high) = padded_range(&values);
     let x = |v: f64| left + (v - low) / (high - low) * (width - left - right);
@@ -107,11 +111,20 @@ fn options_chart(title: &str, rows: &[(String, Change)]) -> String {
                 x(h)
             );
         }
-        let _ = writeln!(
-            out,
-            r##"<circle cx="{:.1}" cy="{y:.1}" r="4" fill="#1f5fa8"/>"##,
-            x(c.mean)
-        );
+        if c.is_measured() {
+            let _ = writeln!(
+                out,
+                r##"<circle cx="{:.1}" cy="{y:.1}" r="4" fill="#1f5fa8"/>"##,
+                x(c.mean)
+            );
+        } else {
+            let _ = writeln!(
+                out,
+                r#"<text x="{:.1}" y="{:.1}" class="tick">not measured</text>"#,
+                left + 4.0,
+                y + 4.0
+            );
+        }
     }
     let _ = writeln!(
         out,
@@ -157,7 +170,11 @@ fn frontier_chart(report: &PlanReport) -> String {
         )))
         .collect();
     let max_cost = points.iter().map(|p| p.0).fold(1.0, f64::max);
-    let ys: Vec<f64> = points.iter().flat_map(|p| [p.1, p.2, 0.0]).collect();
+    let ys: Vec<f64> = points
+        .iter()
+        .flat_map(|p| [p.1, p.2, 0.0])
+        .filter(|v| v.is_finite())
+        .collect();
     let (low, high) = padded_range(&ys);
     let px = |c: f64| left + c / max_cost * (width - left - right);
     let py = |v: f64| top + (high - v) / (high - low) * (height - top - bottom);
@@ -237,9 +254,12 @@ fn frontier_chart(report: &PlanReport) -> String {
     .iter()
     .enumerate()
     {
+        // A plan whose unfairness reduction was not measured has no point on that line.
+        let value =
+            |p: &(f64, f64, f64)| Some(if k == 0 { p.1 } else { p.2 }).filter(|v| v.is_finite());
         let path: Vec<String> = frontier
             .iter()
-            .map(|p| format!("{:.1},{:.1}", px(p.0), py(if k == 0 { p.1 } else { p.2 })))
+            .filter_map(|p| Some(format!("{:.1},{:.1}", px(p.0), py(value(p)?))))
             .collect();
         let _ = writeln!(
             out,
@@ -247,12 +267,14 @@ fn frontier_chart(report: &PlanReport) -> String {
             path.join(" ")
         );
         for p in &frontier {
-            let _ = writeln!(
-                out,
-                r#"<circle cx="{:.1}" cy="{:.1}" r="3" fill="{colour}"/>"#,
-                px(p.0),
-                py(if k == 0 { p.1 } else { p.2 })
-            );
+            if let Some(v) = value(p) {
+                let _ = writeln!(
+                    out,
+                    r#"<circle cx="{:.1}" cy="{:.1}" r="3" fill="{colour}"/>"#,
+                    px(p.0),
+                    py(v)
+                );
+            }
         }
         let _ = writeln!(
             out,
@@ -266,7 +288,10 @@ fn frontier_chart(report: &PlanReport) -> String {
         );
     }
     let chosen = &report.plan;
-    for value in [chosen.accuracy_gain, chosen.unfairness_reduction] {
+    for value in [chosen.accuracy_gain, chosen.unfairness_reduction]
+        .into_iter()
+        .filter(|v| v.is_finite())
+    {
         let _ = writeln!(
             out,
             r##"<circle cx="{:.1}" cy="{:.1}" r="8" fill="none" stroke="#222" stroke-width="2" class="chosen"/>"##,
@@ -278,7 +303,7 @@ fn frontier_chart(report: &PlanReport) -> String {
         out,
         r#"<text x="{:.1}" y="{:.1}" class="label">chosen plan ({})</text>"#,
         px(chosen.total_cost) + 10.0,
-        py(chosen.accuracy_gain.max(chosen.unfairness_reduction)) - 10.0,
+        py(chosen.accuracy_gain.max(chosen.unfairness_reduction)) - 10.0, // max ignores NaN
         money(chosen.total_cost)
     );
     let _ = writeln!(
@@ -344,7 +369,7 @@ pub fn plan_html(report: &PlanReport) -> String {
             for i in &report.plan.items {
                 let _ = writeln!(
                     out,
-                    "<tr><td>{}</td><td>{}</td><td>{}</td><td>{:+.4}</td><td>{:+.4}</td></tr>",
+                    "<tr><td>{}</td><td>{}</td><td>{}</td><td>{:+.4}</td><td>{}</td></tr>",
                     escape(&i.option),
                     if i.kind == crate::report::OptionKind::Feature {
                         "all rows held".to_string()
@@ -353,16 +378,16 @@ pub fn plan_html(report: &PlanReport) -> String {
                     },
                     money(i.cost),
                     i.accuracy_gain,
-                    i.unfairness_reduction
+                    signed(i.unfairness_reduction)
                 );
             }
             let p = &report.plan;
             let _ = writeln!(
                 out,
-                "<tr><th>total</th><th></th><th>{}</th><th>{:+.4}</th><th>{:+.4}</th></tr></table>",
+                "<tr><th>total</th><th></th><th>{}</th><th>{:+.4}</th><th>{}</th></tr></table>",
                 money(p.total_cost),
                 p.accuracy_gain,
-                p.unfairness_reduction
+                escape(&plan_unfairness(p))
             );
             if let Some(whole) = whole {
                 let _ = writeln!(out, "<p id=\"whole\">{}</p>", escape(&whole.sentence));

@@ -53,11 +53,11 @@ pub fn plan_markdown(report: &PlanReport) -> String {
             let p = &report.plan;
             let _ = writeln!(
                 out,
-                "\nTotal cost {} {currency}; expected accuracy gain {:+.4} and reduction in unfairness ({} of the worst group) {:+.4}, as the sum of the options' estimates.\n",
+                "\nTotal cost {} {currency}; expected accuracy gain {:+.4} and reduction in unfairness ({} of the worst group) {}, as the sum of the options' estimates.\n",
                 money(p.total_cost),
                 p.accuracy_gain,
                 a.costs.fairness.to_uppercase(),
-                p.unfairness_reduction
+                plan_unfairness(p)
             );
             if let Some(whole) = whole {
                 let _ = writeln!(out, "{}\n", whole.sentence);
@@ -126,12 +126,12 @@ pub fn plan_markdown(report: &PlanReport) -> String {
         last = buys.clone();
         let _ = writeln!(
             out,
-            "| {} | {} | {} | {:+.4} | {:+.4} |",
+            "| {} | {} | {} | {:+.4} | {} |",
             money(point.budget),
             money(point.plan.total_cost),
             buys,
             point.plan.accuracy_gain,
-            point.plan.unfairness_reduction
+            plan_unfairness(&point.plan)
         );
     }
     let _ = writeln!(out, "\n## How the figures were made\n");

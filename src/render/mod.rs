@@ -127,8 +127,41 @@ fn change_cell(c: &Change, confidence: f64) -> String {
     signed_cell(c.mean, c.low, c.high, c.differs_from_zero(confidence))
 }
 
-/// "+0.0123 [+0.0050, +0.0190] *": a signed value, its interval, a star when significant.
+/// "+0.0123": a signed value to four places, or "not measured".
+fn signed(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x:+.4}")
+    } else {
+        "not measured".into()
+    }
+}
+
+/// A plan's summed unfairness reduction, naming the items left out of the sum because their
+/// reduction was not measured: "+0.0692 (leaves out work-sample: not measured)".
+fn plan_unfairness(plan: &crate::report::Plan) -> String {
+    let left_out: Vec<&str> = plan
+        .items
+        .iter()
+        .filter(|i| !i.unfairness_reduction.is_finite())
+        .map(|i| i.option.as_str())
+        .collect();
+    if left_out.is_empty() || !plan.unfairness_reduction.is_finite() {
+        signed(plan.unfairness_reduction)
+    } else {
+        format!(
+            "{} (leaves out {}: not measured)",
+            signed(plan.unfairness_reduction),
+            left_out.join(", ")
+        )
+    }
+}
+
+/// "+0.0123 [+0.0050, +0.0190] *": a signed value, its interval, a star when significant;
+/// "not measured" for a value that is not a number.
 fn signed_cell(mean: f64, low: Option<f64>, high: Option<f64>, significant: bool) -> String {
+    if !mean.is_finite() {
+        return "not measured".into();
+    }
     let star = if significant { " *" } else { "" };
     match (low, high) {
         (Some(l), Some(h)) => format!("{mean:+.4} [{l:+.4}, {h:+.4}]{star}"),
@@ -150,10 +183,10 @@ fn plan_lines(report: &PlanReport) -> Vec<String> {
                 }
             };
             format!(
-                "{what}: {} {currency}, accuracy {:+.4}, unfairness reduction {:+.4}",
+                "{what}: {} {currency}, accuracy {:+.4}, unfairness reduction {}",
                 money(i.cost),
                 i.accuracy_gain,
-                i.unfairness_reduction
+                signed(i.unfairness_reduction)
             )
         })
         .collect()

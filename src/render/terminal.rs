@@ -448,11 +448,19 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
                 ", group and label mix against the rest: chi-square p = {v:.3}"
             ))
         ));
+        let difference = |e: Option<&crate::report::Estimate>, fairer: &str| match e {
+            Some(e) => format!(
+                "{} (p {}{fairer})",
+                signed_estimate(e, confidence),
+                p_value(e.p_value)
+            ),
+            None => "not measured".into(),
+        };
         d.note(format!(
-"on the pilot at its size, with minus without, paired: accuracy {} (p {}), unfairness {} (p {}; negative is fairer)", p.accuracy_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
-            p_value(p.accuracy_difference.as_ref().and_then(|e| e.p_value)),
-            p.unfairness_difference.as_ref().map_or("n/a".into(), |e| signed_estimate(e, confidence)),
-            p_value(p.unfairness_difference.as_ref().and_then(|e| e.p_value))));
+            "on the pilot at its size, with minus without, paired: accuracy {}, unfairness {}",
+            difference(p.accuracy_difference.as_ref(), ""),
+            difference(p.unfairness_difference.as_ref(), "; negative is fairer")
+        ));
         if let Some(direct) = &o.direct {
             d.note(format!(
 "at full size, anchored on today's curve: accuracy {}, unfairness reduction {}\n  the pilot curve extrapolated directly, for comparison: accuracy {}, unfairness reduction {}", change_cell(&o.estimate.accuracy_gain, confidence),
@@ -580,10 +588,10 @@ pub fn plan_text(report: &PlanReport) -> String {
             let p = &report.plan;
             let _ = writeln!(
                 out,
-                "  total {} {currency}: accuracy {:+.4}, unfairness reduction {:+.4} (the sum of the options' estimates)",
+                "  total {} {currency}: accuracy {:+.4}, unfairness reduction {} (the sum of the options' estimates)",
                 money(p.total_cost),
                 p.accuracy_gain,
-                p.unfairness_reduction
+                plan_unfairness(p)
             );
             if let Some(whole) = whole {
                 let _ = writeln!(out, "  {}", whole.figures);
@@ -651,7 +659,7 @@ pub fn plan_text(report: &PlanReport) -> String {
             money(point.plan.total_cost),
             buys,
             format!("{:+.4}", point.plan.accuracy_gain),
-            format!("{:+.4}", point.plan.unfairness_reduction),
+            plan_unfairness(&point.plan),
         ]);
     }
     t.render(&mut out);

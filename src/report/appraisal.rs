@@ -131,7 +131,9 @@ pub struct Today {
 /// two-sided p-value against no change.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Change {
-    /// The estimated change.
+    /// The estimated change; `null` where it could not be measured (then every other figure is
+    /// absent too, see [`Change::not_measured`]).
+    #[serde(deserialize_with = "super::nullable::number")]
     pub mean: f64,
     /// Lower end of its interval.
     pub low: Option<f64>,
@@ -150,6 +152,24 @@ pub struct Change {
 }
 
 impl Change {
+    /// A change that could not be measured (a pilot that holds no test rows of a group, say):
+    /// no value, no interval, no test.
+    pub fn not_measured() -> Change {
+        Change {
+            mean: f64::NAN,
+            low: None,
+            high: None,
+            p_value: None,
+            chance_positive: None,
+            widened_to_point: false,
+        }
+    }
+
+    /// Whether the change was measured (its value is a number).
+    pub fn is_measured(&self) -> bool {
+        self.mean.is_finite()
+    }
+
     /// Whether the change differs significantly from zero at `confidence`: its interval (the
     /// one the reports show) lies on one side of zero; without an interval, its p-value is
     /// below 1 − confidence. The bootstrap p counts draws on each side while the interval
@@ -187,13 +207,16 @@ pub struct Purchase {
     pub training_rows: f64,
     /// Accuracy after minus before.
     pub accuracy_gain: Change,
-    /// Fall in unfairness on the primary measure (positive is fairer).
+    /// Fall in unfairness on the primary measure (positive is fairer); not measured (`mean`
+    /// null) where a group's rate could not be measured, see the option's flags.
     pub unfairness_reduction: Change,
-    /// weigh_accuracy × accuracy gain + weigh_fairness × unfairness reduction.
+    /// weigh_accuracy × accuracy gain + weigh_fairness × unfairness reduction; where the
+    /// unfairness reduction is not measured, weigh_accuracy × accuracy gain alone.
     pub utility: Change,
     /// Gains per 1,000 of currency.
     pub accuracy_per_1000: f64,
-    /// Unfairness reduction per 1,000 of currency.
+    /// Unfairness reduction per 1,000 of currency (null where not measured).
+    #[serde(deserialize_with = "super::nullable::number")]
     pub fairness_per_1000: f64,
     /// Utility per 1,000 of currency.
     pub utility_per_1000: f64,

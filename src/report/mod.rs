@@ -19,7 +19,7 @@ pub use plan::*;
 /// Name of the report format, written into every report.
 pub const FORMAT: &str = "acquest-report";
 /// Version of the report format; raised when a field changes meaning or goes away.
-pub const FORMAT_VERSION: u32 = 3;
+pub const FORMAT_VERSION: u32 = 4;
 
 /// A count with thousands separators ("32,561"), as every text of a report writes counts.
 pub fn thousands(n: usize) -> String {
@@ -47,6 +47,36 @@ pub fn money(x: f64) -> String {
     let whole = format!("{:.0}", x.abs());
     let sign = if x.round() < 0.0 { "-" } else { "" };
     format!("{sign}{}", grouped(&whole))
+}
+
+/// A figure that may be "not measured": held as NaN in memory, written as `null` in JSON
+/// (serde_json writes every non-finite number as `null`) and read back from `null` as NaN, so
+/// that a reader of the file meets an absent value, never a zero.
+pub mod nullable {
+    use serde::{Deserialize, Deserializer};
+
+    /// Reads a number, or `null` as NaN.
+    pub fn number<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
+        Ok(Option::<f64>::deserialize(d)?.unwrap_or(f64::NAN))
+    }
+}
+
+/// The sum of the measured (finite) values; NaN ("not measured") when there are values and
+/// none of them is measured; 0 for none at all. `+ 0.0` turns an empty sum's −0.0 into 0.0.
+pub fn measured_sum(values: impl IntoIterator<Item = f64>) -> f64 {
+    let (mut sum, mut any, mut measured) = (0.0, false, false);
+    for v in values {
+        any = true;
+        if v.is_finite() {
+            sum += v;
+            measured = true;
+        }
+    }
+    if any && !measured {
+        f64::NAN
+    } else {
+        sum + 0.0
+    }
 }
 
 /// The cautions every report carries.

@@ -69,7 +69,8 @@ pub struct PlanItem {
     pub cost: f64,
     /// Its accuracy gain.
     pub accuracy_gain: f64,
-    /// Its unfairness reduction.
+    /// Its unfairness reduction (null where not measured).
+    #[serde(deserialize_with = "super::nullable::number")]
     pub unfairness_reduction: f64,
     /// Its utility (or the lower end, when cautious).
     pub utility: f64,
@@ -84,13 +85,26 @@ pub struct Plan {
     pub total_cost: f64,
     /// The summed accuracy gain.
     pub accuracy_gain: f64,
-    /// The summed unfairness reduction.
+    /// The summed unfairness reduction of the items whose reduction was measured (null when
+    /// none was).
+    #[serde(deserialize_with = "super::nullable::number")]
     pub unfairness_reduction: f64,
     /// The score maximised: summed utility, or summed lower ends with `cautious`.
     pub score: f64,
 }
 
 impl Plan {
+    /// Whether the two plans buy the same: the same options with the same rows, in the same
+    /// order (their figures may hold "not measured" values, which never compare equal).
+    pub fn buys_the_same(&self, other: &Plan) -> bool {
+        self.items.len() == other.items.len()
+            && self
+                .items
+                .iter()
+                .zip(&other.items)
+                .all(|(a, b)| a.option == b.option && a.new_rows == b.new_rows)
+    }
+
     /// Whether the plan's own estimate already takes its options together: one option, or
     /// rows of every group with at most one feature (a feature bought with rows is read at
     /// the plan's row count), so it needs no joint re-scoring.
