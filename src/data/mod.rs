@@ -880,6 +880,22 @@ impl Dataset {
                 ),
             ));
         }
+        // A group without one of the labels has no true or no false positive rate: the
+        // disparities that compare those cannot be measured for it, whatever the settings.
+        for (&(rows, favourable), group) in self.group_sizes().iter().zip(&self.group_list) {
+            if favourable == 0 || favourable == rows {
+                let (has, lacks) = if favourable == 0 {
+                    (&self.unfavourable, &self.favourable)
+                } else {
+                    (&self.favourable, &self.unfavourable)
+                };
+                return Err(Error::NotEnoughData(format!(
+                    "group '{}' has no rows with the label '{lacks}' (its {} rows are all '{has}'): its true or false positive rate, and the disparities built on it, cannot be measured; merge it with another group (--groups) or add rows of it with the other label",
+                    group.name,
+                    thousands(rows)
+                )));
+            }
+        }
         let mut warnings = Vec::new();
         let thin: Vec<String> = self
             .group_sizes()
