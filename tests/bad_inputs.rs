@@ -433,6 +433,13 @@ fn cases(demo: &Path) -> Vec<Case> {
             "line 2, field step: 100 is more than max_rows 50",
         ),
         sheet(
+            "more options than one appraisal values",
+            &(0..61)
+                .map(|i| format!("o{i},rows,,1,0,10,1,no,\n"))
+                .collect::<String>(),
+            "lists 61 options, more than the 60",
+        ),
+        sheet(
             "a step of zero",
             "a,rows,,1,0,50,0,no,\n",
             "field step: 0 is not a whole number",
@@ -591,4 +598,44 @@ fn every_bad_input_ends_with_exit_2_and_names_the_problem() {
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+#[test]
+fn a_file_too_large_for_the_memory_available_stops_before_it_is_read() {
+    // The demo (3,000 rows × 10 columns, 30,000 cells at 32 bytes: about 1 MiB) against a limit
+    // of 0 MiB set by ACQUEST_MEMORY_MIB, as CSV and as Parquet; and under a limit it fits.
+    let demo = tempfile::tempdir().unwrap();
+    acquest()
+        .args(["demo", "--quiet", "--no-run", "--parquet", "--out"])
+        .arg(demo.path())
+        .assert()
+        .success();
+    for (data, estimate) in [
+        (
+            "applications.csv",
+            "estimated from its size and first lines",
+        ),
+        ("applications.parquet", "30,000 cells, from its metadata"),
+    ] {
+        let output = acquest()
+            .current_dir(demo.path())
+            .env("ACQUEST_MEMORY_MIB", "0")
+            .args(["baseline", "--quiet", "--data", data])
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        assert_eq!(output.status.code(), Some(2), "{stderr}");
+        assert!(
+            stderr.contains(&format!("{data}: too large for the memory available"))
+                && stderr.contains(estimate)
+                && stderr.contains("random sample of its rows"),
+            "{stderr}"
+        );
+        acquest()
+            .current_dir(demo.path())
+            .env("ACQUEST_MEMORY_MIB", "64")
+            .args(["baseline", "--quiet", "--repeats", "2", "--data", data])
+            .assert()
+            .success();
+    }
 }

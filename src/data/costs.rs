@@ -96,6 +96,11 @@ pub fn read_cost_sheet(path: &Path) -> Result<(Vec<(usize, RawOption)>, String)>
     Ok((parse_cost_sheet(&text, path)?, sha256))
 }
 
+/// Most options one cost sheet may list: every option is valued with its own trials, the planner
+/// searches their combinations, and a plan's joint re-scoring names its options in one 60-bit
+/// stream key.
+pub const MAX_OPTIONS: usize = 60;
+
 /// A cost sheet's text read as its options, with `path` named in errors.
 pub fn parse_cost_sheet(text: &str, path: &Path) -> Result<Vec<(usize, RawOption)>> {
     let format_error = |reason: String| Error::Format {
@@ -134,6 +139,12 @@ pub fn parse_cost_sheet(text: &str, path: &Path) -> Result<Vec<(usize, RawOption
     };
     if lines.is_empty() {
         return Err(format_error("lists no options".into()));
+    }
+    if lines.len() > MAX_OPTIONS {
+        return Err(format_error(format!(
+            "lists {} options, more than the {MAX_OPTIONS} one appraisal values (each option is measured with its own trials, and plans search their combinations); split the sheet, or keep the options that are really on offer",
+            lines.len()
+        )));
     }
     lines
         .into_iter()

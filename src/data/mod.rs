@@ -2,6 +2,7 @@
 //! favourable value, groups, features) checked against what the file holds.
 
 pub mod costs;
+pub mod memory;
 
 use std::collections::{BTreeMap, HashMap};
 use std::fs::File;
@@ -223,10 +224,24 @@ fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<T
         // error (found by tests/fuzz.rs), and its panic message is kept off the terminal.
         let previous = std::panic::take_hook();
         std::panic::set_hook(Box::new(|_| {}));
-        let read = std::panic::catch_unwind(|| ParquetReader::new(file).finish());
+        let read = std::panic::catch_unwind(|| {
+            let mut reader = ParquetReader::new(file);
+            let rows = reader.num_rows()?;
+            let columns = reader.schema()?.len();
+            if let Err(e) = memory::check(
+                path,
+                (rows as u64).saturating_mul(columns as u64),
+                "from its metadata",
+            ) {
+                return Ok(Err(e));
+            }
+            reader.finish().map(Ok)
+        });
         std::panic::set_hook(previous);
         let frame = match read {
-            Ok(read) => read.map_err(|e| format_error(format!("cannot read as Parquet: {e}")))?,
+            Ok(read) => {
+                read.map_err(|e| format_error(format!("cannot read as Parquet: {e}")))??
+            }
             Err(_) => {
                 return Err(format_error(
                     "cannot read as Parquet: the file is damaged (its reader stopped on it)".into(),
@@ -412,6 +427,17 @@ fn read_csv(path: &Path, csv: &CsvSettings, head: &[u8]) -> Result<(DataFrame, O
         .into_iter()
         .map(|f| f.trim().to_string())
         .collect();
+    let file_bytes = std::fs::metadata(path).map_or(0, |m| m.len());
+    memory::check(
+        path,
+        memory::csv_cells(
+            file_bytes,
+            head.len(),
+            head.iter().filter(|&&b| b == b'\n').count(),
+            first_fields.len(),
+        ),
+        "estimated from its size and first lines",
+    )?;
     if csv.has_header {
         if let Some((i, name)) = first_fields
             .iter()

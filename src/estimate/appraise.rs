@@ -69,7 +69,7 @@ impl Appraiser {
             let Some(index) = self.options.iter().position(|o| &o.name == name) else {
                 continue;
             };
-            mask |= 1 << (index % 60);
+            mask |= 1 << index; // at most costs::MAX_OPTIONS (60) options
             match &self.options[index].acquisition {
                 Acquisition::Rows { filter: None } => any_rows += new_rows,
                 Acquisition::Rows { filter: Some(_) } => {
