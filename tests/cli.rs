@@ -6,6 +6,7 @@ use std::path::{Path, PathBuf};
 use acquest::report::BaselineReport;
 use assert_cmd::Command;
 
+mod bad_inputs;
 mod golden;
 
 const ADULT_COLUMNS: &str = "age,workclass,fnlwgt,education,education-num,marital-status,\

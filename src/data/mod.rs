@@ -3,6 +3,7 @@
 
 pub mod costs;
 pub mod memory;
+mod parquet_pages;
 
 use std::collections::{BTreeMap, HashMap};
 use std::fs::File;
@@ -225,6 +226,11 @@ fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<T
         let previous = std::panic::take_hook();
         std::panic::set_hook(Box::new(|_| {}));
         let read = std::panic::catch_unwind(|| {
+            if let Err(reason) = parquet_pages::check(&file) {
+                return Ok(Err(format_error(format!(
+                    "cannot read as Parquet: the file is damaged ({reason})"
+                ))));
+            }
             let mut reader = ParquetReader::new(file);
             let rows = reader.num_rows()?;
             let columns = reader.schema()?.len();

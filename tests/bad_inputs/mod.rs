@@ -1,4 +1,4 @@
-//! One table of bad inputs, each run end to end through the binary: files, flags, cost sheets
+//! One table of bad inputs (a module of tests/cli.rs), each run end to end through the binary: files, flags, cost sheets
 //! (CSV and JSON), the project file and the shapes of data that cannot be assessed. Every one
 //! must end with exit code 2 and a message that names what is wrong (the column, line, field,
 //! flag or value), and never with a panic. The rules behind the expected messages are the
@@ -6,7 +6,7 @@
 
 use std::path::Path;
 
-use assert_cmd::Command;
+use super::acquest;
 
 /// `baseline` on the small table at `data` (columns x, z, g, y).
 fn small_baseline(data: &'static str) -> Vec<&'static str> {
@@ -123,12 +123,6 @@ fn demo_data_with(
         out += &(fields.join(",") + "\n");
     }
     out.into_bytes()
-}
-
-fn acquest() -> Command {
-    let mut cmd = Command::cargo_bin("acquest").unwrap();
-    cmd.env_remove("RAYON_NUM_THREADS");
-    cmd
 }
 
 fn cases(demo: &Path) -> Vec<Case> {
