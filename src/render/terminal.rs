@@ -162,12 +162,17 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
                 significance(e.as_ref(), inputs.confidence)
             )
         };
+        // The gaps are differences, signed (+ as well as -); disparate impact is a ratio.
+        let gap = |e: &Option<Estimate>| {
+            e.as_ref()
+                .map_or("n/a".into(), |e| signed_estimate(e, inputs.confidence))
+        };
         t.row(vec![
             c.group.clone(),
-            cell(&c.statistical_parity_difference),
+            gap(&c.statistical_parity_difference),
             cell(&c.disparate_impact),
-            cell(&c.equal_opportunity_difference),
-            cell(&c.average_odds_difference),
+            gap(&c.equal_opportunity_difference),
+            gap(&c.average_odds_difference),
         ]);
     }
     d.table(t);
