@@ -1380,6 +1380,26 @@ fn render_writes_every_report_kind_as_markdown_and_html() {
         md.contains(&format!("| accuracy | {accuracy:.4} [")),
         "{md}"
     );
+    // With no file asked for, render prints the terminal view: for the baseline, the very text
+    // the baseline command printed on the same data (after its first line, which names the data
+    // file as the demo gave it).
+    let printed = acquest()
+        .current_dir(dir.path())
+        .args(["baseline", "--quiet"])
+        .output()
+        .unwrap();
+    let rendered = acquest()
+        .current_dir(dir.path())
+        .args(["render", "baseline.json"])
+        .output()
+        .unwrap();
+    assert!(rendered.status.success());
+    let after_first = |bytes: &[u8]| {
+        let text = String::from_utf8_lossy(bytes).into_owned();
+        text.split_once('\n').map(|(_, rest)| rest.to_string())
+    };
+    assert_eq!(after_first(&rendered.stdout), after_first(&printed.stdout));
+    assert!(after_first(&rendered.stdout).is_some_and(|t| t.contains("Cautions")));
     // A report of no command that render knows is refused with exit 2, naming those it reads.
     let other = serde_json::json!({
         "format": "acquest-report",

@@ -119,7 +119,7 @@ pub(super) struct BacktestArgs {
 
 #[derive(Args)]
 pub(super) struct RenderArgs {
-    /// A JSON report written by any command's --json (baseline, curves, appraise, plan, backtest) or by the demo.
+    /// A JSON report written by any command's --json (baseline, curves, appraise, plan, backtest) or by the demo; with neither --markdown nor --html, its terminal view is printed.
     pub(super) report: PathBuf,
     /// Write it as Markdown to FILE ('-' for standard output).
     #[arg(long, value_name = "FILE")]

@@ -81,13 +81,8 @@ fn saved<T: serde::de::DeserializeOwned>(
 
 /// Renders a saved report of any kind as the documents asked for.
 fn run_render(args: RenderArgs) -> anyhow::Result<()> {
-    if args.markdown.is_none() && args.html.is_none() {
-        return Err(acquest::Error::setting(
-            "--markdown",
-            "name --markdown FILE or --html FILE (or both)",
-        )
-        .into());
-    }
+    // With no file asked for, the report's terminal view goes to standard output.
+    let terminal = args.markdown.is_none() && args.html.is_none();
     let to_standard = check_outputs(&[
         ("--markdown", args.markdown.as_deref()),
         ("--html", args.html.as_deref()),
@@ -112,6 +107,10 @@ fn run_render(args: RenderArgs) -> anyhow::Result<()> {
     let document = match kind.as_str() {
         "plan" => {
             let report: acquest::report::PlanReport = saved(value, path, &kind)?;
+            if terminal {
+                print!("{}", render::plan_text(&report));
+                return Ok(());
+            }
             return documents.write(&report, &output);
         }
         "baseline" => render::baseline_document(&saved(value, path, &kind)?),
@@ -128,6 +127,10 @@ fn run_render(args: RenderArgs) -> anyhow::Result<()> {
             .into())
         }
     };
+    if terminal {
+        print!("{}", document.plain());
+        return Ok(());
+    }
     documents.write_with(|| document.markdown(), || document.html(), &output)
 }
 
