@@ -2104,7 +2104,7 @@ fn a_pilot_of_one_group_leaves_its_fairness_unmeasured_and_out_of_the_sums() {
     std::fs::write(&path, out).unwrap();
     let output = acquest()
         .current_dir(dir.path())
-        .args(["plan", "--json", "plan.json"])
+        .args(["plan", "--json", "plan.json", "--html", "plan.html"])
         .output()
         .unwrap();
     assert!(
@@ -2112,6 +2112,9 @@ fn a_pilot_of_one_group_leaves_its_fairness_unmeasured_and_out_of_the_sums() {
         "{}",
         String::from_utf8_lossy(&output.stderr)
     );
+    let html = std::fs::read_to_string(dir.path().join("plan.html")).unwrap();
+    assert!(html.contains("not measured") && html.contains("Hollow points"));
+    assert!(!html.contains("NaN"));
     let terminal = String::from_utf8_lossy(&output.stdout);
     assert!(!terminal.contains("NaN"), "{terminal}");
     assert!(terminal.contains("not measured"), "{terminal}");

@@ -234,7 +234,9 @@ fn frontier_chart(report: &PlanReport) -> String {
         width - right,
         py(0.0)
     );
-    let mut frontier: Vec<(f64, f64, f64)> = report
+    // (cost, accuracy gain, unfairness reduction, whether that sum leaves out an item whose
+    // reduction was not measured).
+    let mut frontier: Vec<(f64, f64, f64, bool)> = report
         .frontier
         .iter()
         .map(|p| {
@@ -242,9 +244,14 @@ fn frontier_chart(report: &PlanReport) -> String {
                 p.plan.total_cost,
                 p.plan.accuracy_gain,
                 p.plan.unfairness_reduction,
+                p.plan
+                    .items
+                    .iter()
+                    .any(|i| !i.unfairness_reduction.is_finite()),
             )
         })
         .collect();
+    let partial = frontier.iter().any(|p| p.3);
     frontier.sort_by(|a, b| a.0.total_cmp(&b.0));
     frontier.dedup_by(|a, b| (a.0 - b.0).abs() < 1e-9);
     for (k, (colour, name)) in [
@@ -255,8 +262,9 @@ fn frontier_chart(report: &PlanReport) -> String {
     .enumerate()
     {
         // A plan whose unfairness reduction was not measured has no point on that line.
-        let value =
-            |p: &(f64, f64, f64)| Some(if k == 0 { p.1 } else { p.2 }).filter(|v| v.is_finite());
+        let value = |p: &(f64, f64, f64, bool)| {
+            Some(if k == 0 { p.1 } else { p.2 }).filter(|v| v.is_finite())
+        };
         let path: Vec<String> = frontier
             .iter()
             .filter_map(|p| Some(format!("{:.1},{:.1}", px(p.0), py(value(p)?))))
@@ -268,9 +276,11 @@ fn frontier_chart(report: &PlanReport) -> String {
         );
         for p in &frontier {
             if let Some(v) = value(p) {
+                // Hollow: an unfairness sum that leaves out an option not measured.
+                let fill = if k == 1 && p.3 { "#fff" } else { colour };
                 let _ = writeln!(
                     out,
-                    r#"<circle cx="{:.1}" cy="{:.1}" r="3" fill="{colour}"/>"#,
+                    r#"<circle cx="{:.1}" cy="{:.1}" r="3" fill="{fill}" stroke="{colour}"/>"#,
                     px(p.0),
                     py(v)
                 );
@@ -314,6 +324,11 @@ fn frontier_chart(report: &PlanReport) -> String {
         escape(&report.appraisal.costs.currency)
     );
     out.push_str("</svg>\n");
+    if partial {
+        out.push_str(
+            "<p class=\"note\">Hollow points: the plan's unfairness reduction sums only those of its options whose reduction was measured (see the options' flags).</p>\n",
+        );
+    }
     out
 }
 
