@@ -45,7 +45,7 @@ pub(super) enum Command {
     /// Write the invented demo scenario to a folder and run it.
     #[command(allow_negative_numbers = true)]
     Demo(DemoArgs),
-    /// Render a saved report (JSON) of any command as Markdown or HTML.
+    /// Render a saved report (JSON) of any command as Markdown or HTML, or print its terminal view.
     #[command(allow_negative_numbers = true)]
     Render(RenderArgs),
 }
