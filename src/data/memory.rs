@@ -61,10 +61,11 @@ pub fn check(path: &Path, cells: u64, estimate: &str) -> Result<()> {
     Err(Error::Format {
         path: path.to_path_buf(),
         reason: format!(
-            "too large for the memory available: reading it needs about {} ({} cells, {estimate}, at about {BYTES_PER_CELL} bytes each) and {} is available. Take a random sample of its rows into a smaller file: each trial trains on at most --max-train-rows rows (40,000 by default), so a sample of a few hundred thousand rows loses little; or keep only the columns you need in the file; or run where more memory is free ({LIMIT_VARIABLE} sets the limit in MiB when the machine's own cannot be seen)",
+            "too large for the memory available: reading it needs about {} ({} cells, {estimate}, at about {BYTES_PER_CELL} bytes each) and {} is available. Take a random sample of its rows into a smaller file: each trial trains on at most --max-train-rows rows ({} by default), so a sample of a few hundred thousand rows loses little; or keep only the columns you need in the file; or run where more memory is free ({LIMIT_VARIABLE} sets the limit in MiB when the machine's own cannot be seen)",
             gib(needed),
             thousands(usize::try_from(cells).unwrap_or(usize::MAX)),
-            gib(available)
+            gib(available),
+            thousands(crate::settings::DEFAULT_MAX_TRAIN_ROWS)
         ),
     })
 }

@@ -225,6 +225,8 @@ fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<T
         // error (found by tests/fuzz.rs), and its panic message is kept off the terminal.
         let previous = std::panic::take_hook();
         std::panic::set_hook(Box::new(|_| {}));
+        // The page headers are checked first, so that a damaged file reads as damaged rather
+        // than as too large for memory on the counts its damage gives.
         let read = std::panic::catch_unwind(|| {
             if let Err(reason) = parquet_pages::check(&file) {
                 return Ok(Err(format_error(format!(
@@ -256,7 +258,7 @@ fn read_file(path: &Path, csv: &CsvSettings, categorical: &[String]) -> Result<T
         };
         (frame, None, 0)
     } else {
-        read_csv(path, csv, &head)?
+        read_csv(path, csv, &head, metadata.len())?
     };
     let rows = frame.height();
     if rows == 0 {
@@ -409,7 +411,12 @@ fn sniff_delimiter(lines: &[&str]) -> Option<u8> {
     })
 }
 
-fn read_csv(path: &Path, csv: &CsvSettings, head: &[u8]) -> Result<(DataFrame, Option<u8>, usize)> {
+fn read_csv(
+    path: &Path,
+    csv: &CsvSettings,
+    head: &[u8],
+    file_bytes: u64,
+) -> Result<(DataFrame, Option<u8>, usize)> {
     let format_error = |reason: String| Error::Format {
         path: path.to_path_buf(),
         reason,
@@ -433,7 +440,6 @@ fn read_csv(path: &Path, csv: &CsvSettings, head: &[u8]) -> Result<(DataFrame, O
         .into_iter()
         .map(|f| f.trim().to_string())
         .collect();
-    let file_bytes = std::fs::metadata(path).map_or(0, |m| m.len());
     memory::check(
         path,
         memory::csv_cells(
@@ -914,7 +920,8 @@ impl Dataset {
         }
         // A group without one of the labels has no true or no false positive rate: the
         // disparities that compare those cannot be measured for it, whatever the settings.
-        for (&(rows, favourable), group) in self.group_sizes().iter().zip(&self.group_list) {
+        let sizes = self.group_sizes();
+        for (&(rows, favourable), group) in sizes.iter().zip(&self.group_list) {
             if favourable == 0 || favourable == rows {
                 let (has, lacks) = if favourable == 0 {
                     (&self.unfavourable, &self.favourable)
@@ -929,8 +936,7 @@ impl Dataset {
             }
         }
         let mut warnings = Vec::new();
-        let thin: Vec<String> = self
-            .group_sizes()
+        let thin: Vec<String> = sizes
             .iter()
             .zip(&self.group_list)
             .filter_map(|(&(rows, fav), group)| {

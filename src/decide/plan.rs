@@ -2,10 +2,10 @@
 //! best plans as the budget grows, and the best few plans re-scored with their options taken
 //! together.
 
-use super::problem::Problem;
+use super::problem::{measured_sum, Problem};
 use super::select::four_fifths_hold;
 use crate::error::Result;
-use crate::report::{measured_sum, money};
+use crate::report::money;
 use crate::report::{
     AppraisalReport, Candidate, Change, FrontierPoint, JointScore, OptionKind, Plan, PlanItem,
     PlanRules, PlanSummary, Purchase,

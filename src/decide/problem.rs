@@ -7,7 +7,7 @@ use super::select::{self, Floors, Value};
 use crate::data::costs::{Acquisition, CostOption};
 use crate::error::{Error, Result};
 use crate::report::{
-    measured_sum, AppraisalReport, OptionKind, OptionValue, Plan, PlanItem, PlanRules, Purchase,
+    AppraisalReport, OptionKind, OptionValue, Plan, PlanItem, PlanRules, Purchase,
 };
 
 impl Plan {
@@ -19,6 +19,24 @@ impl Plan {
             unfairness_reduction: 0.0,
             score: 0.0,
         }
+    }
+}
+
+/// The sum of the measured (finite) values; NaN ("not measured") when there are values and
+/// none of them is measured; 0 for none at all. `+ 0.0` turns an empty sum's −0.0 into 0.0.
+pub(super) fn measured_sum(values: impl IntoIterator<Item = f64>) -> f64 {
+    let (mut sum, mut any, mut measured) = (0.0, false, false);
+    for v in values {
+        any = true;
+        if v.is_finite() {
+            sum += v;
+            measured = true;
+        }
+    }
+    if any && !measured {
+        f64::NAN
+    } else {
+        sum + 0.0
     }
 }
 
@@ -310,6 +328,18 @@ impl Problem {
     }
 
     fn search(&self, rules: &PlanRules, brute_force: bool) -> Plan {
+        // Under the adverse-impact floor, a feature whose effect on a group's selection rate
+        // was not measured cannot be shown to keep it: left out of every plan.
+        let eligible: Vec<usize> = (0..self.features.len())
+            .filter(|&i| {
+                !rules.no_adverse_impact
+                    || self.features[i]
+                        .selection
+                        .iter()
+                        .flatten()
+                        .all(|c| c.is_finite())
+            })
+            .collect();
         let mut best: Option<(f64, f64, Vec<usize>, Vec<usize>)> = None; // score, cost, row picks, features
         let mut picks = vec![0usize; self.rows.len()];
         loop {
@@ -338,17 +368,6 @@ impl Problem {
                 value.score += v.score;
             }
             if cost <= rules.budget + 1e-9 {
-                // Under the adverse-impact floor, a feature whose effect on a group's
-                // selection rate was not measured cannot be shown to keep it: left out.
-                let eligible: Vec<usize> = (0..self.features.len())
-                    .filter(|&i| {
-                        !rules.no_adverse_impact
-                            || self.features[i]
-                                .selection_at(any_rows)
-                                .iter()
-                                .all(|c| c.is_finite())
-                    })
-                    .collect();
                 let items: Vec<(f64, Value)> = eligible
                     .iter()
                     .map(|&i| {

@@ -244,10 +244,7 @@ fn frontier_chart(report: &PlanReport) -> String {
                 p.plan.total_cost,
                 p.plan.accuracy_gain,
                 p.plan.unfairness_reduction,
-                p.plan
-                    .items
-                    .iter()
-                    .any(|i| !i.unfairness_reduction.is_finite()),
+                !p.plan.unmeasured_items().is_empty(),
             )
         })
         .collect();

@@ -139,12 +139,7 @@ fn signed(x: f64) -> String {
 /// A plan's summed unfairness reduction, naming the items left out of the sum because their
 /// reduction was not measured: "+0.0692 (leaves out work-sample: not measured)".
 fn plan_unfairness(plan: &crate::report::Plan) -> String {
-    let left_out: Vec<&str> = plan
-        .items
-        .iter()
-        .filter(|i| !i.unfairness_reduction.is_finite())
-        .map(|i| i.option.as_str())
-        .collect();
+    let left_out = plan.unmeasured_items();
     if left_out.is_empty() || !plan.unfairness_reduction.is_finite() {
         signed(plan.unfairness_reduction)
     } else {

@@ -61,24 +61,6 @@ pub mod nullable {
     }
 }
 
-/// The sum of the measured (finite) values; NaN ("not measured") when there are values and
-/// none of them is measured; 0 for none at all. `+ 0.0` turns an empty sum's −0.0 into 0.0.
-pub fn measured_sum(values: impl IntoIterator<Item = f64>) -> f64 {
-    let (mut sum, mut any, mut measured) = (0.0, false, false);
-    for v in values {
-        any = true;
-        if v.is_finite() {
-            sum += v;
-            measured = true;
-        }
-    }
-    if any && !measured {
-        f64::NAN
-    } else {
-        sum + 0.0
-    }
-}
-
 /// The cautions every report carries.
 pub const CAUTIONS: [&str; 4] = [
     "These figures are statistical estimates from the data given, with the uncertainty shown; \

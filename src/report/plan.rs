@@ -94,6 +94,15 @@ pub struct Plan {
 }
 
 impl Plan {
+    /// The items whose unfairness reduction was not measured, left out of the plan's sum.
+    pub fn unmeasured_items(&self) -> Vec<&str> {
+        self.items
+            .iter()
+            .filter(|i| !i.unfairness_reduction.is_finite())
+            .map(|i| i.option.as_str())
+            .collect()
+    }
+
     /// Whether the two plans buy the same: the same options with the same rows, in the same
     /// order (their figures may hold "not measured" values, which never compare equal).
     pub fn buys_the_same(&self, other: &Plan) -> bool {
