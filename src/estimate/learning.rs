@@ -769,10 +769,11 @@ fn anchor_and_slope(
 /// times the distance, that increment shrunk towards none by its noise ([`trend::keep_share`],
 /// its variance widened by `spread` as the scorer will widen it). Each bootstrap draw has its own
 /// anchor and trend. A draw's deviation of the increment is scaled by √w, w the share kept: with
-/// w = b²/(b² + v) the mean squared error of the shrunk increment w·b̂ is (1 − w)²b² + w²v = w·v,
-/// so √w is the scale at which the draws carry the shrunk increment's error (all of it when the
-/// trend is sure, little of it when the trend is mostly shrunk away). Returns the point and one
-/// value per draw (NaN where a draw lacks the last anchor).
+/// w = δ²/(δ² + v) the mean squared error of the shrunk increment w·b̂ is (1 − w)²δ² + w²v = w·v
+/// (δ the true increment, δ² estimated as b̂² − v), so √w is the scale at which the draws carry
+/// the shrunk increment's error (all of it when the trend is sure, none when the trend is within
+/// its noise and the estimate is the last anchor's). Returns the point and one value per draw
+/// (NaN where a draw lacks the last anchor).
 fn extend_difference(trends: &Trends, distance: f64, spread: f64) -> (f64, Vec<f64>) {
     let increment_of = |t: &AnchorAndSlope| {
         if distance == 0.0 {

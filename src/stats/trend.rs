@@ -34,19 +34,22 @@ pub fn log_slope(sizes: &[f64], values: &[f64]) -> Option<f64> {
 }
 
 /// The share of an estimated `increment` to keep, given its sampling `variance`: the weight
-/// b²/(b² + v) that minimises the mean squared error of w·b when the true increment is b and its
-/// estimate has variance v, with b estimated by the increment itself (a positive-part shrinkage
-/// in the manner of James and Stein 1961). 1 when the increment is known exactly, near 0 when it
-/// is small against its noise.
+/// δ²/(δ² + v) that minimises the mean squared error of w·b̂ when the true increment is δ and its
+/// estimate b̂ has variance v, with δ² estimated without bias by b̂² − v and none kept where that
+/// is not positive: the positive-part shrinkage of James and Stein (1961), w = (1 − v/b̂²)₊. 1
+/// when the increment is known exactly, 0 when it is within one standard error of none.
 pub fn keep_share(increment: f64, variance: f64) -> f64 {
     let b2 = increment * increment;
     if !b2.is_finite() || !variance.is_finite() {
         return 0.0;
     }
-    if b2 + variance <= 0.0 {
+    if variance <= 0.0 {
         return 1.0;
     }
-    b2 / (b2 + variance)
+    if b2 <= variance {
+        return 0.0;
+    }
+    1.0 - variance / b2
 }
 
 #[cfg(test)]
@@ -80,9 +83,11 @@ mod tests {
 
     #[test]
     fn the_kept_share_weighs_the_increment_against_its_noise() {
-        // Worked by hand: b = 0.3, v = 0.09 (sd 0.3): 0.09 / 0.18 = 0.5; b = 0.6: 0.36/0.45 = 0.8.
-        assert!((keep_share(0.3, 0.09) - 0.5).abs() < 1e-12);
-        assert!((keep_share(-0.6, 0.09) - 0.8).abs() < 1e-12);
+        // Worked by hand: b = 0.6, v = 0.09 (sd 0.3): 1 − 0.09/0.36 = 0.75; b = 0.3 is one
+        // standard error from none, b = 0.2 less: nothing kept.
+        assert!((keep_share(-0.6, 0.09) - 0.75).abs() < 1e-12);
+        assert_eq!(keep_share(0.3, 0.09), 0.0);
+        assert_eq!(keep_share(0.2, 0.09), 0.0);
         assert_eq!(keep_share(0.2, 0.0), 1.0);
         assert_eq!(keep_share(0.0, 0.0), 1.0);
         assert_eq!(keep_share(0.0, 0.1), 0.0);
