@@ -8,6 +8,7 @@ use assert_cmd::Command;
 
 mod bad_inputs;
 mod golden;
+mod growth;
 
 const ADULT_COLUMNS: &str = "age,workclass,fnlwgt,education,education-num,marital-status,\
 occupation,relationship,race,sex,capital-gain,capital-loss,hours-per-week,native-country,income";
@@ -103,6 +104,16 @@ fn plan_on_adult_pilots(dir: &Path, pilot: &str, costs: &str, flags: &[&str]) ->
     );
     dir.join("plan.json")
 }
+
+/// The demo's target, favourable label and protected column, as flags.
+const DEMO_FLAGS: [&str; 6] = [
+    "--target",
+    "shortlisted",
+    "--favourable",
+    "yes",
+    "--protected",
+    "disability",
+];
 
 fn acquest() -> Command {
     let mut cmd = Command::cargo_bin("acquest").unwrap();
@@ -1979,14 +1990,7 @@ fn a_scaled_demo_writes_wider_data_and_the_same_table_as_parquet() {
         costs.contains(",4000,666,"),
         "rows on offer scale with the data: {costs}"
     );
-    let common = [
-        "--target",
-        "shortlisted",
-        "--favourable",
-        "yes",
-        "--protected",
-        "disability",
-    ];
+    let common = DEMO_FLAGS;
     let mut a: Vec<String> = vec![
         "--data".into(),
         out.join("applications.csv").display().to_string(),

@@ -4,6 +4,7 @@
 pub mod appraise;
 pub mod backtest;
 pub mod baseline;
+mod growth;
 mod held;
 pub mod learning;
 mod pilot;

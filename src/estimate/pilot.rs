@@ -104,17 +104,6 @@ pub(super) fn feature_value(
             reach,
         )
     });
-    let (without_outcomes, with_outcomes) = measured.outcomes();
-    let pilot_summary = pilot_summary(
-        data,
-        scorer,
-        &pilot,
-        without_outcomes,
-        with_outcomes,
-        mix,
-        matches!(measured, PilotMeasurement::Curves { .. }),
-        trials.confidence,
-    );
     let purchase = |new_rows: usize| {
         let at = training_at(new_rows);
         let after = anchored(&full.read(at), &difference_at(at));
@@ -128,6 +117,35 @@ pub(super) fn feature_value(
         )
     };
     let estimate = purchase(0);
+    let (without_outcomes, with_outcomes) = measured.outcomes();
+    let pilot_training = with_outcomes
+        .first()
+        .and_then(|r| r.last())
+        .map_or(0.0, |t| t.train_rows as f64);
+    let anchor_only = scorer.purchase(
+        now,
+        &last_anchor,
+        0,
+        option.feature_cost(rows),
+        training_now,
+        reach,
+    );
+    let growth = super::growth::pilot_growth(
+        pilot.len(),
+        (pilot_training, training_now),
+        rows,
+        &estimate,
+        &anchor_only,
+    );
+    let pilot_summary = pilot_summary(
+        data,
+        scorer,
+        &pilot,
+        (without_outcomes, with_outcomes),
+        mix,
+        matches!(measured, PilotMeasurement::Curves { .. }),
+        growth,
+    );
     let readings = OptionReadings {
         now: now.clone(),
         after: anchored(&full.read(training_now), &difference_at(training_now)),
@@ -379,17 +397,18 @@ fn short_p(p: f64) -> String {
     }
 }
 
-#[allow(clippy::too_many_arguments)]
-pub(super) fn pilot_summary(
+/// The pilot's own evidence (its paired differences at its size, the mix check, the ANOVA
+/// across its sizes), with what a bigger pilot would tell (`growth`).
+fn pilot_summary(
     data: &Dataset,
     scorer: &Scorer,
     pilot: &[usize],
-    without: &[Vec<TrialOutcome>],
-    with: &[Vec<TrialOutcome>],
+    (without, with): (&Outcomes, &Outcomes),
     mix: Option<(f64, usize, f64)>,
     extrapolated: bool,
-    confidence: f64,
+    growth: PilotGrowth,
 ) -> PilotSummary {
+    let confidence = scorer.confidence;
     let last = |o: &[Vec<TrialOutcome>]| -> Vec<TrialOutcome> {
         o.iter().filter_map(|r| r.last().cloned()).collect()
     };
@@ -427,5 +446,6 @@ pub(super) fn pilot_summary(
         unfairness_difference: estimate(&unfair_diff, confidence, test_to_train, Some(0.0)),
         size_anova_p: metrics::one_way_anova(&per_size).map(|a| a.1),
         extrapolated,
+        growth,
     }
 }

@@ -473,6 +473,7 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
                 change_cell(&direct.accuracy_gain, confidence),
                 change_cell(&direct.unfairness_reduction, confidence)));
         }
+        growth_table(&mut d, o, &p.growth);
         if let (Some(first), Some(last)) = (o.steps.first(), o.steps.last()) {
             let step = |s: &crate::report::Purchase| {
                 format!(
@@ -850,4 +851,46 @@ fn plain_warnings_and_cautions(out: &mut String, warnings: &[String], cautions: 
     let mut d = Document::new("");
     warnings_and_cautions(&mut d, warnings, cautions);
     out.push_str(&d.plain());
+}
+
+/// What a bigger pilot of a feature would be expected to tell: one row per larger pilot, the
+/// full-size gains' expected intervals and the smallest effects it could tell from zero.
+fn growth_table(d: &mut Document, o: &crate::report::OptionValue, g: &crate::report::PilotGrowth) {
+    if g.sizes.is_empty() {
+        return;
+    }
+    d.note(
+        "a bigger pilot, expected about the same point: the part of each side measured on the pilot narrows as 1/√rows, the part the extrapolation adds also with the distance left to carry it",
+    );
+    let mut t = Table::new(&[
+        "pilot rows",
+        "training rows",
+        "accuracy gain",
+        "told from zero above",
+        "unfairness reduction",
+        "told from zero above",
+    ]);
+    let interval = |mean: f64, e: &Option<crate::report::ExpectedGain>| match e {
+        Some(e) => (
+            format!("{mean:+.4} [{:+.4}, {:+.4}]", e.low, e.high),
+            format!("{:.4}", e.detectable),
+        ),
+        None => ("not measured".into(), "n/a".into()),
+    };
+    for s in &g.sizes {
+        let (accuracy, accuracy_told) = interval(o.estimate.accuracy_gain.mean, &s.accuracy_gain);
+        let (fairness, fairness_told) = interval(
+            o.estimate.unfairness_reduction.mean,
+            &s.unfairness_reduction,
+        );
+        t.row(vec![
+            thousands(s.rows),
+            thousands(s.training_rows),
+            accuracy,
+            accuracy_told,
+            fairness,
+            fairness_told,
+        ]);
+    }
+    d.table(t);
 }

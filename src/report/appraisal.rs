@@ -252,6 +252,45 @@ pub struct PilotSummary {
     pub size_anova_p: Option<f64>,
     /// Whether the pilot could be extrapolated (it was large enough for a learning curve).
     pub extrapolated: bool,
+    /// What a bigger pilot would be expected to tell (empty in reports written before it was
+    /// added).
+    #[serde(default)]
+    pub growth: PilotGrowth,
+}
+
+/// What a bigger pilot of a feature would be expected to tell: the headline's interval at
+/// larger pilots, about the same point. Each side's part measured on the pilot (the interval of
+/// the last anchor alone) narrows as 1/√m with the pilot's rows; the part the extrapolation adds
+/// also with the log distance left to carry the difference (none at a pilot of every row).
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct PilotGrowth {
+    /// Pilots of 2 and 4 times the rows and of every row held (those larger than the pilot).
+    pub sizes: Vec<GrownPilot>,
+}
+
+/// One larger pilot and what it would be expected to show.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct GrownPilot {
+    /// Rows of the larger pilot.
+    pub rows: usize,
+    /// Training rows of a trial on it.
+    pub training_rows: usize,
+    /// The full-size accuracy gain's expected interval; `null` where the headline has none.
+    pub accuracy_gain: Option<ExpectedGain>,
+    /// The full-size unfairness reduction's expected interval; `null` where not measured.
+    pub unfairness_reduction: Option<ExpectedGain>,
+}
+
+/// An interval expected at a larger pilot, about today's point.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ExpectedGain {
+    /// Expected lower end.
+    pub low: f64,
+    /// Expected upper end.
+    pub high: f64,
+    /// The smallest effect that pilot could tell from zero at the report's confidence: the mean
+    /// of the interval's two expected sides.
+    pub detectable: f64,
 }
 
 /// One option of the cost sheet, valued.
