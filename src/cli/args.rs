@@ -86,6 +86,10 @@ pub(super) struct PlanArgs {
     /// `acquest appraise` does; the plan does not need it.
     #[arg(long)]
     pub(super) held_features: bool,
+    /// Do not value growing each feature's pilot before deciding (the advice "decide now" or
+    /// "first grow pilot X").
+    #[arg(long)]
+    pub(super) no_pilot_advice: bool,
 }
 
 #[derive(Args)]

@@ -134,14 +134,19 @@ fn run_render(args: RenderArgs) -> anyhow::Result<()> {
     documents.write_with(|| document.markdown(), || document.html(), &output)
 }
 
-fn run_plan(choices: Choices, documents: &Documents, output: &OutputArgs) -> anyhow::Result<()> {
+fn run_plan(
+    choices: Choices,
+    advise: bool,
+    documents: &Documents,
+    output: &OutputArgs,
+) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices.clone())?;
     let appraisal = AppraisalSettings::from_choices(&choices)?;
     let rules = acquest::settings::plan_rules(&choices)?;
     let budgets = acquest::settings::frontier_budgets(&choices)?;
     let bar = progress_bar(output.quiet);
     let show = shown_on(&bar);
-    let report = plan::run(&settings, &appraisal, &rules, &budgets, &show)?;
+    let report = plan::run(&settings, &appraisal, &rules, &budgets, advise, &show)?;
     bar.finish_and_clear();
     write_outputs(&report, render::plan_text(&report), output)?;
     documents.write(&report, output)
@@ -150,6 +155,7 @@ fn run_plan(choices: Choices, documents: &Documents, output: &OutputArgs) -> any
 fn run_saved_plan(
     path: &Path,
     choices: &Choices,
+    advise: bool,
     documents: &Documents,
     output: &OutputArgs,
 ) -> anyhow::Result<()> {
@@ -166,7 +172,7 @@ fn run_saved_plan(
                 "not an appraisal written by `acquest appraise --json` (or a plan's): {e}"
             ),
         })?;
-    let report = plan::run_on_saved(appraisal, &rules, &budgets)?;
+    let report = plan::run_on_saved(appraisal, &rules, &budgets, advise)?;
     write_outputs(&report, render::plan_text(&report), output)?;
     documents.write(&report, output)
 }
@@ -354,9 +360,10 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 markdown: args.markdown,
                 html: args.html,
             };
+            let advise = !args.no_pilot_advice;
             match args.appraisal {
-                Some(path) => run_saved_plan(&path, &choices, &documents, &output),
-                None => run_plan(choices, &documents, &output),
+                Some(path) => run_saved_plan(&path, &choices, advise, &documents, &output),
+                None => run_plan(choices, advise, &documents, &output),
             }
         }
         Command::Backtest(args) => {
@@ -412,6 +419,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             println!();
             run_plan(
                 choices,
+                true,
                 &Documents {
                     markdown: Some(folder.join("report.md")),
                     html: Some(folder.join("report.html")),

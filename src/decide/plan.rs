@@ -21,11 +21,12 @@ pub fn run(
     appraisal: &crate::settings::AppraisalSettings,
     rules: &PlanRules,
     frontier_at: &[f64],
+    advise: bool,
     progress: crate::engine::trial::ProgressSink,
 ) -> Result<crate::report::PlanReport> {
     let (report, appraiser) =
         crate::estimate::appraise::run_with_options(settings, appraisal, progress)?;
-    plan_on(report, rules, frontier_at, &|picks| {
+    plan_on(report, rules, frontier_at, advise, &|picks| {
         appraiser.rescore(picks, progress)
     })
 }
@@ -37,13 +38,14 @@ pub fn run_on_saved(
     report: AppraisalReport,
     rules: &PlanRules,
     frontier_at: &[f64],
+    advise: bool,
 ) -> Result<crate::report::PlanReport> {
     if report.costs.options.len() != report.options.len() {
         return Err(crate::error::Error::Internal(
             "the saved appraisal does not list its cost sheet's options (written by an older acquest): run `acquest appraise` again".into(),
         ));
     }
-    plan_on(report, rules, frontier_at, &|_| {
+    plan_on(report, rules, frontier_at, advise, &|_| {
         Ok(Err(
             "planned from a saved appraisal: plans are re-scored with their options together only when `acquest plan` runs on the data".into(),
         ))
@@ -55,16 +57,19 @@ type Rescore<'a> =
     &'a dyn Fn(&[(String, usize)]) -> Result<std::result::Result<JointScore, String>>;
 
 /// The plan for the budget on an appraisal: the additive best, the frontier, the best few plans
-/// re-scored by `rescore`, and the choice.
+/// re-scored by `rescore`, the choice, and (with `advise`) the value of growing a pilot first.
 fn plan_on(
     report: AppraisalReport,
     rules: &PlanRules,
     frontier_at: &[f64],
+    advise: bool,
     rescore: Rescore,
 ) -> Result<crate::report::PlanReport> {
     let options = report.costs.options.clone();
-    let problem = Problem::new(&report, &options, rules.cautious)?;
+    let mut problem = Problem::new(&report, &options, rules.cautious)?;
     let additive_best = problem.solve(rules);
+    let pilot_advice =
+        advise.then(|| super::advice::advise(&report, &mut problem, rules, &additive_best));
     let budgets = if frontier_at.is_empty() {
         round_budgets_of(&problem)
     } else {
@@ -218,6 +223,7 @@ fn plan_on(
         summary,
         candidates,
         explanation,
+        pilot_advice,
         cautions: report.cautions.clone(),
         appraisal: report,
         warnings,

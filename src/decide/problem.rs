@@ -191,6 +191,40 @@ impl Problem {
         })
     }
 
+    /// The values of the feature option `name` at each count of new rows (empty where there is
+    /// no such feature): what [`Problem::set_feature_values`] puts back.
+    pub(super) fn feature_values(&self, name: &str) -> Vec<(usize, Value)> {
+        self.features
+            .iter()
+            .find(|f| f.name == name)
+            .map_or_else(Vec::new, |f| f.by_rows.clone())
+    }
+
+    /// Sets the feature option `name`'s values to `values` moved by `shift` at every count of
+    /// new rows: a what-if in which its estimate moved.
+    pub(super) fn set_feature_values(
+        &mut self,
+        name: &str,
+        values: &[(usize, Value)],
+        shift: Value,
+    ) {
+        if let Some(f) = self.features.iter_mut().find(|f| f.name == name) {
+            f.by_rows = values
+                .iter()
+                .map(|&(rows, v)| {
+                    (
+                        rows,
+                        Value {
+                            accuracy: v.accuracy + shift.accuracy,
+                            fairness: v.fairness + shift.fairness,
+                            score: v.score + shift.score,
+                        },
+                    )
+                })
+                .collect();
+        }
+    }
+
     /// A random problem of the given shape, for checks and benchmarks of the solver: gains of
     /// a few points either way, costs of the order of a data budget, selection rates near the
     /// four-fifths line so that the floor binds in some plans and not in others.

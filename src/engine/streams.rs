@@ -35,6 +35,9 @@ pub enum Stream {
     GroupCurves(usize),
     /// 3,000: permutations of the held features (index: the repeat).
     Permutations,
+    /// 4,000 + option: what a bigger pilot of feature option `option` (< 1,000) could show
+    /// (index: the rows the pilot grows by).
+    PilotAdvice(usize),
     /// 5,000 + mask: the joint re-scoring of the options in `mask` (bit i: option i mod 60).
     /// The range overlaps the backtest's numbers; no command uses both.
     JointRescoring(u64),
@@ -60,6 +63,7 @@ impl Stream {
             Stream::PilotCurves(option) => 1_000 + option as u64,
             Stream::GroupCurves(option) => 2_000 + option as u64,
             Stream::Permutations => 3_000,
+            Stream::PilotAdvice(option) => 4_000 + option as u64,
             Stream::JointRescoring(mask) => 5_000 + mask,
             Stream::BacktestHoldOut => 6_000,
             Stream::BacktestRealised => 7_000,
@@ -113,6 +117,7 @@ mod tests {
         ];
         numbers.extend((0..999).map(|i| Stream::PilotCurves(i).number()));
         numbers.extend((0..999).map(|i| Stream::GroupCurves(i).number()));
+        numbers.extend((0..999).map(|i| Stream::PilotAdvice(i).number()));
         numbers.extend((1..4096).map(|m| Stream::JointRescoring(m).number()));
         let count = numbers.len();
         numbers.sort_unstable();

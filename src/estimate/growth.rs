@@ -48,6 +48,7 @@ pub(super) fn pilot_growth(
                 accuracy_gain: scale.expected(&headline.accuracy_gain, &anchor.accuracy_gain),
                 unfairness_reduction: scale
                     .expected(&headline.unfairness_reduction, &anchor.unfairness_reduction),
+                utility: scale.expected(&headline.utility, &anchor.utility),
             }
         })
         .collect();

@@ -7,8 +7,8 @@ use std::fmt::Write as _;
 use super::document::{escape, prose, STYLE};
 use super::svg::{curve_chart, format_tick, tick_step, CurveSet};
 use super::{
-    candidate_rows, change_cell, money, plan_unfairness, signed, thousands, today_source,
-    whole_plan,
+    advice_sentence, candidate_rows, change_cell, money, plan_unfairness, signed, thousands,
+    today_source, whole_plan,
 };
 use crate::report::{AppraisalReport, Change, PlanReport};
 
@@ -359,6 +359,13 @@ pub fn plan_html(report: &PlanReport) -> String {
         escape(&report.tool_version)
     );
     let _ = writeln!(out, "<h2>Recommendation</h2>");
+    if let Some(advice) = advice_sentence(report) {
+        let _ = writeln!(
+            out,
+            "<p class=\"advice\"><strong>{}</strong></p>",
+            escape(&advice)
+        );
+    }
     match &report.explanation {
         Some(why) => {
             let _ = writeln!(

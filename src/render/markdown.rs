@@ -29,6 +29,9 @@ pub fn plan_markdown(report: &PlanReport) -> String {
         report.tool_version
     );
     let _ = writeln!(out, "## Recommendation\n");
+    if let Some(advice) = advice_sentence(report) {
+        let _ = writeln!(out, "**{advice}**\n");
+    }
     match &report.explanation {
         Some(why) => {
             let _ = writeln!(

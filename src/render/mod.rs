@@ -122,6 +122,15 @@ fn p_value(p: Option<f64>) -> String {
     }
 }
 
+/// The plan's advice on growing a pilot first, as a sentence: "Decide now: ..." or "First grow
+/// pilot ...", with the extension's figures; `None` where the plan was made without it.
+fn advice_sentence(report: &PlanReport) -> Option<String> {
+    let advice = report.pilot_advice.as_ref()?;
+    let mut chars = advice.decision.chars();
+    let first = chars.next()?.to_uppercase().collect::<String>();
+    Some(format!("{first}{}.", chars.as_str()))
+}
+
 /// "+0.0123 [+0.0050, +0.0190]" for a change, with "*" when it differs from zero.
 fn change_cell(c: &Change, confidence: f64) -> String {
     signed_cell(c.mean, c.low, c.high, c.differs_from_zero(confidence))

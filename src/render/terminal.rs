@@ -579,6 +579,9 @@ pub fn plan_text(report: &PlanReport) -> String {
             ""
         }
     );
+    if let Some(advice) = advice_sentence(report) {
+        let _ = writeln!(out, "  {advice}");
+    }
     match &report.explanation {
         Some(why) => {
             let _ = writeln!(out, "  buy nothing: {why}");

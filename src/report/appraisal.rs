@@ -279,6 +279,8 @@ pub struct GrownPilot {
     pub accuracy_gain: Option<ExpectedGain>,
     /// The full-size unfairness reduction's expected interval; `null` where not measured.
     pub unfairness_reduction: Option<ExpectedGain>,
+    /// The utility's expected interval (what a cautious plan weighs).
+    pub utility: Option<ExpectedGain>,
 }
 
 /// An interval expected at a larger pilot, about today's point.

@@ -31,6 +31,10 @@ pub struct PlanReport {
     pub candidates: Vec<Candidate>,
     /// Why the plan is empty, when it is.
     pub explanation: Option<String>,
+    /// Decide now, or first grow a pilot: the value of a bigger pilot (`null` with
+    /// `--no-pilot-advice`, or in reports written before it was added).
+    #[serde(default)]
+    pub pilot_advice: Option<PilotAdvice>,
     /// The best plan at other budgets.
     pub frontier: Vec<FrontierPoint>,
     /// The appraisal the plan rests on.
@@ -178,4 +182,43 @@ pub struct PlanSummary {
     pub differs_from_zero: bool,
     /// The flags of the plan's options, each led by the option's name.
     pub flags: Vec<String>,
+}
+
+/// Decide now, or first grow a pilot: for each feature option's larger pilots (those of its
+/// appraisal's `growth`), what the bigger pilot could show is drawn from today's uncertainty,
+/// the plan is solved again with the money left after paying for it, and compared with the plan
+/// chosen now (the expected value of sample information, net of its cost).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PilotAdvice {
+    /// The advice in words: "decide now: ..." or "first grow pilot ... by N rows ...".
+    pub decision: String,
+    /// The extension advised, if any: the one with the largest expected gain, where that gain
+    /// is above zero by more than two of its standard errors.
+    pub grow_first: Option<PilotExtension>,
+    /// Draws per extension.
+    pub draws: usize,
+    /// Every extension valued.
+    pub extensions: Vec<PilotExtension>,
+}
+
+/// One way to grow a pilot before deciding, valued.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PilotExtension {
+    /// The feature option whose pilot grows.
+    pub option: String,
+    /// Rows of the pilot after growing.
+    pub pilot_rows: usize,
+    /// Rows added to it.
+    pub added_rows: usize,
+    /// What the added rows cost (the option's cost a row), taken from the budget.
+    pub cost: f64,
+    /// The share of draws in which the plan chosen after the bigger pilot differs from the plan
+    /// chosen now.
+    pub chance_plan_changes: f64,
+    /// The expected score (utility, or its lower end under `cautious`) of the plan chosen after
+    /// the bigger pilot, with the budget less `cost`, minus that of the plan chosen now, both
+    /// valued on what the bigger pilot shows.
+    pub expected_gain: f64,
+    /// Monte Carlo standard error of `expected_gain`.
+    pub standard_error: f64,
 }

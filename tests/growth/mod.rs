@@ -128,3 +128,69 @@ fn a_bigger_pilot_narrows_the_intervals_as_predicted() {
         assert!((0.75..=2.0).contains(r), "median ratio {r}: {medians:?}");
     }
 }
+
+/// A cost sheet on which growing any pilot costs more than it could reveal: the demo's, with
+/// the postcode's cost a row raised from 0.05 to 5.00 so that a bigger postcode pilot leaves too
+/// little for the work sample. The advice turns from growing the postcode pilot to deciding now; without --no-pilot-advice the plan values every
+/// extension (2x, 4x and every row of each pilot), with it none.
+#[test]
+fn growing_a_pilot_that_costs_more_than_it_could_reveal_is_advised_against() {
+    let dir = super::demo_folder();
+    let plan = |extra: &[&str]| {
+        json_of(
+            acquest()
+                .current_dir(dir.path())
+                .args(["plan", "--budget", "17000", "--quiet", "--json", "-"])
+                .args(extra),
+        )
+    };
+    // On the demo's own sheet a bigger postcode pilot is cheap (0.05 a row) and could show
+    // whether the postcode belongs in the plan: growing it first is advised.
+    let cheap = plan(&[]);
+    let decision = cheap["pilot_advice"]["decision"].as_str().unwrap();
+    assert!(
+        decision.starts_with("first grow pilot 'postcode'"),
+        "{decision}"
+    );
+    let costs = dir.path().join("costs.csv");
+    let sheet = std::fs::read_to_string(&costs).unwrap().replace(
+        "postcode,feature,postcode_digit,0.05,100,",
+        "postcode,feature,postcode_digit,5.00,100,",
+    );
+    std::fs::write(&costs, sheet).unwrap();
+    let advised = plan(&[]);
+    let advice = &advised["pilot_advice"];
+    let decision = advice["decision"].as_str().unwrap();
+    assert!(decision.starts_with("decide now"), "{decision}");
+    assert!(advice["grow_first"].is_null());
+    let extensions = advice["extensions"].as_array().unwrap();
+    // work-sample 600 -> 1,200, 2,400, 3,000; references 400 -> 800, 1,600, 3,000; postcode
+    // 1,200 -> 2,400 and 3,000 at 5.00 a row costs 6,000 and 9,000.
+    let valued: Vec<(String, u64)> = extensions
+        .iter()
+        .map(|x| {
+            (
+                x["option"].as_str().unwrap().to_string(),
+                x["pilot_rows"].as_u64().unwrap(),
+            )
+        })
+        .collect();
+    assert!(valued.contains(&("postcode".into(), 2400)), "{valued:?}");
+    for x in extensions {
+        let (gain, se) = (
+            x["expected_gain"].as_f64().unwrap(),
+            x["standard_error"].as_f64().unwrap(),
+        );
+        assert!(gain <= 2.0 * se, "{x}");
+        assert!((0.0..=1.0).contains(&x["chance_plan_changes"].as_f64().unwrap()));
+    }
+    let postcode = extensions
+        .iter()
+        .find(|x| x["option"] == "postcode" && x["pilot_rows"] == 2400)
+        .unwrap();
+    assert!(
+        postcode["expected_gain"].as_f64().unwrap() < 0.0,
+        "6,000 spent leaves 11,000, too little for the work sample (15,500): {postcode}"
+    );
+    assert!(plan(&["--no-pilot-advice"])["pilot_advice"].is_null());
+}
