@@ -26,6 +26,15 @@ impl CostOption {
         self.fixed + self.per_row * rows as f64
     }
 
+    /// Cost of growing this feature's pilot by `added` rows (nothing when none are added).
+    pub fn pilot_cost(&self, added: usize) -> f64 {
+        if added == 0 {
+            0.0
+        } else {
+            self.pilot.fixed + self.pilot.per_row.unwrap_or(self.per_row) * added as f64
+        }
+    }
+
     /// Cost of `rows` new rows of this option (nothing when none are bought).
     pub fn rows_cost(&self, rows: usize) -> f64 {
         if rows == 0 {
@@ -64,9 +73,12 @@ struct RawLine {
     step: Option<serde_json::Value>,
     sensitive: Option<serde_json::Value>,
     note: Option<String>,
+    pilot_per_row: Option<serde_json::Value>,
+    pilot_fixed: Option<serde_json::Value>,
+    pilot_max_rows: Option<serde_json::Value>,
 }
 
-const FIELDS: [&str; 9] = [
+const FIELDS: [&str; 12] = [
     "name",
     "kind",
     "column",
@@ -76,6 +88,9 @@ const FIELDS: [&str; 9] = [
     "step",
     "sensitive",
     "note",
+    "pilot_per_row",
+    "pilot_fixed",
+    "pilot_max_rows",
 ];
 
 /// Reads a cost sheet (`-` for standard input): JSON (an array of options, or an object with an
@@ -235,6 +250,9 @@ fn parse_csv(text: &str) -> std::result::Result<Vec<(usize, RawLine)>, String> {
                 "max_rows" => raw.max_rows = Some(value),
                 "step" => raw.step = Some(value),
                 "sensitive" => raw.sensitive = Some(value),
+                "pilot_per_row" => raw.pilot_per_row = Some(value),
+                "pilot_fixed" => raw.pilot_fixed = Some(value),
+                "pilot_max_rows" => raw.pilot_max_rows = Some(value),
                 _ => raw.note = Some(cell),
             }
         }
@@ -264,6 +282,8 @@ pub struct RawOption {
     pub sensitive: bool,
     /// The `note` field.
     pub note: String,
+    /// `pilot_per_row`, `pilot_fixed` and `pilot_max_rows` (features).
+    pub pilot: crate::report::PilotTerms,
 }
 
 type FieldError = (&'static str, String);
@@ -336,6 +356,11 @@ impl RawOption {
             step: count(&raw.step, "step")?,
             sensitive,
             note: raw.note.unwrap_or_default(),
+            pilot: crate::report::PilotTerms {
+                per_row: number(&raw.pilot_per_row, "pilot_per_row")?,
+                fixed: number(&raw.pilot_fixed, "pilot_fixed")?.unwrap_or(0.0),
+                max_rows: count(&raw.pilot_max_rows, "pilot_max_rows")?,
+            },
         })
     }
 }
@@ -414,9 +439,37 @@ pub fn check_options(
                         ),
                     ));
                 }
+                if let Some(most) = o.pilot.max_rows {
+                    if most <= pilot.len() {
+                        return Err(error(
+                            line,
+                            "pilot_max_rows",
+                            format!(
+                                "{} is not more than the {} rows the pilot of '{column}' holds: it could not grow",
+                                thousands(most),
+                                thousands(pilot.len())
+                            ),
+                        ));
+                    }
+                }
                 Acquisition::Feature { column }
             }
             "rows" => {
+                if let Some(field) = [
+                    (o.pilot.per_row.is_some(), "pilot_per_row"),
+                    (o.pilot.fixed > 0.0, "pilot_fixed"),
+                    (o.pilot.max_rows.is_some(), "pilot_max_rows"),
+                ]
+                .into_iter()
+                .find_map(|(set, field)| set.then_some(field))
+                {
+                    return Err(error(
+                        line,
+                        field,
+                        "a rows option has no pilot to grow: the pilot fields are for features"
+                            .into(),
+                    ));
+                }
                 let Some(max_rows) = o.max_rows else {
                     return Err(error(
                         line,
@@ -495,6 +548,7 @@ pub fn check_options(
             step: o.step,
             sensitive: o.sensitive,
             note: o.note,
+            pilot: o.pilot,
         });
     }
     Ok(options)
@@ -536,6 +590,7 @@ mod tests {
             step,
             sensitive: false,
             note: String::new(),
+            pilot: Default::default(),
         }
     }
 

@@ -41,7 +41,7 @@ pub(super) fn advise(
         };
         for grown in &pilot.growth.sizes {
             let added = grown.rows - pilot.rows;
-            let cost = added as f64 * option.per_row;
+            let cost = option.pilot_cost(added);
             if cost >= rules.budget {
                 continue;
             }

@@ -155,6 +155,7 @@ fn round_options(
         step: None,
         sensitive: false,
         note: String::new(),
+        pilot: Default::default(),
     };
     let mut options = Vec::new();
     if !split.held.is_empty() {

@@ -3,11 +3,12 @@
 
 use crate::report::{Change, ExpectedGain, GrownPilot, PilotGrowth, Purchase};
 
-/// The larger pilots reported, as multiples of the pilot's rows (each capped at every row held;
-/// every row held is always reported when the pilot is smaller).
+/// The larger pilots reported, as multiples of the pilot's rows (each capped at the most the
+/// pilot can have, which is always reported when the pilot is smaller).
 const GROWTH_FACTORS: [usize; 2] = [2, 4];
 
-/// The headline's interval scaled to pilots of 2x, 4x and every row held (`all_rows`). Each
+/// The headline's interval scaled to pilots of 2x, 4x and the most the pilot can have
+/// (`most_rows`: every row held, or the sheet's `pilot_max_rows`). Each
 /// side is split into the part the pilot's measured difference gives (`anchor`, the same
 /// purchase read off the last anchor alone) and the part the extrapolation adds (the rest, in
 /// quadrature). The first falls as 1/√m with the pilot's rows, the law of a mean's sampling
@@ -19,14 +20,14 @@ const GROWTH_FACTORS: [usize; 2] = [2, 4];
 pub(super) fn pilot_growth(
     pilot_rows: usize,
     (pilot_training, today_training): (f64, f64),
-    all_rows: usize,
+    most_rows: usize,
     headline: &Purchase,
     anchor: &Purchase,
 ) -> PilotGrowth {
     let mut sizes: Vec<usize> = GROWTH_FACTORS
         .iter()
-        .map(|&f| (pilot_rows * f).min(all_rows))
-        .chain(std::iter::once(all_rows))
+        .map(|&f| (pilot_rows * f).min(most_rows))
+        .chain(std::iter::once(most_rows))
         .filter(|&m| m > pilot_rows)
         .collect();
     sizes.dedup();

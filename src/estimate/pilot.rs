@@ -133,7 +133,7 @@ pub(super) fn feature_value(
     let growth = super::growth::pilot_growth(
         pilot.len(),
         (pilot_training, training_now),
-        rows,
+        option.pilot.max_rows.map_or(rows, |most| most.min(rows)),
         &estimate,
         &anchor_only,
     );

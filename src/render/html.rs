@@ -36,6 +36,55 @@ pub(super) fn options_charts(a: &AppraisalReport) -> String {
     )
 }
 
+/// One feature's full-size intervals today and as expected at its larger pilots
+/// ([`crate::report::PilotGrowth`]), for accuracy and unfairness, as dot-and-whisker charts.
+pub(super) fn growth_charts(o: &crate::report::OptionValue, level: f64) -> String {
+    let Some(pilot) = &o.pilot else {
+        return String::new();
+    };
+    let chart =
+        |title: &str,
+         now: &Change,
+         then: fn(&crate::report::GrownPilot) -> &Option<crate::report::ExpectedGain>| {
+            let mut rows = vec![(
+                format!("pilot of {} (now)", thousands(pilot.rows)),
+                now.clone(),
+            )];
+            rows.extend(pilot.growth.sizes.iter().filter_map(|s| {
+                then(s).as_ref().map(|e| {
+                    (
+                        format!("pilot of {}", thousands(s.rows)),
+                        Change {
+                            mean: now.mean,
+                            low: Some(e.low),
+                            high: Some(e.high),
+                            p_value: None,
+                            chance_positive: None,
+                            widened_to_point: false,
+                        },
+                    )
+                })
+            }));
+            if rows.len() < 2 || !now.is_measured() {
+                return String::new();
+            }
+            options_chart(
+                &format!("{title} of '{}' by pilot size ({level}% interval)", o.name),
+                &rows,
+            )
+        };
+    format!(
+        "<div class=\"charts\">\n{}{}</div>\n",
+        chart("Accuracy gain", &o.estimate.accuracy_gain, |s| &s
+            .accuracy_gain),
+        chart(
+            "Unfairness reduction",
+            &o.estimate.unfairness_reduction,
+            |s| &s.unfairness_reduction
+        )
+    )
+}
+
 /// The appraisal's learning curves with each group's rates.
 pub(super) fn appraisal_curves(a: &AppraisalReport) -> String {
     curve_chart(&CurveSet {

@@ -474,6 +474,10 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
                 change_cell(&direct.unfairness_reduction, confidence)));
         }
         growth_table(&mut d, o, &p.growth);
+        d.chart(
+            None,
+            super::html::growth_charts(o, (confidence * 100.0).round()),
+        );
         if let (Some(first), Some(last)) = (o.steps.first(), o.steps.last()) {
             let step = |s: &crate::report::Purchase| {
                 format!(

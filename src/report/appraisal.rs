@@ -102,6 +102,22 @@ pub struct CostOption {
     pub sensitive: bool,
     /// The sheet's note, shown beside the option.
     pub note: String,
+    /// For features: what growing the pilot costs and how far it can grow (absent in reports
+    /// written before these fields were added).
+    #[serde(default)]
+    pub pilot: PilotTerms,
+}
+
+/// What growing a feature's pilot costs: `pilot_per_row` (default: the option's own cost a
+/// row), `pilot_fixed` (default 0) and `pilot_max_rows` (default: every row held) in the sheet.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize, Deserialize)]
+pub struct PilotTerms {
+    /// Cost of each row added to the pilot; `null`: the option's `per_row`.
+    pub per_row: Option<f64>,
+    /// One-off cost of growing the pilot at all.
+    pub fixed: f64,
+    /// The most rows the pilot can have; `null`: every row held.
+    pub max_rows: Option<usize>,
 }
 
 /// Today's fitted accuracy and unfairness.
@@ -264,7 +280,8 @@ pub struct PilotSummary {
 /// also with the log distance left to carry the difference (none at a pilot of every row).
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct PilotGrowth {
-    /// Pilots of 2 and 4 times the rows and of every row held (those larger than the pilot).
+    /// Pilots of 2 and 4 times the rows and of every row held, each at most the sheet's
+    /// `pilot_max_rows` (those larger than the pilot).
     pub sizes: Vec<GrownPilot>,
 }
 

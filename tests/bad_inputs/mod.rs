@@ -103,6 +103,17 @@ fn sheet(what: &'static str, lines: &str, expect: &'static str) -> Case {
     )
 }
 
+/// A demo cost sheet case whose header adds the pilot fields.
+fn pilot_sheet(what: &'static str, lines: &str, expect: &'static str) -> Case {
+    case(
+        what,
+        Folder::Demo,
+        vec![("costs.csv", format!("name,kind,column,per_row,fixed,max_rows,step,sensitive,note,pilot_per_row,pilot_fixed,pilot_max_rows\n{lines}").into_bytes())],
+        &["appraise", "--repeats", "3"],
+        expect,
+    )
+}
+
 /// The demo's data with column `column` of every data row (1-based) set by `cell` from its
 /// row, value and label.
 fn demo_data_with(
@@ -437,6 +448,36 @@ fn cases(demo: &Path) -> Vec<Case> {
             "a step of zero",
             "a,rows,,1,0,50,0,no,\n",
             "field step: 0 is not a whole number",
+        ),
+        pilot_sheet(
+            "a pilot field on a rows option",
+            "a,rows,,1,0,10,1,no,,2,,\n",
+            "line 2, field pilot_per_row: a rows option has no pilot to grow",
+        ),
+        pilot_sheet(
+            "a pilot's most no more than its rows",
+            "w,feature,work_sample,4.5,2000,,,no,,,,500\n",
+            "line 2, field pilot_max_rows: 500 is not more than the 600 rows the pilot of 'work_sample' holds",
+        ),
+        pilot_sheet(
+            "a negative pilot cost",
+            "w,feature,work_sample,4.5,2000,,,no,,-1,,\n",
+            "field pilot_per_row: -1 is negative",
+        ),
+        pilot_sheet(
+            "a pilot's most that is a word",
+            "w,feature,work_sample,4.5,2000,,,no,,,,many\n",
+            "field pilot_max_rows: 'many' is not a number",
+        ),
+        case(
+            "a JSON pilot cost that is a word",
+            Folder::Demo,
+            vec![(
+                "costs.csv",
+                br#"[{"name": "w", "kind": "feature", "column": "work_sample", "per_row": 4.5, "pilot_fixed": "dear"}]"#.to_vec(),
+            )],
+            &["appraise", "--repeats", "3"],
+            "field pilot_fixed: 'dear' is not a number",
         ),
         case(
             "a candidate empty everywhere (no pilot)",

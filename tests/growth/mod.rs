@@ -194,3 +194,58 @@ fn growing_a_pilot_that_costs_more_than_it_could_reveal_is_advised_against() {
     );
     assert!(plan(&["--no-pilot-advice"])["pilot_advice"].is_null());
 }
+
+/// The sheet's pilot fields set what growing a pilot costs and how far it can grow: the work
+/// sample's pilot (600 rows) at most 1,500 rows, at 1.00 a row and 300 to start, so its larger
+/// pilots are 1,200 and 1,500 rows costing 300 + 600 and 300 + 900.
+#[test]
+fn the_pilot_fields_of_the_cost_sheet_price_and_cap_a_bigger_pilot() {
+    let dir = super::demo_folder();
+    let costs = dir.path().join("costs.csv");
+    let sheet = std::fs::read_to_string(&costs).unwrap();
+    let mut lines = sheet.lines();
+    let mut out = format!(
+        "{},pilot_per_row,pilot_fixed,pilot_max_rows\n",
+        lines.next().unwrap()
+    );
+    for line in lines {
+        let extra = if line.starts_with("work-sample,") {
+            ",1.00,300,1500"
+        } else {
+            ",,,"
+        };
+        out.push_str(&format!("{line}{extra}\n"));
+    }
+    std::fs::write(&costs, out).unwrap();
+    let plan = json_of(
+        acquest()
+            .current_dir(dir.path())
+            .args(["plan", "--quiet", "--json", "-"]),
+    );
+    let work = plan["appraisal"]["options"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|o| o["name"] == "work-sample")
+        .unwrap();
+    let grown: Vec<u64> = work["pilot"]["growth"]["sizes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["rows"].as_u64().unwrap())
+        .collect();
+    assert_eq!(grown, [1200, 1500]);
+    let costs: Vec<(u64, f64)> = plan["pilot_advice"]["extensions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|x| x["option"] == "work-sample")
+        .map(|x| {
+            (
+                x["added_rows"].as_u64().unwrap(),
+                x["cost"].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(costs, [(600, 900.0), (900, 1200.0)]);
+}
