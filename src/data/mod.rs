@@ -757,7 +757,9 @@ fn non_finite(name: &str, row: usize, line_offset: Option<usize>, cell: &str) ->
 pub const MIN_GROUP_ROWS: usize = 20;
 
 /// A column with more than this share of missing cells is taken for a candidate feature (filled
-/// only on a pilot), not a current one, unless `--features` names it.
+/// only on a pilot), not a current one, unless `--features` names it. Where `--features` lists
+/// the current features, any other column empty on some rows is a candidate, so that a pilot may
+/// cover most rows.
 pub const CANDIDATE_MISSING_SHARE: f64 = 0.5;
 
 /// One group of the protected attribute, as formed.
@@ -1429,11 +1431,12 @@ fn choose_features<'a>(
         }
         for column in &table.columns {
             let is_listed = listed.contains(&column.name);
-            if !is_listed && column.name != target && column.name != protected {
-                let share = column.missing_count() as f64 / rows as f64;
-                if share > CANDIDATE_MISSING_SHARE {
-                    candidates.push(column);
-                }
+            if !is_listed
+                && column.name != target
+                && column.name != protected
+                && column.missing_count() > 0
+            {
+                candidates.push(column);
             }
         }
     } else {

@@ -7,6 +7,29 @@
 
 use super::{acquest, json_of, DEMO_FLAGS};
 
+/// `acquest appraise` of a file of the demo's columns (`data`) with the cost sheet `costs`, the
+/// demo's four current features named, the JSON report to `json`.
+fn appraise_demo_file(
+    data: &std::path::Path,
+    costs: &std::path::Path,
+    json: &std::path::Path,
+) -> assert_cmd::Command {
+    let mut command = acquest();
+    command
+        .args(["appraise", "--quiet", "--no-project", "--json"])
+        .arg(json)
+        .arg("--data")
+        .arg(data)
+        .arg("--costs")
+        .arg(costs)
+        .args(DEMO_FLAGS)
+        .args([
+            "--features",
+            "test_score,years_experience,region,prior_course",
+        ]);
+    command
+}
+
 /// Widths of the headline accuracy and unfairness intervals, and the predicted widths at the
 /// larger pilots, from an appraisal of `csv` with work_sample kept on `pilot` random rows.
 fn appraise_with_pilot(
@@ -37,19 +60,8 @@ fn appraise_with_pilot(
     )
     .unwrap();
     let report: acquest::report::AppraisalReport = serde_json::from_value(json_of(
-        acquest()
-            .args(["appraise", "--quiet", "--no-project", "--json", "-"])
-            .arg("--data")
-            .arg(&data)
-            .arg("--costs")
-            .arg(&costs)
-            .args(DEMO_FLAGS)
-            .args([
-                "--features",
-                "test_score,years_experience,region,prior_course",
-                "--exclude",
-                "reference_rating,postcode_digit",
-            ]),
+        appraise_demo_file(&data, &costs, std::path::Path::new("-"))
+            .args(["--exclude", "reference_rating,postcode_digit"]),
     ))
     .unwrap();
     let option = &report.options[0];
@@ -248,4 +260,143 @@ fn the_pilot_fields_of_the_cost_sheet_price_and_cap_a_bigger_pilot() {
         })
         .collect();
     assert_eq!(costs, [(600, 900.0), (900, 1200.0)]);
+}
+
+/// `csv` with each named column blanked outside its rows (data rows numbered from 0).
+fn with_pilots(csv: &str, pilots: &[(&str, &[usize])]) -> String {
+    let mut lines: Vec<String> = csv.lines().map(String::from).collect();
+    let header: Vec<String> = lines[0].split(',').map(String::from).collect();
+    for (column, rows) in pilots {
+        let c = header.iter().position(|h| h == column).unwrap();
+        let keep: std::collections::HashSet<usize> = rows.iter().copied().collect();
+        for (i, line) in lines.iter_mut().enumerate().skip(1) {
+            if !keep.contains(&(i - 1)) {
+                let mut fields: Vec<&str> = line.split(',').collect();
+                fields[c] = "";
+                *line = fields.join(",");
+            }
+        }
+    }
+    lines.join("\n") + "\n"
+}
+
+/// The predicted chance that the plan changes against the share of draws in which it did:
+/// populations of 3,000 from the demo's model with the demo's pilots (work sample 600,
+/// references 400, postcode 1,200 rows) and cost sheet, budget 20,000, plans on the summed
+/// estimates (`plan --appraisal`, as the advice's own plans are). For each feature the plan's
+/// advice predicts the chance for its pilot grown 2x; the pilot is then grown for real (its
+/// rows and as many more), appraised again, and the plan made with the budget less the extra
+/// rows' cost: did it change? The target is a predicted chance within 0.1 of the share. About
+/// two and a half minutes, so not in the suite: run with `cargo test --release -- --ignored
+/// chance_that_the_plan_changes`. Measured 2026-12-03, 30 draws: work sample 0.173 predicted
+/// against 0.233 realised, references 0.127 against 0.200, postcode 0.298 against 0.500: the
+/// target is not met for the postcode, and the advice under-states how often a plan changes (the
+/// expected intervals at the bigger pilot are too wide, so the estimate is drawn to move too
+/// little); this check fails until that is mended.
+#[test]
+#[ignore]
+fn the_chance_that_the_plan_changes_against_bigger_pilots_drawn_from_the_model() {
+    use acquest::demo::{complete_csv, draw_applicants, COSTS_CSV, DEMO_SEED, DISABLED_SHARE};
+    use acquest::engine::streams::Stream;
+    use rand::seq::SliceRandom;
+    use rand::SeedableRng;
+    let dir = tempfile::tempdir().unwrap();
+    let costs = dir.path().join("costs.csv");
+    std::fs::write(&costs, COSTS_CSV).unwrap();
+    let features = [
+        ("work-sample", "work_sample", 600),
+        ("references", "reference_rating", 400),
+        ("postcode", "postcode_digit", 1200),
+    ];
+    let draws = 30;
+    let (mut predicted, mut realised) = (vec![Vec::new(); 3], vec![Vec::new(); 3]);
+    let appraise = |csv: &str, name: &str| -> std::path::PathBuf {
+        let data = dir.path().join(format!("{name}.csv"));
+        std::fs::write(&data, csv).unwrap();
+        let out = dir.path().join(format!("{name}.json"));
+        let run = appraise_demo_file(&data, &costs, &out).output().unwrap();
+        assert!(
+            run.status.success(),
+            "{}",
+            String::from_utf8_lossy(&run.stderr)
+        );
+        out
+    };
+    let plan = |appraisal: &std::path::Path, budget: f64| {
+        json_of(
+            acquest()
+                .args(["plan", "--quiet", "--json", "-", "--appraisal"])
+                .arg(appraisal)
+                .args(["--budget", &budget.to_string()]),
+        )
+    };
+    let bought = |plan: &serde_json::Value| -> Vec<(String, u64)> {
+        plan["plan"]["items"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|i| {
+                (
+                    i["option"].as_str().unwrap().to_string(),
+                    i["new_rows"].as_u64().unwrap(),
+                )
+            })
+            .collect()
+    };
+    for d in 0..draws {
+        let people = draw_applicants(
+            3_000,
+            DEMO_SEED,
+            Stream::DemoPopulation(600 + d),
+            DISABLED_SHARE,
+        );
+        let csv = complete_csv(&people);
+        let mut rng = rand::rngs::StdRng::seed_from_u64(1_000 + d);
+        let orders: Vec<Vec<usize>> = features
+            .iter()
+            .map(|_| {
+                let mut rows: Vec<usize> = (0..3_000).collect();
+                rows.shuffle(&mut rng);
+                rows
+            })
+            .collect();
+        let pilots = |grown: Option<usize>| -> String {
+            let spec: Vec<(&str, &[usize])> = features
+                .iter()
+                .enumerate()
+                .map(|(k, (_, column, rows))| {
+                    let n = if grown == Some(k) { 2 * rows } else { *rows };
+                    (*column, &orders[k][..n])
+                })
+                .collect();
+            with_pilots(&csv, &spec)
+        };
+        let small = appraise(&pilots(None), &format!("small-{d}"));
+        let now = plan(&small, 20_000.0);
+        let extensions = now["pilot_advice"]["extensions"]
+            .as_array()
+            .unwrap()
+            .clone();
+        for (k, (name, _, rows)) in features.iter().enumerate() {
+            let Some(x) = extensions.iter().find(|x| {
+                x["option"] == *name && x["pilot_rows"].as_u64() == Some(2 * *rows as u64)
+            }) else {
+                continue;
+            };
+            predicted[k].push(x["chance_plan_changes"].as_f64().unwrap());
+            let grown = appraise(&pilots(Some(k)), &format!("grown-{d}-{k}"));
+            let after = plan(&grown, 20_000.0 - x["cost"].as_f64().unwrap());
+            realised[k].push(f64::from(u8::from(bought(&after) != bought(&now))));
+        }
+    }
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len().max(1) as f64;
+    let mut gaps = Vec::new();
+    for (k, (name, _, rows)) in features.iter().enumerate() {
+        let (p, r) = (mean(&predicted[k]), mean(&realised[k]));
+        eprintln!("{name} grown from {rows} to {} rows: predicted chance {p:.3}, realised share {r:.3} over {} draws", 2 * rows, predicted[k].len());
+        gaps.push((p - r).abs());
+    }
+    for gap in gaps {
+        assert!(gap <= 0.1, "predicted and realised differ by {gap}");
+    }
 }
