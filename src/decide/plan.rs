@@ -172,6 +172,26 @@ fn plan_on(
         })
     };
     let summary = summarise(&report, &plan, &candidates);
+    // The advice weighs plans on the summed estimates; where the plan chosen on the joint
+    // scores differs from the best on the sums, it says which plan it weighed.
+    let mut pilot_advice = pilot_advice;
+    if let Some(advice) = pilot_advice.as_mut() {
+        if !plan.buys_the_same(&additive_best) {
+            let weighed = if additive_best.items.is_empty() {
+                "nothing".to_string()
+            } else {
+                additive_best
+                    .items
+                    .iter()
+                    .map(|i| i.option.as_str())
+                    .collect::<Vec<_>>()
+                    .join(" + ")
+            };
+            advice.decision.push_str(&format!(
+                " (the best plan on the summed estimates buys {weighed}; the plan chosen on the joint scores differs)"
+            ));
+        }
+    }
     let mut warnings = report.warnings.clone();
     if problem.searches_cut_short.get() > 0 {
         warnings.push(format!(
