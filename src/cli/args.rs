@@ -113,6 +113,10 @@ pub(super) struct BacktestArgs {
     /// Random hold-outs to run [default: 3].
     #[arg(long, value_name = "N")]
     pub(super) rounds: Option<usize>,
+    /// Also grow each held feature's pilot K times (2 or 4), appraise it again, and set the
+    /// interval widths it gives against those predicted from the smaller pilot.
+    #[arg(long, value_name = "K")]
+    pub(super) check_growth: Option<usize>,
     /// Fairness measure the best option by fairness is named by: spd, di, eod or aod
     /// [default: eod]. All four are measured.
     #[arg(long, value_name = "MEASURE")]

@@ -223,6 +223,7 @@ fn run_backtest(args: BacktestArgs) -> anyhow::Result<()> {
     choices.pilot = args.pilot.or(choices.pilot);
     choices.hold_group = args.hold_group.or(choices.hold_group.take());
     choices.rounds = args.rounds.or(choices.rounds);
+    choices.check_growth = args.check_growth.or(choices.check_growth);
     let settings = Settings::from_choices(choices.clone())?;
     let backtest = acquest::settings::backtest_settings(&choices)?;
     let bar = progress_bar(args.output.quiet);

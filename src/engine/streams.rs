@@ -45,6 +45,8 @@ pub enum Stream {
     BacktestHoldOut,
     /// 7,000: a backtest's realised trials (index: round × 1,000 + repeat).
     BacktestRealised,
+    /// 8,000: the rows a backtest's narrowing check adds to each pilot (index: the round).
+    BacktestGrownPilots,
     /// A stream of a test or benchmark, by number; never used by a command.
     Check(u64),
 }
@@ -67,6 +69,7 @@ impl Stream {
             Stream::JointRescoring(mask) => 5_000 + mask,
             Stream::BacktestHoldOut => 6_000,
             Stream::BacktestRealised => 7_000,
+            Stream::BacktestGrownPilots => 8_000,
             Stream::Check(n) => n,
         }
     }

@@ -46,6 +46,48 @@ impl Appraiser {
         &self.options
     }
 
+    /// The appraisal's scorer, on `data`.
+    fn scorer<'a>(&self, data: &'a Dataset) -> Scorer<'a> {
+        Scorer {
+            data,
+            measure: self.appraisal.fairness,
+            weigh_accuracy: self.appraisal.weigh_accuracy,
+            weigh_fairness: self.appraisal.weigh_fairness,
+            confidence: self.settings.trials.confidence,
+            spread: overlap_spread(&self.settings.trials),
+        }
+    }
+
+    /// Feature option `index` valued again on `data`: the same rows and features as the
+    /// appraisal's, its candidate filled on another pilot (a grown one, in the backtest's
+    /// narrowing check). Today's curves are the appraisal's own.
+    pub fn value_feature(
+        &self,
+        index: usize,
+        data: &Dataset,
+        progress: ProgressSink,
+    ) -> Result<OptionValue> {
+        let option = &self.options[index];
+        let Acquisition::Feature { column } = &option.acquisition else {
+            return Err(crate::error::Error::Internal(format!(
+                "option '{}' is not a feature",
+                option.name
+            )));
+        };
+        let valuation = Valuation {
+            data,
+            settings: &self.settings,
+            scorer: self.scorer(data),
+            curves: &self.main,
+            now: self.now.clone(),
+            training_rows: self.training_now,
+            overall_steps: Vec::new(),
+        };
+        let mut warnings = Vec::new();
+        pilot::feature_value(&valuation, option, column, index, progress, &mut warnings)
+            .map(|(value, _)| value)
+    }
+
     /// The readings behind each option's headline estimate, in the options' order.
     pub fn readings(&self) -> &[OptionReadings] {
         &self.readings
@@ -121,8 +163,8 @@ impl Appraiser {
                 &self.settings,
                 &pilot,
                 &with_columns,
-                Stream::JointRescoring(mask),
-                "joint re-scoring",
+                (Stream::JointRescoring(mask), "joint re-scoring"),
+                at,
                 progress,
             )?;
             match &measured {
@@ -136,15 +178,9 @@ impl Appraiser {
                 }
             }
         };
-        let scorer = Scorer {
-            data,
-            measure: self.appraisal.fairness,
-            weigh_accuracy: self.appraisal.weigh_accuracy,
-            weigh_fairness: self.appraisal.weigh_fairness,
-            confidence: self.settings.trials.confidence,
-            spread: overlap_spread(&self.settings.trials),
-        };
-        let p = scorer.purchase(&self.now, &after, any_rows, 0.0, at, f64::INFINITY);
+        let p = self
+            .scorer(data)
+            .purchase(&self.now, &after, any_rows, 0.0, at, f64::INFINITY);
         Ok(Ok(JointScore {
             accuracy_gain: p.accuracy_gain,
             unfairness_reduction: p.unfairness_reduction,

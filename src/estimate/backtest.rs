@@ -341,6 +341,9 @@ pub fn run(
         })
         .collect();
     let targets = check_targets(&summary, backtest.fairness);
+    let growth_check = backtest
+        .check_growth
+        .map(|factor| growth_summary(&rounds, factor));
     let mut warnings = data.warnings.clone();
     if data.rows() < 2_000 {
         warnings.push(format!(
@@ -367,6 +370,7 @@ pub fn run(
         rounds,
         summary,
         targets,
+        growth_check,
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
     })
@@ -400,6 +404,19 @@ fn run_round(
         progress,
     )?;
     let outcomes = realise(data, &split, backtest, &options, settings, round, progress)?;
+    let mut growth_checks = match backtest.check_growth {
+        Some(factor) => {
+            let grown = grown_pilots(data, &split, backtest, factor, trials.seed, round);
+            let grown_data = reduced_dataset(data, &grown, &backtest.hold_features);
+            report
+                .options
+                .iter()
+                .enumerate()
+                .map(|(k, now)| growth_check(&appraiser, k, now, &grown_data, progress))
+                .collect::<Result<Vec<_>>>()?
+        }
+        None => vec![None; options.len()],
+    };
     let test_to_train = trials.test_fraction / (1.0 - trials.test_fraction);
     let records = options
         .iter()
@@ -434,6 +451,7 @@ fn run_round(
                 kind: option.kind(),
                 rows: option.max_rows.unwrap_or(split.kept.len()),
                 quantities,
+                growth_check: growth_checks[k].take(),
             }
         })
         .collect();
@@ -453,6 +471,130 @@ fn run_round(
         options: records,
         warnings: report.warnings,
     })
+}
+
+/// The round's pilots grown `factor` times for the narrowing check: each keeps its rows and
+/// gains kept rows outside it on which the feature is filled, drawn at random, until it holds
+/// `factor` times the filled rows it had (or every filled kept row), as collecting the feature
+/// on more records would.
+fn grown_pilots(
+    data: &Dataset,
+    split: &RoundSplit,
+    backtest: &BacktestSettings,
+    factor: usize,
+    seed: u64,
+    round: usize,
+) -> RoundSplit {
+    let mut rng = stream_rng(seed, Stream::BacktestGrownPilots, round as u64);
+    let pilots = backtest
+        .hold_features
+        .iter()
+        .zip(&split.pilots)
+        .map(|(name, pilot)| {
+            let filled = |i: &usize| {
+                data.features
+                    .iter()
+                    .find(|c| &c.name == name)
+                    .is_some_and(|c| !c.is_missing(*i))
+            };
+            let mut inside = vec![false; data.rows()];
+            for &i in pilot {
+                inside[i] = true;
+            }
+            let mut outside: Vec<usize> = split
+                .kept
+                .iter()
+                .copied()
+                .filter(|i| !inside[*i] && filled(i))
+                .collect();
+            outside.shuffle(&mut rng);
+            let had = pilot.iter().filter(|i| filled(i)).count();
+            let mut grown = pilot.clone();
+            grown.extend(outside.into_iter().take(had * (factor - 1)));
+            grown.sort_unstable();
+            grown
+        })
+        .collect();
+    RoundSplit {
+        kept: split.kept.clone(),
+        held: split.held.clone(),
+        pilots,
+    }
+}
+
+/// Option `k` of a round under the narrowing check (features only): valued again on
+/// `grown_data`, its interval widths set beside those the first appraisal predicted for a pilot
+/// of that many rows.
+fn growth_check(
+    appraiser: &appraise::Appraiser,
+    k: usize,
+    now: &OptionValue,
+    grown_data: &Dataset,
+    progress: ProgressSink,
+) -> Result<Option<GrowthCheck>> {
+    let Some(pilot) = now
+        .pilot
+        .as_ref()
+        .filter(|_| now.kind == OptionKind::Feature)
+    else {
+        return Ok(None);
+    };
+    let later = appraiser.value_feature(k, grown_data, progress)?;
+    let grown_rows = later.pilot.as_ref().map_or(0, |p| p.rows);
+    let predicted = pilot.growth.sizes.iter().find(|s| s.rows == grown_rows);
+    let width = |c: &Change| Some(c.high? - c.low?).filter(|w| w.is_finite());
+    let expected = |e: Option<&ExpectedGain>| e.map(|e| e.high - e.low);
+    Ok(Some(GrowthCheck {
+        pilot_rows: pilot.rows,
+        grown_rows,
+        accuracy: WidthCheck {
+            now: width(&now.estimate.accuracy_gain),
+            predicted: predicted.and_then(|s| expected(s.accuracy_gain.as_ref())),
+            realised: width(&later.estimate.accuracy_gain),
+        },
+        unfairness: WidthCheck {
+            now: width(&now.estimate.unfairness_reduction),
+            predicted: predicted.and_then(|s| expected(s.unfairness_reduction.as_ref())),
+            realised: width(&later.estimate.unfairness_reduction),
+        },
+    }))
+}
+
+/// The narrowing check over every round: predicted against realised widths.
+fn growth_summary(rounds: &[RoundRecord], factor: usize) -> GrowthSummary {
+    let checks: Vec<&GrowthCheck> = rounds
+        .iter()
+        .flat_map(|r| &r.options)
+        .filter_map(|o| o.growth_check.as_ref())
+        .collect();
+    let summary = |width: fn(&GrowthCheck) -> &WidthCheck| {
+        let median = |mut values: Vec<f64>| crate::stats::curve::quantile(&mut values, 0.5);
+        let pairs: Vec<(f64, f64, Option<f64>)> = checks
+            .iter()
+            .filter_map(|c| {
+                let w = width(c);
+                Some((w.predicted?, w.realised?, w.now)).filter(|p| p.1 > 0.0)
+            })
+            .collect();
+        let ratios: Vec<f64> = pairs.iter().map(|(p, r, _)| p / r).collect();
+        let within = ratios.iter().filter(|&&x| (x - 1.0).abs() <= 0.25).count();
+        WidthSummary {
+            checks: pairs.len(),
+            median_ratio: median(ratios.clone()),
+            within_25_percent: (!ratios.is_empty()).then(|| within as f64 / ratios.len() as f64),
+            median_ratio_unchanged: median(
+                pairs
+                    .iter()
+                    .filter_map(|(_, r, n)| Some(n.as_ref()? / r))
+                    .collect(),
+            ),
+        }
+    };
+    GrowthSummary {
+        factor,
+        accuracy: summary(|c| &c.accuracy),
+        unfairness: summary(|c| &c.unfairness),
+    }
 }
 
 /// The predicted change of quantity `q` from the readings' `now` to `after`.
@@ -993,6 +1135,7 @@ mod tests {
             hold_group: Some("b".into()),
             rounds: 2,
             fairness: FairnessMeasure::Eod,
+            check_growth: None,
         }
     }
 

@@ -1,7 +1,9 @@
 //! What a bigger pilot of a feature would tell: the interval of the full-size gains and the
-//! smallest effect told from zero expected at a few larger pilots.
+//! smallest effect told from zero expected at a few larger pilots; and for rows of one group,
+//! what buying part of them first would tell about the whole purchase.
 
-use crate::report::{Change, ExpectedGain, GrownPilot, PilotGrowth, Purchase};
+use crate::data::costs::CostOption;
+use crate::report::{Change, ExpectedGain, FirstPart, GrownPilot, PilotGrowth, Purchase};
 
 /// The larger pilots reported, as multiples of the pilot's rows (each capped at the most the
 /// pilot can have, which is always reported when the pilot is smaller).
@@ -54,6 +56,61 @@ pub(super) fn pilot_growth(
         })
         .collect();
     PilotGrowth { sizes: grown }
+}
+
+/// Rows of one group bought in two parts ([`FirstPart`]): at the option's steps nearest above
+/// a quarter and a half of its rows (below all of them), the headline's interval once the first
+/// part is bought and measured. `group_training(delta)` is the group's training rows in a trial
+/// after `delta` new rows; `measured` holds, for each gain, a change measured between the group
+/// curve's last two anchors, whose interval gives the part of each side a measured change keeps.
+pub(super) fn first_parts(
+    option: &CostOption,
+    steps: &[Purchase],
+    group_training: impl Fn(usize) -> f64,
+    measured: &Purchase,
+) -> Vec<FirstPart> {
+    let (Some(headline), Some(&most)) = (steps.last(), option.row_steps().last()) else {
+        return Vec::new();
+    };
+    let offered = option.row_steps();
+    let mut parts: Vec<usize> = [0.25, 0.5]
+        .iter()
+        .filter_map(|share| {
+            let target = most as f64 * share;
+            offered
+                .iter()
+                .copied()
+                .find(|&s| s as f64 >= target && s < most)
+        })
+        .collect();
+    parts.dedup();
+    let (now, all) = (group_training(0), group_training(most));
+    let distance = |from: f64| (all / from).ln().max(0.0);
+    parts
+        .into_iter()
+        .map(|rows| {
+            let after = group_training(rows);
+            let scale = Scale {
+                ratio: 1.0,
+                carried: if distance(now) > 0.0 {
+                    distance(after) / distance(now)
+                } else {
+                    0.0
+                },
+            };
+            FirstPart {
+                rows,
+                cost: option.rows_cost(rows),
+                group_training_rows: after.round() as usize,
+                accuracy_gain: scale.expected(&headline.accuracy_gain, &measured.accuracy_gain),
+                unfairness_reduction: scale.expected(
+                    &headline.unfairness_reduction,
+                    &measured.unfairness_reduction,
+                ),
+                utility: scale.expected(&headline.utility, &measured.utility),
+            }
+        })
+        .collect()
 }
 
 /// How a larger pilot scales an interval: `ratio` times the rows, and `carried`, the share of
@@ -131,6 +188,63 @@ mod tests {
         let side = (0.0013f64 / 4.0).sqrt();
         assert!((e.low - (0.10 - side)).abs() < 1e-12 && (e.high - (0.10 + side)).abs() < 1e-12);
         assert!(whole.expected(&Change::not_measured(), &h).is_none());
+    }
+
+    #[test]
+    fn a_first_part_keeps_the_measured_noise_and_narrows_the_rest_with_the_distance_left() {
+        // Worked by hand. 1,000 rows of one group on offer in steps of 250 at 2 a row and 100
+        // fixed; the group's training rows today 300, so 300 × (1,000 + d)/1,000 after d rows:
+        // 375 after the first quarter, 450 after half, 600 after all. Log distance left after
+        // 250: ln(600/375) / ln(600/300) = ln 1.6 / ln 2.
+        let option = CostOption {
+            name: "more".into(),
+            acquisition: crate::report::Acquisition::Rows {
+                filter: Some(("g".into(), "b".into())),
+            },
+            per_row: 2.0,
+            fixed: 100.0,
+            max_rows: Some(1000),
+            step: Some(250),
+            sensitive: false,
+            note: String::new(),
+            pilot: Default::default(),
+        };
+        let mut headline = crate::estimate::score::empty_purchase();
+        headline.accuracy_gain = change(0.02, 0.0, 0.05);
+        headline.unfairness_reduction = Change::not_measured();
+        let mut measured = crate::estimate::score::empty_purchase();
+        measured.accuracy_gain = change(0.01, 0.0, 0.02);
+        let parts = first_parts(
+            &option,
+            &[headline],
+            |d| 300.0 * (1000 + d) as f64 / 1000.0,
+            &measured,
+        );
+        let rows: Vec<usize> = parts.iter().map(|p| p.rows).collect();
+        assert_eq!(rows, [250, 500]);
+        assert_eq!((parts[0].cost, parts[0].group_training_rows), (600.0, 375));
+        // Down side 0.02, of which 0.01 a measured change keeps: √(0.01² + (0.02² − 0.01²)c²);
+        // up side 0.03: √(0.01² + (0.03² − 0.01²)c²).
+        let c = 1.6f64.ln() / 2f64.ln();
+        let e = parts[0].accuracy_gain.clone().unwrap();
+        let down = (0.0001 + 0.0003 * c * c).sqrt();
+        let up = (0.0001 + 0.0008 * c * c).sqrt();
+        assert!((e.low - (0.02 - down)).abs() < 1e-12 && (e.high - (0.02 + up)).abs() < 1e-12);
+        // After half: ln(600/450)/ln 2 of the distance left, narrower still.
+        assert!(parts[1].accuracy_gain.clone().unwrap().high < e.high);
+        assert!(parts[0].unfairness_reduction.is_none());
+        // Sold in one lot: no first part.
+        let one_lot = CostOption {
+            step: None,
+            ..option
+        };
+        assert!(first_parts(
+            &one_lot,
+            &[crate::estimate::score::empty_purchase()],
+            |d| d as f64,
+            &measured
+        )
+        .is_empty());
     }
 
     #[test]

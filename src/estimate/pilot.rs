@@ -59,16 +59,16 @@ pub(super) fn feature_value(
     }
     let mix = metrics::chi_square_independence(&table);
 
+    let training_now = training_at(0);
     let measured = measure_pilot(
         data,
         settings,
         &pilot,
         &with_columns,
-        stream,
-        "pilot curves",
+        (stream, "pilot curves"),
+        training_now,
         progress,
     )?;
-    let training_now = training_at(0);
     let mut flags = Vec::new();
     // The with-minus-without difference at the pilot's full size (the last anchor), and at any
     // training size: its fitted curve, or that last difference carried over unchanged.
@@ -137,7 +137,7 @@ pub(super) fn feature_value(
         &estimate,
         &anchor_only,
     );
-    let pilot_summary = pilot_summary(
+    let mut pilot_summary = pilot_summary(
         data,
         scorer,
         &pilot,
@@ -146,6 +146,7 @@ pub(super) fn feature_value(
         matches!(measured, PilotMeasurement::Curves { .. }),
         growth,
     );
+    pilot_summary.curves = measured.curves(scorer.measure);
     let readings = OptionReadings {
         now: now.clone(),
         after: anchored(&full.read(training_now), &difference_at(training_now)),
@@ -184,6 +185,7 @@ pub(super) fn feature_value(
         steps,
         direct,
         pilot: Some(pilot_summary),
+        first_parts: Vec::new(),
         flags,
     };
     Ok((value, readings))
@@ -214,6 +216,35 @@ impl PilotMeasurement {
             PilotMeasurement::Curves { without, with, .. } => (&without.outcomes, &with.outcomes),
             PilotMeasurement::AtPilotSize { without, with, .. } => (without, with),
         }
+    }
+
+    /// The pilot's curves as reports show them: accuracy and the fairness measure `measure`
+    /// without and with the candidate (`None` without curves, or where accuracy has no fit).
+    fn curves(&self, measure: FairnessMeasure) -> Option<PilotCurves> {
+        let PilotMeasurement::Curves { without, with, .. } = self else {
+            return None;
+        };
+        let accuracy = |m: &learning::MeasuredCurves| {
+            m.fitted
+                .curves
+                .iter()
+                .find(|c| c.quantity == "accuracy" && c.chosen.is_some())
+                .cloned()
+        };
+        let disparity = |m: &learning::MeasuredCurves| {
+            m.fitted
+                .disparities
+                .iter()
+                .filter(|d| d.measure == measure.full_name())
+                .cloned()
+                .collect()
+        };
+        Some(PilotCurves {
+            accuracy_without: accuracy(without)?,
+            accuracy_with: accuracy(with)?,
+            disparity_without: disparity(without),
+            disparity_with: disparity(with),
+        })
     }
 
     /// The with-minus-without difference measured at the pilot's full size (the last anchor).
@@ -252,14 +283,15 @@ fn pilot_groups(data: &Dataset, pilot: &[usize]) -> String {
         .join(", ")
 }
 
-/// Measures `with_columns` against today's features on the `pilot` rows (stream `stream`).
+/// Measures `with_columns` against today's features on the `pilot` rows (on `stream`, shown
+/// as `stage` in progress), its curves read out to `reach` training rows for charts.
 pub(super) fn measure_pilot(
     data: &Dataset,
     settings: &Settings,
     pilot: &[usize],
     with_columns: &[Column],
-    stream: Stream,
-    stage: &'static str,
+    (stream, stage): (Stream, &'static str),
+    reach: f64,
     progress: ProgressSink,
 ) -> Result<PilotMeasurement> {
     let trials = &settings.trials;
@@ -270,7 +302,7 @@ pub(super) fn measure_pilot(
         stage,
         smallest: None,
     };
-    match learning::measure_curves(data, settings, &plan, &|_| Vec::new(), progress) {
+    match learning::measure_curves(data, settings, &plan, &|_| vec![reach], progress) {
         Ok(mut measured) => {
             let with = measured.swap_remove(1);
             let without = measured.swap_remove(0);
@@ -447,5 +479,6 @@ fn pilot_summary(
         size_anova_p: metrics::one_way_anova(&per_size).map(|a| a.1),
         extrapolated,
         growth,
+        curves: None,
     }
 }

@@ -5,12 +5,13 @@ use super::score::{empty_purchase, option_flags, OptionReadings, Valuation};
 use crate::data::costs::CostOption;
 use crate::data::Dataset;
 use crate::engine::streams::{stream_rng, Stream};
-use crate::engine::trial::{self, Arm, ProgressSink, Rows, Sizes, TrialDesign};
+use crate::engine::trial::{self, Arm, ProgressSink, Rows, Sizes, TrialDesign, TrialOutcome};
 use crate::error::{Error, Result};
 use crate::estimate::baseline;
 use crate::estimate::learning::{self, FittedCurves};
 use crate::report::*;
 use crate::settings::Settings;
+use crate::stats::{fairness, metrics};
 
 fn rows_value(
     option: &CostOption,
@@ -30,11 +31,11 @@ fn rows_value(
         steps,
         direct: None,
         pilot: None,
+        first_parts: Vec::new(),
     }
 }
 
-/// Curves in which only group `g`'s training rows grow. Returns the curves (over g's training
-/// count), their largest size, and g's training count today.
+/// Curves in which only group `g`'s training rows grow, and the trials behind them.
 fn group_curves(
     data: &Dataset,
     settings: &Settings,
@@ -42,7 +43,7 @@ fn group_curves(
     stream: Stream,
     progress: ProgressSink,
     warnings: &mut Vec<String>,
-) -> Result<(FittedCurves, f64, f64)> {
+) -> Result<GroupCurves> {
     let trials = &settings.trials;
     let all_rows: Vec<usize> = (0..data.rows()).collect();
     // Repeat 0's split, cut to the cap as the trials cut it: the group's rows there give the
@@ -106,8 +107,71 @@ fn group_curves(
         trials.seed,
         &baseline::label_counts(data),
     );
-    let largest = fitted.largest() as f64;
-    Ok((fitted, largest, m_today as f64))
+    Ok(GroupCurves {
+        largest: fitted.largest() as f64,
+        fitted,
+        today: m_today as f64,
+        outcomes,
+    })
+}
+
+/// A group's own curves (over its training count), with their trials.
+struct GroupCurves {
+    fitted: FittedCurves,
+    /// The largest size measured.
+    largest: f64,
+    /// The group's training count today.
+    today: f64,
+    /// The trials, `[repeat][size]`.
+    outcomes: Vec<Vec<TrialOutcome>>,
+}
+
+/// A change measured rather than extrapolated: per repeat, from the second-last anchor of
+/// curves whose trials are `outcomes` (`[repeat][size]`) to the last, the accuracy gain, the
+/// unfairness reduction and the utility, each with the interval of the corrected resampled
+/// t-test (Nadeau and Bengio 2003) over repeats, as the changes of a purchase.
+fn measured_change(v: &Valuation, outcomes: &[Vec<TrialOutcome>]) -> Purchase {
+    let s = &v.scorer;
+    let pairs: Vec<(&TrialOutcome, &TrialOutcome)> = outcomes
+        .iter()
+        .filter_map(|r| match r.len() {
+            n if n >= 2 => Some((&r[n - 2], &r[n - 1])),
+            _ => None,
+        })
+        .collect();
+    let unfairness =
+        |t: &TrialOutcome| fairness::worst_of_counts(s.measure, &t.counts, v.data.reference);
+    let accuracy: Vec<f64> = pairs.iter().map(|(a, b)| b.accuracy - a.accuracy).collect();
+    let reduction: Vec<Option<f64>> = pairs
+        .iter()
+        .map(|(a, b)| Some(unfairness(a)? - unfairness(b)?))
+        .collect();
+    let utility: Vec<f64> = accuracy
+        .iter()
+        .zip(&reduction)
+        .filter_map(|(a, r)| Some(s.weigh_accuracy * a + s.weigh_fairness * (*r)?))
+        .collect();
+    let test_to_train = pairs.last().map_or(0.0, |(_, b)| {
+        b.test_rows as f64 / b.train_rows.max(1) as f64
+    });
+    let change = |values: &[f64]| {
+        metrics::estimate(values, s.confidence, test_to_train, Some(0.0)).map_or_else(
+            Change::not_measured,
+            |e| Change {
+                mean: e.mean,
+                low: e.low,
+                high: e.high,
+                p_value: e.p_value,
+                chance_positive: None,
+                widened_to_point: false,
+            },
+        )
+    };
+    let mut p = empty_purchase();
+    p.accuracy_gain = change(&accuracy);
+    p.unfairness_reduction = change(&reduction.into_iter().flatten().collect::<Vec<_>>());
+    p.utility = change(&utility);
+    p
 }
 
 /// More rows of any group: today's curves read at the training rows each step gives.
@@ -155,7 +219,7 @@ pub(super) fn group_rows_option(
         .iter()
         .position(|x| x.name == value)
         .unwrap_or(0);
-    let (group_curves, group_largest, m_now) = group_curves(
+    let curves = group_curves(
         data,
         v.settings,
         g,
@@ -163,6 +227,7 @@ pub(super) fn group_rows_option(
         progress,
         warnings,
     )?;
+    let (group_curves, group_largest, m_now) = (&curves.fitted, curves.largest, curves.today);
     let group_rows = data.groups.iter().filter(|&&x| x as usize == g).count() as f64;
     let now_g = group_curves.read(m_now);
     let most = option.row_steps().last().copied().unwrap_or(0) as f64;
@@ -191,5 +256,12 @@ pub(super) fn group_rows_option(
         .collect();
     let confidence = v.settings.trials.confidence;
     let target = Some(format!("{column}={value}"));
-    Ok((rows_value(option, target, steps, confidence), readings))
+    let mut value = rows_value(option, target, steps, confidence);
+    value.first_parts = super::growth::first_parts(
+        option,
+        &value.steps,
+        |delta| m_now * (group_rows + delta as f64) / group_rows,
+        &measured_change(v, &curves.outcomes),
+    );
+    Ok((value, readings))
 }

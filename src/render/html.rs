@@ -10,7 +10,7 @@ use super::{
     advice_sentence, candidate_rows, change_cell, money, plan_unfairness, signed, thousands,
     today_source, whole_plan,
 };
-use crate::report::{AppraisalReport, Change, PlanReport};
+use crate::report::{AppraisalReport, Change, ExpectedGain, OptionValue, PlanReport};
 
 /// The options' gains side by side as dot-and-whisker charts, ranked as in the report.
 pub(super) fn options_charts(a: &AppraisalReport) -> String {
@@ -38,50 +38,85 @@ pub(super) fn options_charts(a: &AppraisalReport) -> String {
 
 /// One feature's full-size intervals today and as expected at its larger pilots
 /// ([`crate::report::PilotGrowth`]), for accuracy and unfairness, as dot-and-whisker charts.
-pub(super) fn growth_charts(o: &crate::report::OptionValue, level: f64) -> String {
+pub(super) fn growth_charts(o: &OptionValue, level: f64) -> String {
     let Some(pilot) = &o.pilot else {
         return String::new();
     };
-    let chart =
-        |title: &str,
-         now: &Change,
-         then: fn(&crate::report::GrownPilot) -> &Option<crate::report::ExpectedGain>| {
-            let mut rows = vec![(
-                format!("pilot of {} (now)", thousands(pilot.rows)),
-                now.clone(),
-            )];
-            rows.extend(pilot.growth.sizes.iter().filter_map(|s| {
-                then(s).as_ref().map(|e| {
-                    (
-                        format!("pilot of {}", thousands(s.rows)),
-                        Change {
-                            mean: now.mean,
-                            low: Some(e.low),
-                            high: Some(e.high),
-                            p_value: None,
-                            chance_positive: None,
-                            widened_to_point: false,
-                        },
-                    )
-                })
-            }));
-            if rows.len() < 2 || !now.is_measured() {
-                return String::new();
-            }
-            options_chart(
-                &format!("{title} of '{}' by pilot size ({level}% interval)", o.name),
-                &rows,
+    let later = pilot
+        .growth
+        .sizes
+        .iter()
+        .map(|s| {
+            (
+                format!("pilot of {}", thousands(s.rows)),
+                [s.accuracy_gain.as_ref(), s.unfairness_reduction.as_ref()],
             )
-        };
+        })
+        .collect();
+    expected_charts(
+        o,
+        format!("pilot of {} (now)", thousands(pilot.rows)),
+        later,
+        "by pilot size",
+        level,
+    )
+}
+
+/// Rows of one group: the whole purchase's intervals today and as expected once a first part
+/// is bought ([`crate::report::FirstPart`]), as dot-and-whisker charts.
+pub(super) fn first_parts_charts(o: &OptionValue, level: f64) -> String {
+    let later = o
+        .first_parts
+        .iter()
+        .map(|p| {
+            (
+                format!("after the first {}", thousands(p.rows)),
+                [p.accuracy_gain.as_ref(), p.unfairness_reduction.as_ref()],
+            )
+        })
+        .collect();
+    if !super::first_parts_narrow(o) {
+        return String::new();
+    }
+    expected_charts(o, "now".into(), later, "bought in two parts", level)
+}
+
+/// An option's headline accuracy and unfairness intervals (labelled `now`) beside intervals
+/// expected later (`later`: a label, and the expected accuracy and unfairness intervals about
+/// the same points), as two dot-and-whisker charts titled with `how`.
+fn expected_charts(
+    o: &OptionValue,
+    now: String,
+    later: Vec<(String, [Option<&ExpectedGain>; 2])>,
+    how: &str,
+    level: f64,
+) -> String {
+    let chart = |title: &str, headline: &Change, k: usize| {
+        let mut rows = vec![(now.clone(), headline.clone())];
+        rows.extend(later.iter().filter_map(|(label, expected)| {
+            expected[k].map(|e| {
+                (
+                    label.clone(),
+                    Change {
+                        mean: headline.mean,
+                        low: Some(e.low),
+                        high: Some(e.high),
+                        p_value: None,
+                        chance_positive: None,
+                        widened_to_point: false,
+                    },
+                )
+            })
+        }));
+        if rows.len() < 2 || !headline.is_measured() {
+            return String::new();
+        }
+        options_chart(&format!("{title} {how} ({level}% interval)"), &rows)
+    };
     format!(
         "<div class=\"charts\">\n{}{}</div>\n",
-        chart("Accuracy gain", &o.estimate.accuracy_gain, |s| &s
-            .accuracy_gain),
-        chart(
-            "Unfairness reduction",
-            &o.estimate.unfairness_reduction,
-            |s| &s.unfairness_reduction
-        )
+        chart("Accuracy gain", &o.estimate.accuracy_gain, 0),
+        chart("Unfairness reduction", &o.estimate.unfairness_reduction, 1)
     )
 }
 

@@ -122,6 +122,23 @@ fn p_value(p: Option<f64>) -> String {
     }
 }
 
+/// Whether buying part of a group's rows first would narrow any of the whole purchase's
+/// intervals by at least 5% of its width (else the reports say that it would not).
+fn first_parts_narrow(o: &crate::report::OptionValue) -> bool {
+    let width = |c: &Change| Some(c.high? - c.low?);
+    o.first_parts.iter().any(|p| {
+        [
+            (&o.estimate.accuracy_gain, &p.accuracy_gain),
+            (&o.estimate.unfairness_reduction, &p.unfairness_reduction),
+        ]
+        .iter()
+        .any(|(now, then)| match (width(now), then) {
+            (Some(w), Some(e)) => e.high - e.low < 0.95 * w,
+            _ => false,
+        })
+    })
+}
+
 /// The plan's advice on growing a pilot first, as a sentence: "Decide now: ..." or "First grow
 /// pilot ...", with the extension's figures; `None` where the plan was made without it.
 fn advice_sentence(report: &PlanReport) -> Option<String> {

@@ -7,7 +7,7 @@ use super::document::escape;
 
 use crate::report::{
     AnchorPoint, CurvePoint, CurveRecord, CurveSchedule, CurvesReport, DisparityCurve,
-    GroupSummary, Inputs, ReferenceGroup,
+    GroupSummary, Inputs, OptionValue, ReferenceGroup, Today,
 };
 
 const PALETTE: [&str; 6] = [
@@ -19,6 +19,18 @@ const MARGIN_LEFT: f64 = 62.0;
 const MARGIN_RIGHT: f64 = 16.0;
 const MARGIN_TOP: f64 = 64.0;
 const MARGIN_BOTTOM: f64 = 46.0;
+
+/// The charts' text and line styles.
+const STYLE: &str = "<style>.title{font-size:14px;font-weight:bold;fill:#222}.tick{font-size:10px;fill:#444}\
+     .axis{font-size:11px;fill:#333}.legend{font-size:11px;fill:#222}.note{font-size:10px;fill:#777}\
+     .grid{stroke:#e6e6e6;stroke-width:1}.marker{stroke:#888;stroke-width:1;stroke-dasharray:3 3}</style>\n";
+
+/// The start of an SVG document of `width` × `height`: its styles and background.
+fn svg_opening(width: f64, height: f64) -> String {
+    format!(
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{width:.0}\" height=\"{height:.0}\" viewBox=\"0 0 {width:.0} {height:.0}\" font-family=\"Helvetica, Arial, sans-serif\">\n{STYLE}<rect width=\"100%\" height=\"100%\" fill=\"#fafafa\"/>\n"
+    )
+}
 
 /// One line on a panel.
 struct Series<'a> {
@@ -59,14 +71,9 @@ pub(super) fn tick_step(span: f64) -> f64 {
         .unwrap_or(10.0 * power)
 }
 
-fn draw_panel(
-    out: &mut String,
-    panel: &Panel,
-    left: f64,
-    top: f64,
-    reliable_up_to: f64,
-    largest: f64,
-) {
+/// Draws one panel at (`left`, `top`), with a dashed vertical line at each of `markers` (a
+/// size and its label) that falls inside the plot.
+fn draw_panel(out: &mut String, panel: &Panel, left: f64, top: f64, markers: &[(f64, &str)]) {
     let (plot_left, plot_top) = (left + MARGIN_LEFT, top + MARGIN_TOP);
     let plot_width = PANEL_WIDTH - MARGIN_LEFT - MARGIN_RIGHT;
     let plot_height = PANEL_HEIGHT - MARGIN_TOP - MARGIN_BOTTOM;
@@ -113,6 +120,8 @@ fn draw_panel(
         .fold(f64::NEG_INFINITY, f64::max)
         .log10()
         .max(x_min + 0.1);
+    // A little room right of the last size, so a point drawn there shows whole.
+    let x_max = x_max + (x_max - x_min) * 0.02;
     let mut y_min = ys.iter().copied().fold(f64::INFINITY, f64::min);
     let mut y_max = ys.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     if y_max - y_min < 1e-6 {
@@ -176,11 +185,7 @@ fn draw_panel(
         plot_top + plot_height / 2.0,
         escape(&panel.y_label)
     );
-    // Where extrapolation stops being reliable, and where the data ends.
-    for (n, label) in [
-        (largest, "all rows now"),
-        (reliable_up_to, "4x: unreliable beyond"),
-    ] {
+    for &(n, label) in markers {
         if n.log10() <= x_max + 1e-9 && n.log10() >= x_min {
             let x = px(n);
             // Labels go left of the line, inside the plot.
@@ -389,20 +394,7 @@ pub fn curve_chart(set: &CurveSet) -> String {
     let rows = (panels.len() as f64 / columns).ceil();
     let width = PANEL_WIDTH * columns;
     let height = PANEL_HEIGHT * rows + 56.0;
-    let mut out = String::new();
-    let _ = writeln!(
-        out,
-        r#"<svg xmlns="http://www.w3.org/2000/svg" width="{width:.0}" height="{height:.0}" viewBox="0 0 {width:.0} {height:.0}" font-family="Helvetica, Arial, sans-serif">"#
-    );
-    out.push_str(
-        "<style>.title{font-size:14px;font-weight:bold;fill:#222}.tick{font-size:10px;fill:#444}\
-         .axis{font-size:11px;fill:#333}.legend{font-size:11px;fill:#222}.note{font-size:10px;fill:#777}\
-         .grid{stroke:#e6e6e6;stroke-width:1}.marker{stroke:#888;stroke-width:1;stroke-dasharray:3 3}</style>\n",
-    );
-    let _ = writeln!(
-        out,
-        r##"<rect width="100%" height="100%" fill="#fafafa"/>"##
-    );
+    let mut out = svg_opening(width, height);
     let _ = writeln!(
         out,
         r#"<text x="10" y="22" class="title">Learning curves: {} ({} model, {} repeats)</text>"#,
@@ -419,17 +411,161 @@ pub fn curve_chart(set: &CurveSet) -> String {
     for (i, panel) in panels.iter().enumerate() {
         let left = (i % 2) as f64 * PANEL_WIDTH;
         let top = 48.0 + (i / 2) as f64 * PANEL_HEIGHT;
-        draw_panel(
-            &mut out,
-            panel,
-            left,
-            top,
-            report.schedule.reliable_up_to,
-            largest,
-        );
+        // Where the data ends, and where extrapolation stops being reliable.
+        let markers = [
+            (largest, "all rows now"),
+            (report.schedule.reliable_up_to, "4x: unreliable beyond"),
+        ];
+        draw_panel(&mut out, panel, left, top, &markers);
     }
     out.push_str("</svg>\n");
     out
+}
+
+/// A feature's pilot curves as one SVG of two panels: accuracy without and with the candidate
+/// (dashed where extrapolated, out to today's training rows), with today's accuracy and the
+/// option's estimate at today's rows (its interval as a bar); and the fairness measure the
+/// utility counts, per compared group, without and with. Empty where the pilot has no curves.
+pub fn pilot_curves_svg<'a>(
+    option: &'a OptionValue,
+    today: &Today,
+    reference: &str,
+    confidence: f64,
+) -> String {
+    let Some(pilot) = &option.pilot else {
+        return String::new();
+    };
+    let Some(curves) = &pilot.curves else {
+        return String::new();
+    };
+    let (without_colour, with_colour, today_colour) = (5, 0, 1);
+    let today_size = today.training_rows;
+    let point = |mean: f64, low: f64, high: f64| AnchorPoint {
+        size: today_size,
+        mean,
+        std_dev: None,
+        min: low,
+        max: high,
+        repeats: 0,
+    };
+    let now = [point(today.accuracy, today.accuracy, today.accuracy)];
+    let gain = &option.estimate.accuracy_gain;
+    let estimate: Vec<AnchorPoint> = gain
+        .is_measured()
+        .then(|| {
+            point(
+                today.accuracy + gain.mean,
+                today.accuracy + gain.low.unwrap_or(gain.mean),
+                today.accuracy + gain.high.unwrap_or(gain.mean),
+            )
+        })
+        .into_iter()
+        .collect();
+    let column = option.target.as_deref().unwrap_or(&option.name);
+    let curve = |name: String, colour: usize, c: &'a CurveRecord| Series {
+        name,
+        colour,
+        anchors: &c.anchors,
+        grid: &c.grid,
+        reference_level: None,
+    };
+    let mut accuracy = vec![
+        curve(
+            "pilot without".into(),
+            without_colour,
+            &curves.accuracy_without,
+        ),
+        curve(
+            format!("pilot with '{column}'"),
+            with_colour,
+            &curves.accuracy_with,
+        ),
+        Series {
+            name: "today".into(),
+            colour: today_colour,
+            anchors: &now,
+            grid: &[],
+            reference_level: None,
+        },
+    ];
+    if !estimate.is_empty() {
+        accuracy.push(Series {
+            name: format!("today + '{column}' (estimate)"),
+            colour: 2,
+            anchors: &estimate,
+            grid: &[],
+            reference_level: None,
+        });
+    }
+    let several = curves.disparity_with.len() > 1;
+    let arm = |label: &str, group: &str| {
+        if several {
+            format!("{label}, '{group}'")
+        } else {
+            label.to_string()
+        }
+    };
+    let mut disparity = Vec::new();
+    for (curves, label, colour) in [
+        (&curves.disparity_without, "pilot without", without_colour),
+        (&curves.disparity_with, "pilot with", with_colour),
+    ] {
+        for (k, d) in curves.iter().enumerate() {
+            disparity.push(Series {
+                name: arm(label, &d.group),
+                colour: colour + 3 * k,
+                anchors: &d.anchors,
+                grid: &d.grid,
+                reference_level: None,
+            });
+        }
+    }
+    let measure = curves
+        .disparity_with
+        .first()
+        .map_or("fairness measure", |d| d.measure.as_str());
+    let panels = [
+        Panel {
+            title: format!("Accuracy on the pilot of '{}'", option.name),
+            y_label: "accuracy".into(),
+            series: accuracy,
+        },
+        Panel {
+            title: format!("{} vs {reference} on the pilot", capitalised(measure)),
+            y_label: measure.into(),
+            series: disparity,
+        },
+    ];
+    let pilot_top = curves
+        .accuracy_with
+        .anchors
+        .last()
+        .map_or(pilot.training_rows, |a| a.size) as f64;
+    let markers = [
+        (today_size as f64, "today's rows"),
+        (pilot_top, "pilot's rows"),
+    ];
+    let width = PANEL_WIDTH * 2.0;
+    let height = PANEL_HEIGHT + 30.0;
+    let mut out = svg_opening(width, height);
+    let _ = writeln!(
+        out,
+        r#"<text x="10" y="18" class="note">dots: mean at each pilot size, bars: range over repeats; dashed: the pilot's curve extrapolated; at today's rows, the estimate's bar is its {:.0}% interval (today's curve plus the pilot's fitted difference)</text>"#,
+        confidence * 100.0
+    );
+    for (i, panel) in panels.iter().enumerate() {
+        draw_panel(&mut out, panel, i as f64 * PANEL_WIDTH, 24.0, &markers);
+    }
+    out.push_str("</svg>\n");
+    out
+}
+
+/// The text with its first letter in capitals.
+fn capitalised(text: &str) -> String {
+    let mut chars = text.chars();
+    chars.next().map_or_else(String::new, |first| {
+        first.to_uppercase().chain(chars).collect()
+    })
 }
 
 #[cfg(test)]

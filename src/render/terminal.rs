@@ -473,6 +473,10 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
                 change_cell(&direct.accuracy_gain, confidence),
                 change_cell(&direct.unfairness_reduction, confidence)));
         }
+        d.chart(
+            None,
+            super::svg::pilot_curves_svg(o, &report.today, &report.reference.name, confidence),
+        );
         growth_table(&mut d, o, &p.growth);
         d.chart(
             None,
@@ -522,6 +526,11 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
             ]);
         }
         d.table(t);
+        first_parts_table(&mut d, o);
+        d.chart(
+            None,
+            super::html::first_parts_charts(o, (confidence * 100.0).round()),
+        );
     }
 
     if !report.held_features.is_empty() {
@@ -804,6 +813,9 @@ pub fn backtest_document(report: &crate::report::BacktestReport) -> Document {
         d.note(format!(
 "Nominal coverage {:.0}%. The realised value is itself measured with noise, so even exact intervals cover it less often than nominal; in brackets, the coverage with that noise allowed for.", summary.nominal_coverage * 100.0));
     }
+    if let Some(g) = &report.growth_check {
+        growth_check_section(&mut d, report, g);
+    }
     d.heading("Targets");
     for t in &report.targets {
         d.note(format!(
@@ -821,6 +833,64 @@ pub fn backtest_document(report: &crate::report::BacktestReport) -> Document {
     d.list("Methods", &methods);
     warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
     d
+}
+
+/// The backtest's narrowing check: each held feature's interval widths at its pilot, predicted
+/// for the grown pilot, and given by it, round by round, with the summary.
+fn growth_check_section(
+    d: &mut Document,
+    report: &crate::report::BacktestReport,
+    g: &crate::report::GrowthSummary,
+) {
+    d.heading(format!(
+        "The narrowing check: each held feature's pilot grown {} times and appraised again (interval widths, pp)",
+        g.factor
+    ));
+    let mut t = Table::new(&[
+        "round",
+        "option",
+        "pilot rows",
+        "grown rows",
+        "accuracy: now",
+        "predicted",
+        "realised",
+        "unfairness: now",
+        "predicted",
+        "realised",
+    ]);
+    let pp = |w: Option<f64>| w.map_or("n/a".into(), |w| format!("{:.2}", w * 100.0));
+    for r in &report.rounds {
+        for o in &r.options {
+            let Some(c) = &o.growth_check else { continue };
+            t.row(vec![
+                r.round.to_string(),
+                o.option.clone(),
+                thousands(c.pilot_rows),
+                thousands(c.grown_rows),
+                pp(c.accuracy.now),
+                pp(c.accuracy.predicted),
+                pp(c.accuracy.realised),
+                pp(c.unfairness.now),
+                pp(c.unfairness.predicted),
+                pp(c.unfairness.realised),
+            ]);
+        }
+    }
+    d.table(t);
+    for (name, w) in [
+        ("accuracy gain", &g.accuracy),
+        ("unfairness reduction", &g.unfairness),
+    ] {
+        let ratio = |x: Option<f64>| x.map_or("n/a".into(), |x| format!("{x:.2}"));
+        d.note(format!(
+            "{name}: predicted / realised width, median {} over {} checks ({} within 25%); had no narrowing been predicted, {}",
+            ratio(w.median_ratio),
+            w.checks,
+            w.within_25_percent
+                .map_or("n/a".into(), |s| format!("{:.0}%", s * 100.0)),
+            ratio(w.median_ratio_unchanged)
+        ));
+    }
 }
 
 /// "0.8512 [0.8490, 0.8534]" for a point on a curve, with "!" when beyond the reliable reach.
@@ -860,6 +930,62 @@ fn plain_warnings_and_cautions(out: &mut String, warnings: &[String], cautions: 
     out.push_str(&d.plain());
 }
 
+/// Rows of one group bought in two parts: one row per first part, the whole purchase's
+/// expected intervals once it is measured, and the smallest effects they could tell from zero.
+fn first_parts_table(d: &mut Document, o: &crate::report::OptionValue) {
+    if o.first_parts.is_empty() {
+        return;
+    }
+    if !super::first_parts_narrow(o) {
+        d.note(
+            "bought in two parts: a first part would not narrow the interval of the whole purchase (a change measured at this size is as uncertain as today's estimate)",
+        );
+        return;
+    }
+    d.note(format!(
+        "bought in two parts: the interval of all {} rows' gains once the first part is bought and measured; each side keeps what a measured change has (from the group curve's last two anchors) and the rest narrows with the distance left to extrapolate",
+        thousands(o.estimate.new_rows)
+    ));
+    let mut t = Table::new(&[
+        "first part",
+        "cost",
+        "group training rows",
+        "accuracy gain",
+        "told from zero above",
+        "unfairness reduction",
+        "told from zero above",
+    ]);
+    for p in &o.first_parts {
+        let (accuracy, accuracy_told) =
+            expected_cells(o.estimate.accuracy_gain.mean, &p.accuracy_gain);
+        let (fairness, fairness_told) = expected_cells(
+            o.estimate.unfairness_reduction.mean,
+            &p.unfairness_reduction,
+        );
+        t.row(vec![
+            format!("{} rows", thousands(p.rows)),
+            money(p.cost),
+            thousands(p.group_training_rows),
+            accuracy,
+            accuracy_told,
+            fairness,
+            fairness_told,
+        ]);
+    }
+    d.table(t);
+}
+
+/// An expected interval about `mean`, and the smallest effect it tells from zero.
+fn expected_cells(mean: f64, e: &Option<crate::report::ExpectedGain>) -> (String, String) {
+    match e {
+        Some(e) => (
+            format!("{mean:+.4} [{:+.4}, {:+.4}]", e.low, e.high),
+            format!("{:.4}", e.detectable),
+        ),
+        None => ("not measured".into(), "n/a".into()),
+    }
+}
+
 /// What a bigger pilot of a feature would be expected to tell: one row per larger pilot, the
 /// full-size gains' expected intervals and the smallest effects it could tell from zero.
 fn growth_table(d: &mut Document, o: &crate::report::OptionValue, g: &crate::report::PilotGrowth) {
@@ -877,13 +1003,7 @@ fn growth_table(d: &mut Document, o: &crate::report::OptionValue, g: &crate::rep
         "unfairness reduction",
         "told from zero above",
     ]);
-    let interval = |mean: f64, e: &Option<crate::report::ExpectedGain>| match e {
-        Some(e) => (
-            format!("{mean:+.4} [{:+.4}, {:+.4}]", e.low, e.high),
-            format!("{:.4}", e.detectable),
-        ),
-        None => ("not measured".into(), "n/a".into()),
-    };
+    let interval = expected_cells;
     for s in &g.sizes {
         let (accuracy, accuracy_told) = interval(o.estimate.accuracy_gain.mean, &s.accuracy_gain);
         let (fairness, fairness_told) = interval(

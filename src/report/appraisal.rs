@@ -272,6 +272,27 @@ pub struct PilotSummary {
     /// added).
     #[serde(default)]
     pub growth: PilotGrowth,
+    /// The pilot's own learning curves without and with the candidate, drawn out to today's
+    /// training rows; `null` where the pilot was too small for curves (and in reports written
+    /// before they were added).
+    #[serde(default)]
+    pub curves: Option<PilotCurves>,
+}
+
+/// A pilot's learning curves without and with the candidate (the same splits, paired), read
+/// out to today's training rows: accuracy, and the fairness measure the utility counts for
+/// every compared group. The option's estimate is not read off these: it is today's curve plus
+/// the pilot's fitted difference (see docs/report.md).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PilotCurves {
+    /// Accuracy without the candidate.
+    pub accuracy_without: CurveRecord,
+    /// Accuracy with it.
+    pub accuracy_with: CurveRecord,
+    /// The fairness measure against the reference without the candidate, per compared group.
+    pub disparity_without: Vec<DisparityCurve>,
+    /// The same with it.
+    pub disparity_with: Vec<DisparityCurve>,
 }
 
 /// What a bigger pilot of a feature would be expected to tell: the headline's interval at
@@ -297,6 +318,28 @@ pub struct GrownPilot {
     /// The full-size unfairness reduction's expected interval; `null` where not measured.
     pub unfairness_reduction: Option<ExpectedGain>,
     /// The utility's expected interval (what a cautious plan weighs).
+    pub utility: Option<ExpectedGain>,
+}
+
+/// Rows of one group bought in two parts: the first part, and the interval the whole
+/// purchase's gains would be expected to have once it is bought and measured, about today's
+/// point. Each side of the headline interval keeps the part a measured change has (the
+/// half-width of the change between the group curve's last two anchors, measured repeat by
+/// repeat) and the rest, extrapolated today, narrows with the share of the log distance in the
+/// group's training rows still to be extrapolated after the first part.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FirstPart {
+    /// Rows bought first: the option's steps nearest a quarter and a half of the rows on offer.
+    pub rows: usize,
+    /// What they cost.
+    pub cost: f64,
+    /// The group's training rows in a trial after them.
+    pub group_training_rows: usize,
+    /// The whole purchase's accuracy gain, its interval expected after the first part.
+    pub accuracy_gain: Option<ExpectedGain>,
+    /// The same for the unfairness reduction; `null` where not measured.
+    pub unfairness_reduction: Option<ExpectedGain>,
+    /// The same for the utility.
     pub utility: Option<ExpectedGain>,
 }
 
@@ -335,6 +378,11 @@ pub struct OptionValue {
     pub direct: Option<Purchase>,
     /// Feature options: what the pilot says.
     pub pilot: Option<PilotSummary>,
+    /// Rows of one group: what buying part of the rows first would tell about the whole
+    /// purchase (empty for other options, for an option sold in one lot, and in reports
+    /// written before it was added).
+    #[serde(default)]
+    pub first_parts: Vec<FirstPart>,
     /// What the reader should weigh before buying it.
     pub flags: Vec<String>,
 }

@@ -100,6 +100,11 @@ pub struct BacktestSettings {
     pub rounds: usize,
     /// The fairness measure the best-by-fairness option is named by.
     pub fairness: FairnessMeasure,
+    /// The narrowing check: each held feature's pilot also grown this many times (2 or 4) and
+    /// appraised again, its interval widths set against those predicted from the smaller
+    /// pilot; `null` when not asked for (and in reports written before it was added).
+    #[serde(default)]
+    pub check_growth: Option<usize>,
 }
 
 /// A gain measured for real: the mean over repeats of the paired difference (option against
@@ -146,6 +151,61 @@ pub struct OptionRecord {
     pub rows: usize,
     /// Accuracy, then each fairness measure.
     pub quantities: Vec<QuantityRecord>,
+    /// A feature under the narrowing check: its pilot grown and appraised again.
+    #[serde(default)]
+    pub growth_check: Option<GrowthCheck>,
+}
+
+/// One feature's pilot grown for the narrowing check: the widths of the full-size intervals
+/// the appraisal gave at its pilot, predicted for the grown pilot, and given by it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct GrowthCheck {
+    /// Rows of the pilot appraised first.
+    pub pilot_rows: usize,
+    /// Rows of the grown pilot (the first pilot's rows and more).
+    pub grown_rows: usize,
+    /// The accuracy gain's interval widths.
+    pub accuracy: WidthCheck,
+    /// The unfairness reduction's interval widths, on the backtest's fairness measure.
+    pub unfairness: WidthCheck,
+}
+
+/// The widths of one interval: at the first pilot, predicted for the grown one, and given by it
+/// (`null` where an interval is missing).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WidthCheck {
+    /// At the first pilot.
+    pub now: Option<f64>,
+    /// Predicted for the grown pilot (options[].pilot.growth of the first appraisal).
+    pub predicted: Option<f64>,
+    /// Given by the grown pilot's appraisal.
+    pub realised: Option<f64>,
+}
+
+/// The narrowing check over every round and held feature: how the predicted widths compare
+/// with the realised ones.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct GrowthSummary {
+    /// How many times the pilots were grown.
+    pub factor: usize,
+    /// The accuracy gain's widths.
+    pub accuracy: WidthSummary,
+    /// The unfairness reduction's widths.
+    pub unfairness: WidthSummary,
+}
+
+/// Predicted against realised widths over the checks that have both.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WidthSummary {
+    /// Checks with a predicted and a realised width.
+    pub checks: usize,
+    /// Median of predicted / realised width (1 is right; above 1, predicted too wide).
+    pub median_ratio: Option<f64>,
+    /// Share of checks whose predicted width is within 25% of the realised one.
+    pub within_25_percent: Option<f64>,
+    /// Median of the first pilot's width / realised width: what predicting no narrowing at all
+    /// would have scored.
+    pub median_ratio_unchanged: Option<f64>,
 }
 
 /// One round: what was held, and every option.
@@ -293,6 +353,9 @@ pub struct BacktestReport {
     pub summary: Vec<QuantitySummary>,
     /// The quality targets for accuracy and the chosen fairness measure.
     pub targets: Vec<TargetCheck>,
+    /// The narrowing check's summary, where `backtest.check_growth` asked for it.
+    #[serde(default)]
+    pub growth_check: Option<GrowthSummary>,
     /// What the reader should know about this run.
     pub warnings: Vec<String>,
     /// The cautions every report carries.

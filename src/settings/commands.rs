@@ -215,6 +215,7 @@ pub fn backtest_settings(choices: &Choices) -> Result<BacktestSettings> {
         hold_group: choices.hold_group.clone(),
         rounds: choices.rounds.unwrap_or(DEFAULT_ROUNDS),
         fairness: fairness_choice(choices)?,
+        check_growth: choices.check_growth,
     };
     check_backtest(&settings)?;
     Ok(settings)
@@ -253,6 +254,32 @@ pub fn check_backtest(settings: &BacktestSettings) -> Result<()> {
             "--hold-features",
             "nothing is held back: give --hold-rows above 0 or --hold-features",
         ));
+    }
+    if let Some(k) = settings.check_growth {
+        if ![2, 4].contains(&k) {
+            return Err(Error::setting(
+                "--check-growth",
+                format!(
+                    "grows the pilots 2 or 4 times (the sizes the appraisal predicts), not {k}"
+                ),
+            ));
+        }
+        if settings.hold_features.is_empty() {
+            return Err(Error::setting(
+                "--check-growth",
+                "needs held features (--hold-features) whose pilots it grows",
+            ));
+        }
+        if settings.pilot * k as f64 > 1.0 {
+            return Err(Error::setting(
+                "--check-growth",
+                format!(
+                    "a pilot of {:.0}% grown {k} times is more than every row; give a --pilot of at most {:.0}%",
+                    settings.pilot * 100.0,
+                    100.0 / k as f64
+                ),
+            ));
+        }
     }
     if settings.hold_group.is_some() && settings.hold_rows == 0.0 {
         return Err(Error::setting(

@@ -96,6 +96,8 @@ pub struct Choices {
     pub hold_group: Option<String>,
     /// `--rounds` (or `rounds` in the project file).
     pub rounds: Option<usize>,
+    /// `--check-growth` on `backtest` (or `check-growth` in the project file).
+    pub check_growth: Option<usize>,
     /// `--held-features` on `plan` (or `held-features` in the project file).
     pub held_features: Option<bool>,
 }
@@ -180,6 +182,7 @@ impl Choices {
             pilot,
             hold_group,
             rounds,
+            check_growth,
             held_features
         )
     }

@@ -364,6 +364,35 @@ fn cases(demo: &Path) -> Vec<Case> {
             &["backtest", "--hold-group", "nobody"],
             "--hold-group: column 'disability' has no value 'nobody'",
         ),
+        case(
+            "a narrowing check at a size the appraisal does not predict",
+            Folder::Demo,
+            vec![],
+            &["backtest", "--hold-features", "test_score", "--check-growth", "3"],
+            "--check-growth: grows the pilots 2 or 4 times",
+        ),
+        case(
+            "a narrowing check that would grow a pilot past every row",
+            Folder::Demo,
+            vec![],
+            &[
+                "backtest",
+                "--hold-features",
+                "test_score",
+                "--pilot",
+                "0.4",
+                "--check-growth",
+                "4",
+            ],
+            "give a --pilot of at most 25%",
+        ),
+        case(
+            "a narrowing check without held features",
+            Folder::Demo,
+            vec![],
+            &["backtest", "--check-growth", "2"],
+            "--check-growth: needs held features",
+        ),
         // Cost sheets.
         case(
             "a cost sheet that does not exist",

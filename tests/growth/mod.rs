@@ -400,3 +400,115 @@ fn the_chance_that_the_plan_changes_against_bigger_pilots_drawn_from_the_model()
         assert!(gap <= 0.1, "predicted and realised differ by {gap}");
     }
 }
+
+/// The pilot's own curves in the appraisal: measured on the pilot (the last anchor is the
+/// pilot's full training size, and with minus without there is the pilot's paired difference,
+/// both means over the same repeats), read out to today's training rows, and drawn in the HTML.
+#[test]
+fn the_pilot_curves_are_measured_on_the_pilot_and_read_out_to_todays_rows() {
+    let dir = super::demo_folder();
+    super::appraise_to(dir.path(), "appraise.json");
+    let text = std::fs::read_to_string(dir.path().join("appraise.json")).unwrap();
+    let report: acquest::report::AppraisalReport = serde_json::from_str(&text).unwrap();
+    let mut drawn = 0;
+    for option in report.options.iter().filter(|o| o.pilot.is_some()) {
+        let pilot = option.pilot.as_ref().unwrap();
+        let curves = pilot.curves.as_ref().expect("every demo pilot has curves");
+        let (with, without) = (&curves.accuracy_with, &curves.accuracy_without);
+        let (last_with, last_without) = (
+            with.anchors.last().unwrap(),
+            without.anchors.last().unwrap(),
+        );
+        assert_eq!(last_with.size, pilot.training_rows, "{}", option.name);
+        assert_eq!(last_without.size, pilot.training_rows);
+        let difference = pilot.accuracy_difference.as_ref().unwrap().mean;
+        assert!(
+            (last_with.mean - last_without.mean - difference).abs() < 1e-12,
+            "{}: {} - {} against {difference}",
+            option.name,
+            last_with.mean,
+            last_without.mean
+        );
+        let reach = with.grid.last().unwrap().size;
+        assert!(
+            (reach - report.today.training_rows as f64).abs() < 1e-6,
+            "grid ends at {reach}"
+        );
+        assert!(with.grid.last().unwrap().extrapolated);
+        assert_eq!(
+            curves.disparity_with.len(),
+            report.groups.len() - 1,
+            "one disparity curve per compared group"
+        );
+        assert!(curves
+            .disparity_with
+            .iter()
+            .all(|d| d.measure == "equal opportunity difference"));
+        drawn += 1;
+    }
+    assert_eq!(drawn, 3);
+    let html = dir.path().join("appraise.html");
+    acquest()
+        .args(["render", "--html"])
+        .arg(&html)
+        .arg(dir.path().join("appraise.json"))
+        .assert()
+        .success();
+    let page = std::fs::read_to_string(html).unwrap();
+    assert!(
+        page.contains("Accuracy on the pilot of &#39;work-sample&#39;")
+            || page.contains("Accuracy on the pilot of 'work-sample'")
+    );
+    assert!(page.contains("today's rows") || page.contains("today&#39;s rows"));
+}
+
+/// The backtest's narrowing check on the demo: each held feature's pilot (filled on every row,
+/// so a pilot of a share of the kept rows) doubled for real, keeping its rows; the widths the
+/// first appraisal predicted for that size beside those the grown pilot gives.
+#[test]
+fn the_backtest_grows_each_pilot_and_sets_its_widths_beside_the_prediction() {
+    let dir = super::demo_folder();
+    let report: acquest::report::BacktestReport =
+        serde_json::from_value(json_of(acquest().current_dir(dir.path()).args([
+            "backtest",
+            "--quiet",
+            "--json",
+            "-",
+            "--hold-features",
+            "test_score,years_experience",
+            "--hold-rows",
+            "0.3",
+            "--pilot",
+            "0.2",
+            "--rounds",
+            "1",
+            "--check-growth",
+            "2",
+        ])))
+        .unwrap();
+    let checks: Vec<&acquest::report::GrowthCheck> = report.rounds[0]
+        .options
+        .iter()
+        .filter_map(|o| o.growth_check.as_ref())
+        .collect();
+    assert_eq!(checks.len(), 2, "one check per held feature");
+    for c in &checks {
+        assert_eq!(c.pilot_rows, report.rounds[0].pilots[0].rows);
+        assert_eq!(c.grown_rows, 2 * c.pilot_rows);
+        for w in [&c.accuracy, &c.unfairness] {
+            let (now, predicted) = (w.now.unwrap(), w.predicted.unwrap());
+            assert!(
+                predicted < now,
+                "a bigger pilot is predicted narrower: {w:?}"
+            );
+            assert!(w.realised.unwrap() > 0.0);
+        }
+    }
+    let summary = report.growth_check.as_ref().unwrap();
+    assert_eq!((summary.factor, summary.accuracy.checks), (2, 2));
+    assert!(report.rounds[0]
+        .options
+        .iter()
+        .filter(|o| o.kind != acquest::report::OptionKind::Feature)
+        .all(|o| o.growth_check.is_none()));
+}
