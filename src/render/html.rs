@@ -120,6 +120,39 @@ fn expected_charts(
     )
 }
 
+/// The plan's section on what more data would tell before buying: each pilot feature's curves
+/// without and with it and its intervals at larger pilots, and each group's rows bought in two
+/// parts where a first part would narrow the interval. Empty where there is neither.
+fn what_more_would_tell(a: &AppraisalReport) -> String {
+    let level = (a.inputs.confidence * 100.0).round();
+    let mut out = String::new();
+    for o in &a.options {
+        let (curves, intervals) = if o.pilot.is_some() {
+            (
+                super::svg::pilot_curves_svg(o, &a.today, &a.reference.name, a.inputs.confidence),
+                growth_charts(o, level),
+            )
+        } else {
+            (String::new(), first_parts_charts(o, level))
+        };
+        if curves.is_empty() && !intervals.contains("<svg") {
+            continue;
+        }
+        let what = if o.pilot.is_some() {
+            "its pilot's curves, and its intervals at larger pilots"
+        } else {
+            "bought in two parts"
+        };
+        let _ = writeln!(out, "<h3>{}: {what}</h3>", escape(&o.name));
+        out.push_str(&curves);
+        out.push_str(&intervals);
+    }
+    if out.is_empty() {
+        return out;
+    }
+    format!("<h2>What more data would tell before buying</h2>\n{out}")
+}
+
 /// The appraisal's learning curves with each group's rates.
 pub(super) fn appraisal_curves(a: &AppraisalReport) -> String {
     curve_chart(&CurveSet {
@@ -549,6 +582,7 @@ pub fn plan_html(report: &PlanReport) -> String {
     }
     out.push_str("</table>\n");
     out.push_str(&options_charts(a));
+    out.push_str(&what_more_would_tell(a));
     let _ = writeln!(out, "<h2>Learning curves and each group's rates</h2>");
     out.push_str(&appraisal_curves(a));
     if !report.warnings.is_empty() {

@@ -455,11 +455,24 @@ fn the_pilot_curves_are_measured_on_the_pilot_and_read_out_to_todays_rows() {
         .assert()
         .success();
     let page = std::fs::read_to_string(html).unwrap();
-    assert!(
-        page.contains("Accuracy on the pilot of &#39;work-sample&#39;")
-            || page.contains("Accuracy on the pilot of 'work-sample'")
-    );
-    assert!(page.contains("today's rows") || page.contains("today&#39;s rows"));
+    assert!(page.contains("Accuracy on the pilot of 'work-sample'"));
+    assert!(page.contains("today's rows") && page.contains("pilot's rows"));
+    // The plan's HTML, which a proposal carries, holds the same charts per pilot feature.
+    let plan = dir.path().join("plan.html");
+    acquest()
+        .current_dir(dir.path())
+        .args(["plan", "--quiet", "--appraisal", "appraise.json", "--html"])
+        .arg(&plan)
+        .assert()
+        .success();
+    let page = std::fs::read_to_string(plan).unwrap();
+    assert!(page.contains("<h2>What more data would tell before buying</h2>"));
+    for name in ["work-sample", "references", "postcode"] {
+        assert!(page.contains(&format!(
+            "<h3>{name}: its pilot's curves, and its intervals at larger pilots</h3>"
+        )));
+        assert!(page.contains(&format!("Accuracy on the pilot of '{name}'")));
+    }
 }
 
 /// The backtest's narrowing check on the demo: each held feature's pilot (filled on every row,
