@@ -9,6 +9,7 @@ use assert_cmd::Command;
 mod bad_inputs;
 mod golden;
 mod growth;
+mod protected;
 
 const ADULT_COLUMNS: &str = "age,workclass,fnlwgt,education,education-num,marital-status,\
 occupation,relationship,race,sex,capital-gain,capital-loss,hours-per-week,native-country,income";
@@ -49,6 +50,22 @@ fn adult_flags(data: &str) -> Vec<&str> {
         ">50K",
         "--protected",
         "sex",
+    ]
+}
+
+/// The flags that read german.data: no header, the credit label (1 is good); no protected
+/// column.
+fn german_flags(data: &str) -> Vec<&str> {
+    vec![
+        "--data",
+        data,
+        "--no-header",
+        "--columns",
+        GERMAN_COLUMNS,
+        "--target",
+        "credit",
+        "--favourable",
+        "1",
     ]
 }
 
@@ -269,20 +286,9 @@ fn german_credit_groups_from_codes_and_from_an_age_threshold() {
         return;
     };
     let data = data.to_str().unwrap();
-    let common = [
-        "--data",
-        data,
-        "--no-header",
-        "--columns",
-        GERMAN_COLUMNS,
-        "--target",
-        "credit",
-        "--favourable",
-        "1",
-        "--repeats",
-        "3",
-    ];
-    let mut by_sex = common.to_vec();
+    let mut common = german_flags(data);
+    common.extend(["--repeats", "3"]);
+    let mut by_sex = common.clone();
     by_sex.extend([
         "--protected",
         "personal",

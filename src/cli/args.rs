@@ -135,6 +135,10 @@ pub(super) struct RenderArgs {
     /// Write it as self-contained HTML to FILE ('-' for standard output).
     #[arg(long, value_name = "FILE")]
     pub(super) html: Option<PathBuf>,
+    /// In the terminal view, the full tables a summary line stands for (a baseline's further
+    /// protected attributes).
+    #[arg(long)]
+    pub(super) detail: bool,
 }
 
 #[derive(Args)]
@@ -188,6 +192,10 @@ pub(super) struct BaselineArgs {
     pub(super) data: DataArgs,
     #[command(flatten)]
     pub(super) trials: TrialArgs,
+    /// Print the full tables of every further protected attribute and intersection, not only
+    /// their summary lines (the Markdown and HTML always hold them).
+    #[arg(long)]
+    pub(super) detail: bool,
     #[command(flatten)]
     pub(super) output: OutputArgs,
 }
@@ -245,16 +253,22 @@ pub(super) struct DataArgs {
     /// such as '>=10' for a numeric target.
     #[arg(long, value_name = "VALUE")]
     pub(super) favourable: Option<String>,
-    /// The protected attribute column.
-    #[arg(long, value_name = "COLUMN")]
+    /// The protected attribute column, or several comma-separated (the first is the one every
+    /// command assesses; the baseline reports each).
+    #[arg(long, value_name = "COLUMNS")]
     pub(super) protected: Option<String>,
-    /// Reference group [default: the group with the highest favourable rate in the labels].
+    /// Reference group [default: the group with the highest favourable rate in the labels];
+    /// with several attributes, ATTRIBUTE=GROUP, once per attribute.
     #[arg(long, value_name = "GROUP")]
-    pub(super) reference: Option<String>,
+    pub(super) reference: Vec<String>,
     /// Form groups from the protected column: 'female=A92,A95;male=*' (codes, * for the rest)
-    /// or 'young=<=25;older=>25' (a numeric threshold).
+    /// or 'young=<=25;older=>25' (a numeric threshold); with several attributes, prefixed by
+    /// the attribute ('age:young=<=25;older=>25'), once per attribute.
     #[arg(long, value_name = "RULES")]
-    pub(super) groups: Option<String>,
+    pub(super) groups: Vec<String>,
+    /// Also report the intersections of every pair of protected attributes (sex × race).
+    #[arg(long)]
+    pub(super) intersections: bool,
     /// Train on these columns only, comma-separated [default: every other column].
     #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
     pub(super) features: Option<Vec<String>>,
@@ -327,8 +341,9 @@ impl DataArgs {
             target: self.target,
             favourable: self.favourable,
             protected: self.protected,
-            reference: self.reference,
-            groups: self.groups,
+            reference: (!self.reference.is_empty()).then_some(self.reference),
+            groups: (!self.groups.is_empty()).then_some(self.groups),
+            intersections: self.intersections.then_some(true),
             features: self.features,
             exclude: self.exclude,
             categorical: self.categorical,

@@ -18,13 +18,19 @@ mod progress;
 use args::{BacktestArgs, Cli, Command, OutputArgs, RenderArgs};
 use progress::{progress_bar, shown_on, CLOCK, STARTED};
 
-fn run_baseline(choices: Choices, output: &OutputArgs) -> anyhow::Result<()> {
+fn run_baseline(choices: Choices, detail: bool, output: &OutputArgs) -> anyhow::Result<()> {
     let settings = Settings::from_choices(choices)?;
     let bar = progress_bar(output.quiet);
     let show = shown_on(&bar);
     let report = baseline::run(&settings, &show)?;
     bar.finish_and_clear();
-    write_outputs(&report, render::baseline_text(&report), output)
+    let document = render::baseline_document(&report);
+    let text = if detail {
+        document.plain_detailed()
+    } else {
+        document.plain()
+    };
+    write_outputs(&report, text, output)
 }
 
 /// Documents to write beside the JSON report.
@@ -128,7 +134,11 @@ fn run_render(args: RenderArgs) -> anyhow::Result<()> {
         }
     };
     if terminal {
-        print!("{}", document.plain());
+        if args.detail {
+            print!("{}", document.plain_detailed());
+        } else {
+            print!("{}", document.plain());
+        }
         return Ok(());
     }
     documents.write_with(|| document.markdown(), || document.html(), &output)
@@ -319,7 +329,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Baseline(mut args) => {
             args.output.to_standard = check_outputs(&[("--json", args.output.json.as_deref())])?;
             let choices = args.data.choices(args.trials)?;
-            run_baseline(choices, &args.output)
+            run_baseline(choices, args.detail, &args.output)
         }
         Command::Curves(args) => {
             let mut args = *args;
@@ -410,7 +420,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 timings: false,
                 to_standard: false,
             };
-            run_baseline(choices.clone(), &output("baseline.json"))?;
+            run_baseline(choices.clone(), false, &output("baseline.json"))?;
             println!();
             run_curves(
                 choices.clone(),

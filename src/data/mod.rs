@@ -772,6 +772,190 @@ pub struct Group {
     pub definition: String,
 }
 
+/// A protected attribute (or the intersection of two) with its groups, for every row used.
+#[derive(Debug, Clone)]
+pub struct Attribute {
+    /// The column, or "a × b" for an intersection.
+    pub name: String,
+    /// Group index of every row; [`Attribute::UNASSESSED`] for a row of a cell too small to
+    /// assess (intersections only).
+    pub groups: Vec<u32>,
+    /// The groups, in report order.
+    pub group_list: Vec<Group>,
+    /// Index of the reference group in `group_list`.
+    pub reference: usize,
+    /// How the reference was chosen.
+    pub reference_rule: String,
+    /// Cells of an intersection too small to assess: their name, rows and favourable labels.
+    pub too_small: Vec<(String, usize, usize)>,
+}
+
+impl Attribute {
+    /// The group index of a row left out of an intersection's assessed cells.
+    pub const UNASSESSED: u32 = u32::MAX;
+
+    /// The attribute on the rows `rows` (indices into its rows), in their order.
+    pub fn take(&self, rows: &[usize]) -> Attribute {
+        Attribute {
+            groups: rows.iter().map(|&i| self.groups[i]).collect(),
+            ..self.clone()
+        }
+    }
+
+    /// The groups of `column` on the rows used (`groups`, indices into `group_list`), checked
+    /// as every protected attribute is: groups no row falls in dropped, at least two left, each
+    /// of at least [`MIN_GROUP_ROWS`] rows, a warning where a group has few rows of a label;
+    /// the reference named (`reference`) or the group with the highest favourable rate.
+    fn checked(
+        column: &str,
+        groups: Vec<u32>,
+        group_list: Vec<Group>,
+        labels: &[bool],
+        reference: Option<&str>,
+        warnings: &mut Vec<Warning>,
+    ) -> Result<Attribute> {
+        let mut sizes = vec![0usize; group_list.len()];
+        for &g in &groups {
+            sizes[g as usize] += 1;
+        }
+        let (groups, group_list, sizes) = compact_groups(groups, group_list, sizes);
+        if group_list.len() < 2 {
+            return Err(Error::NotEnoughData(format!(
+                "--protected: column '{column}' forms only one group ({}); fairness needs at least two",
+                group_list.first().map_or("none", |g| g.name.as_str())
+            )));
+        }
+        for (g, &size) in group_list.iter().zip(&sizes) {
+            if size < MIN_GROUP_ROWS {
+                return Err(Error::NotEnoughData(format!(
+                    "--protected: group '{}' has {size} rows; each group needs at least \
+                     {MIN_GROUP_ROWS} for its rates to mean anything (merge groups with --groups)",
+                    g.name
+                )));
+            }
+        }
+        let mut favourable = vec![0usize; group_list.len()];
+        for (&g, &l) in groups.iter().zip(labels) {
+            favourable[g as usize] += usize::from(l);
+        }
+        for (g, group) in group_list.iter().enumerate() {
+            let (fav, unfav) = (favourable[g], sizes[g] - favourable[g]);
+            if fav.min(unfav) < 5 {
+                warnings.push(format!(
+                    "group '{}' has only {} rows with the {} label: its true or false positive \
+                     rate will be missing or noisy in many trials",
+                    group.name,
+                    fav.min(unfav),
+                    if fav < unfav {
+                        "favourable"
+                    } else {
+                        "unfavourable"
+                    }
+                ));
+            }
+        }
+        let (reference, reference_rule) = match reference {
+            Some(name) => {
+                let found = group_list
+                    .iter()
+                    .position(|g| g.name == name)
+                    .ok_or_else(|| Error::UnknownValue {
+                        flag: "--reference".into(),
+                        column: column.to_string(),
+                        value: name.to_string(),
+                        hint: nearest_hint(name, group_list.iter().map(|g| g.name.as_str())),
+                    })?;
+                (found, "named with --reference".to_string())
+            }
+            None => (
+                highest_rate(&favourable, &sizes),
+                "the group with the highest favourable rate in the labels".to_string(),
+            ),
+        };
+        Ok(Attribute {
+            name: column.to_string(),
+            groups,
+            group_list,
+            reference,
+            reference_rule,
+            too_small: Vec::new(),
+        })
+    }
+
+    /// The intersection of `a` and `b`: a cell for every pair of their groups that holds rows.
+    /// A cell is assessed when it has at least [`MIN_GROUP_ROWS`] rows and enough of each label
+    /// that a trial's test part (`test_fraction` of the rows) can be expected to hold
+    /// [`MIN_GROUP_TEST_ROWS`] of each; the others are listed in `too_small` with their counts
+    /// and their rows left out of the intersection's figures. The reference is the assessed
+    /// cell with the highest favourable rate. `None` where fewer than two cells can be assessed.
+    fn intersection(
+        a: &Attribute,
+        b: &Attribute,
+        labels: &[bool],
+        test_fraction: f64,
+    ) -> Option<Attribute> {
+        let width = b.group_list.len();
+        let cell = |i: usize| a.groups[i] as usize * width + b.groups[i] as usize;
+        let cells = a.group_list.len() * width;
+        let (mut rows, mut favourable) = (vec![0usize; cells], vec![0usize; cells]);
+        for (i, &label) in labels.iter().enumerate() {
+            rows[cell(i)] += 1;
+            favourable[cell(i)] += usize::from(label);
+        }
+        let assessable = |c: usize| {
+            let fewest = favourable[c].min(rows[c] - favourable[c]);
+            rows[c] >= MIN_GROUP_ROWS && fewest as f64 * test_fraction >= MIN_GROUP_TEST_ROWS as f64
+        };
+        let name_of = |c: usize| {
+            format!(
+                "{} & {}",
+                a.group_list[c / width].name,
+                b.group_list[c % width].name
+            )
+        };
+        let mut index = vec![Attribute::UNASSESSED; cells];
+        let (mut group_list, mut too_small) = (Vec::new(), Vec::new());
+        let (mut kept_rows, mut kept_favourable) = (Vec::new(), Vec::new());
+        for c in (0..cells).filter(|&c| rows[c] > 0) {
+            if assessable(c) {
+                index[c] = group_list.len() as u32;
+                group_list.push(Group {
+                    name: name_of(c),
+                    definition: format!(
+                        "{} and {}",
+                        a.group_list[c / width].definition,
+                        b.group_list[c % width].definition
+                    ),
+                });
+                kept_rows.push(rows[c]);
+                kept_favourable.push(favourable[c]);
+            } else {
+                too_small.push((name_of(c), rows[c], favourable[c]));
+            }
+        }
+        if group_list.len() < 2 {
+            return None;
+        }
+        Some(Attribute {
+            name: format!("{} × {}", a.name, b.name),
+            groups: (0..labels.len()).map(|i| index[cell(i)]).collect(),
+            reference: highest_rate(&kept_favourable, &kept_rows),
+            reference_rule: "the assessed cell with the highest favourable rate in the labels"
+                .into(),
+            group_list,
+            too_small,
+        })
+    }
+}
+
+/// The group with the highest favourable rate (the first of a tie).
+fn highest_rate(favourable: &[usize], rows: &[usize]) -> usize {
+    let rate = |g: usize| favourable[g] as f64 / rows[g] as f64;
+    (0..rows.len())
+        .max_by(|&a, &b| rate(a).total_cmp(&rate(b)).then(b.cmp(&a)))
+        .unwrap_or(0)
+}
+
 /// Something the user should know about the data, with no effect on whether the run goes on.
 pub type Warning = String;
 
@@ -802,6 +986,8 @@ pub struct Dataset {
     pub reference: usize,
     /// How the reference was chosen.
     pub reference_rule: String,
+    /// The protected column the groups are formed from (the first of `--protected`).
+    pub protected: String,
     /// Current features, restricted to the usable rows.
     pub features: Vec<Column>,
     /// Columns taken for candidate features (mostly empty), restricted to the usable rows.
@@ -810,6 +996,10 @@ pub struct Dataset {
     pub favourable: String,
     /// The other label value(s), as reports name them.
     pub unfavourable: String,
+    /// The protected attributes after the first (whose groups are `groups` and `group_list`),
+    /// then the intersections of every pair when asked for: each with its own groups, for the
+    /// reports that assess every attribute.
+    pub more_attributes: Vec<Attribute>,
     /// Data rows read from the file.
     pub rows_read: usize,
     /// Rows left out: missing label, missing protected value.
@@ -843,6 +1033,8 @@ impl Dataset {
                 .collect(),
             reference,
             reference_rule: String::new(),
+            protected: "group".into(),
+            more_attributes: Vec::new(),
             features,
             candidates: Vec::new(),
             favourable: "yes".into(),
@@ -851,6 +1043,104 @@ impl Dataset {
             dropped_missing_group: 0,
             warnings: Vec::new(),
         }
+    }
+
+    /// Adds the intersection of every pair of protected attributes to `more_attributes`
+    /// ([`Attribute::intersection`]); a warning names every cell too small to assess.
+    pub fn add_intersections(&mut self, test_fraction: f64) -> Result<()> {
+        let primary = Attribute {
+            name: String::new(),
+            groups: self.groups.clone(),
+            group_list: self.group_list.clone(),
+            reference: self.reference,
+            reference_rule: String::new(),
+            too_small: Vec::new(),
+        };
+        let mut attributes = vec![&primary];
+        attributes.extend(self.more_attributes.iter());
+        if attributes.len() < 2 {
+            return Err(Error::setting(
+                "--intersections",
+                "needs at least two protected attributes (--protected a,b)",
+            ));
+        }
+        let names: Vec<String> = std::iter::once(self.protected.clone())
+            .chain(self.more_attributes.iter().map(|a| a.name.clone()))
+            .collect();
+        let mut cells = Vec::new();
+        for x in 0..attributes.len() {
+            for y in x + 1..attributes.len() {
+                let (mut a, mut b) = (attributes[x].clone(), attributes[y].clone());
+                a.name.clone_from(&names[x]);
+                b.name.clone_from(&names[y]);
+                match Attribute::intersection(&a, &b, &self.labels, test_fraction) {
+                    Some(c) => cells.push(c),
+                    None => {
+                        return Err(Error::NotEnoughData(format!(
+                        "--intersections: {} × {} has fewer than two cells large enough to assess",
+                        names[x], names[y]
+                    )))
+                    }
+                }
+            }
+        }
+        for c in &cells {
+            for (name, rows, favourable) in &c.too_small {
+                self.warnings.push(format!(
+                    "cell '{name}' of {} has {} rows ({} favourable): too small to assess, left out of its figures and worst-group readings",
+                    c.name,
+                    thousands(*rows),
+                    thousands(*favourable)
+                ));
+            }
+        }
+        self.more_attributes.extend(cells);
+        Ok(())
+    }
+
+    /// The data as seen by further attribute `k` of `more_attributes`: its groups in place of
+    /// the first attribute's, on the rows it assesses (an intersection leaves out the rows of
+    /// cells too small), with labels only (no feature columns): what the label figures of a
+    /// report by that attribute are read from.
+    pub fn attribute_view(&self, k: usize) -> Dataset {
+        let a = &self.more_attributes[k];
+        let rows: Vec<usize> = (0..self.rows())
+            .filter(|&i| a.groups[i] != Attribute::UNASSESSED)
+            .collect();
+        Dataset {
+            labels: rows.iter().map(|&i| self.labels[i]).collect(),
+            groups: rows.iter().map(|&i| a.groups[i]).collect(),
+            group_list: a.group_list.clone(),
+            reference: a.reference,
+            reference_rule: a.reference_rule.clone(),
+            protected: a.name.clone(),
+            more_attributes: Vec::new(),
+            features: Vec::new(),
+            candidates: Vec::new(),
+            favourable: self.favourable.clone(),
+            unfavourable: self.unfavourable.clone(),
+            rows_read: rows.len(),
+            dropped_missing_label: 0,
+            dropped_missing_group: 0,
+            warnings: Vec::new(),
+        }
+    }
+
+    /// For the commands that assess the first protected attribute only (all but the
+    /// baseline): a warning naming it, where more were given.
+    pub fn first_attribute_only(&self) -> Option<String> {
+        let more: Vec<&str> = self
+            .more_attributes
+            .iter()
+            .map(|a| a.name.as_str())
+            .collect();
+        (!more.is_empty()).then(|| {
+            format!(
+                "several protected attributes were given: this command assesses '{}' (the first) only; `acquest baseline` reports {} as well",
+                self.protected,
+                more.join(", ")
+            )
+        })
     }
 
     /// Rows used.
@@ -873,7 +1163,10 @@ impl Dataset {
         for name in &settings.schema.categorical {
             table.column(name, "--categorical")?;
         }
-        let dataset = Dataset::from_table(&table, &settings.schema)?;
+        let mut dataset = Dataset::from_table(&table, &settings.schema)?;
+        if settings.schema.intersections {
+            dataset.add_intersections(settings.trials.test_fraction)?;
+        }
         Ok((table, dataset))
     }
 
@@ -967,24 +1260,47 @@ impl Dataset {
     /// Applies the schema to a table.
     pub fn from_table(table: &Table, schema: &SchemaSettings) -> Result<Dataset> {
         let target = table.column(&schema.target, "--target")?;
-        let protected = table.column(&schema.protected, "--protected")?;
-        if target.name == protected.name {
-            return Err(Error::setting(
-                "--protected",
-                "is the same column as --target",
-            ));
+        let mut columns = Vec::new();
+        for attribute in &schema.protected {
+            let column = table.column(&attribute.column, "--protected")?;
+            if column.name == target.name {
+                return Err(Error::setting(
+                    "--protected",
+                    format!("'{}' is the same column as --target", column.name),
+                ));
+            }
+            columns.push(column);
         }
         let mut warnings = table.warnings.clone();
         let (labels, favourable, unfavourable) = read_labels(target, &schema.favourable)?;
-        let (groups, group_list) = form_groups(protected, schema.groups.as_deref(), &mut warnings)?;
+        let mut formed = Vec::new();
+        for (attribute, column) in schema.protected.iter().zip(&columns) {
+            formed.push(form_groups(
+                column,
+                attribute.groups.as_deref(),
+                &mut warnings,
+            )?);
+        }
 
+        // Every attribute is assessed on the same rows: those with a label and a value in every
+        // protected column.
         let mut keep = Vec::with_capacity(table.rows());
-        let (mut no_label, mut no_group) = (0, 0);
-        for i in 0..table.rows() {
-            match (labels[i], groups[i]) {
-                (None, _) => no_label += 1,
-                (_, None) => no_group += 1,
-                _ => keep.push(i),
+        let mut no_label = 0;
+        let mut no_group = vec![0usize; columns.len()];
+        let mut dropped_missing_group = 0;
+        for (i, label) in labels.iter().enumerate() {
+            let missing: Vec<usize> = (0..columns.len())
+                .filter(|&k| formed[k].0[i].is_none())
+                .collect();
+            if label.is_none() {
+                no_label += 1;
+            } else if !missing.is_empty() {
+                dropped_missing_group += 1;
+                for k in missing {
+                    no_group[k] += 1;
+                }
+            } else {
+                keep.push(i);
             }
         }
         if no_label > 0 {
@@ -994,63 +1310,31 @@ impl Dataset {
                 target.name
             ));
         }
-        if no_group > 0 {
-            warnings.push(format!(
-                "{} rows have no value in the protected column '{}' and are left out",
-                thousands(no_group),
-                protected.name
-            ));
-        }
-        let labels: Vec<bool> = keep.iter().map(|&i| labels[i].unwrap_or(false)).collect();
-        let groups: Vec<u32> = keep.iter().map(|&i| groups[i].unwrap_or(0)).collect();
-
-        // Drop groups that no usable row falls in (values seen only on dropped rows).
-        let mut sizes = vec![0usize; group_list.len()];
-        for &g in &groups {
-            sizes[g as usize] += 1;
-        }
-        let (groups, group_list, sizes) = compact_groups(groups, group_list, sizes);
-        if group_list.len() < 2 {
-            return Err(Error::NotEnoughData(format!(
-                "--protected: column '{}' forms only one group ({}); fairness needs at least two",
-                protected.name,
-                group_list.first().map_or("none", |g| g.name.as_str())
-            )));
-        }
-        for (g, &size) in group_list.iter().zip(&sizes) {
-            if size < MIN_GROUP_ROWS {
-                return Err(Error::NotEnoughData(format!(
-                    "--protected: group '{}' has {size} rows; each group needs at least \
-                     {MIN_GROUP_ROWS} for its rates to mean anything (merge groups with --groups)",
-                    g.name
-                )));
-            }
-        }
-        let favourable_per_group = {
-            let mut f = vec![0usize; group_list.len()];
-            for (&g, &l) in groups.iter().zip(&labels) {
-                f[g as usize] += usize::from(l);
-            }
-            f
-        };
-        for (g, group) in group_list.iter().enumerate() {
-            let fav = favourable_per_group[g];
-            let unfav = sizes[g] - fav;
-            if fav.min(unfav) < 5 {
+        for (column, &count) in columns.iter().zip(&no_group) {
+            if count > 0 {
                 warnings.push(format!(
-                    "group '{}' has only {} rows with the {} label: its true or false positive \
-                     rate will be missing or noisy in many trials",
-                    group.name,
-                    fav.min(unfav),
-                    if fav < unfav {
-                        "favourable"
-                    } else {
-                        "unfavourable"
-                    }
+                    "{} rows have no value in the protected column '{}' and are left out",
+                    thousands(count),
+                    column.name
                 ));
             }
         }
-        let total_favourable: usize = favourable_per_group.iter().sum();
+        let labels: Vec<bool> = keep.iter().map(|&i| labels[i].unwrap_or(false)).collect();
+        let total_favourable = labels.iter().filter(|&&l| l).count();
+        let mut attributes = Vec::new();
+        for ((attribute, column), (groups, group_list)) in
+            schema.protected.iter().zip(&columns).zip(formed)
+        {
+            let groups: Vec<u32> = keep.iter().map(|&i| groups[i].unwrap_or(0)).collect();
+            attributes.push(Attribute::checked(
+                &column.name,
+                groups,
+                group_list,
+                &labels,
+                attribute.reference.as_deref(),
+                &mut warnings,
+            )?);
+        }
         if total_favourable == 0 || total_favourable == labels.len() {
             return Err(Error::NotEnoughData(format!(
                 "--target: every usable row has the label '{}'; a classifier needs both labels",
@@ -1061,34 +1345,10 @@ impl Dataset {
                 }
             )));
         }
-
-        let (reference, reference_rule) = match &schema.reference {
-            Some(name) => {
-                let found = group_list
-                    .iter()
-                    .position(|g| &g.name == name)
-                    .ok_or_else(|| Error::UnknownValue {
-                        flag: "--reference".into(),
-                        column: protected.name.clone(),
-                        value: name.clone(),
-                        hint: nearest_hint(name, group_list.iter().map(|g| g.name.as_str())),
-                    })?;
-                (found, "named with --reference".to_string())
-            }
-            None => {
-                let rate = |g: usize| favourable_per_group[g] as f64 / sizes[g] as f64;
-                let best = (0..group_list.len())
-                    .max_by(|&a, &b| rate(a).total_cmp(&rate(b)).then(b.cmp(&a)))
-                    .unwrap_or(0);
-                (
-                    best,
-                    "the group with the highest favourable rate in the labels".to_string(),
-                )
-            }
-        };
-
+        let primary = attributes.remove(0);
+        let protected: Vec<&str> = columns.iter().map(|c| c.name.as_str()).collect();
         let (features, candidates) =
-            choose_features(table, schema, &target.name, &protected.name, &mut warnings)?;
+            choose_features(table, schema, &target.name, &protected, &mut warnings)?;
         let features: Vec<Column> = features.iter().map(|c| c.take(&keep)).collect();
         let candidates: Vec<Column> = candidates.iter().map(|c| c.take(&keep)).collect();
         if features.is_empty() {
@@ -1099,17 +1359,19 @@ impl Dataset {
         }
         Ok(Dataset {
             labels,
-            groups,
-            group_list,
-            reference,
-            reference_rule,
+            protected: primary.name,
+            groups: primary.groups,
+            group_list: primary.group_list,
+            reference: primary.reference,
+            reference_rule: primary.reference_rule,
+            more_attributes: attributes,
             features,
             candidates,
             favourable,
             unfavourable,
             rows_read: table.rows(),
             dropped_missing_label: no_label,
-            dropped_missing_group: no_group,
+            dropped_missing_group,
             warnings,
         })
     }
@@ -1398,7 +1660,7 @@ fn choose_features<'a>(
     table: &'a Table,
     schema: &SchemaSettings,
     target: &str,
-    protected: &str,
+    protected: &[&str],
     warnings: &mut Vec<Warning>,
 ) -> Result<(Vec<&'a Column>, Vec<&'a Column>)> {
     for name in &schema.exclude {
@@ -1416,7 +1678,7 @@ fn choose_features<'a>(
                     format!("lists the target '{name}'"),
                 ));
             }
-            if name == protected && !schema.use_protected {
+            if protected.contains(&name.as_str()) && !schema.use_protected {
                 return Err(Error::setting(
                     "--features",
                     format!(
@@ -1433,7 +1695,7 @@ fn choose_features<'a>(
             let is_listed = listed.contains(&column.name);
             if !is_listed
                 && column.name != target
-                && column.name != protected
+                && !protected.contains(&column.name.as_str())
                 && column.missing_count() > 0
             {
                 candidates.push(column);
@@ -1444,7 +1706,7 @@ fn choose_features<'a>(
             if column.name == target || schema.exclude.contains(&column.name) {
                 continue;
             }
-            if column.name == protected && !schema.use_protected {
+            if protected.contains(&column.name.as_str()) && !schema.use_protected {
                 continue;
             }
             let missing = column.missing_count();
@@ -1475,8 +1737,10 @@ fn choose_features<'a>(
             features.push(column);
         }
     }
-    if schema.use_protected && !features.iter().any(|c| c.name == protected) {
-        features.push(table.column(protected, "--protected")?);
+    for &name in protected {
+        if schema.use_protected && !features.iter().any(|c| c.name == name) {
+            features.push(table.column(name, "--protected")?);
+        }
     }
     Ok((features, candidates))
 }
@@ -1615,7 +1879,7 @@ mod tests {
         let f = write(&body, ".csv");
         let s = settings_for(f.path(), |c| {
             c.protected = Some("age".into());
-            c.groups = Some("young=<=25;older=>25".into());
+            c.groups = Some(vec!["young=<=25;older=>25".into()]);
         });
         let (_, d) = Dataset::read(&s).unwrap();
         assert_eq!(d.group_list[0].definition, "age <= 25");
@@ -1624,14 +1888,14 @@ mod tests {
 
         let s = settings_for(f.path(), |c| {
             c.protected = Some("code".into());
-            c.groups = Some("first=A1;others=*".into());
+            c.groups = Some(vec!["first=A1;others=*".into()]);
         });
         let (_, d) = Dataset::read(&s).unwrap();
         assert_eq!(d.group_sizes()[0].0, 67);
 
         let s = settings_for(f.path(), |c| {
             c.protected = Some("code".into());
-            c.groups = Some("first=A9;others=*".into());
+            c.groups = Some(vec!["first=A9;others=*".into()]);
         });
         assert!(Dataset::read(&s).unwrap_err().to_string().contains("A9"));
     }

@@ -48,6 +48,9 @@ pub struct TrialOutcome {
     pub area_under_curve: Option<f64>,
     /// Label and prediction counts per group on the test part.
     pub counts: Vec<GroupCounts>,
+    /// The same per group of every further protected attribute and intersection
+    /// (`Dataset::more_attributes`), in their order.
+    pub more_counts: Vec<Vec<GroupCounts>>,
     /// Rows the model was fitted on.
     pub train_rows: usize,
     /// Rows it was measured on.
@@ -451,6 +454,14 @@ fn measure(
             None
         },
         counts: metrics::group_counts(&labels, &predicted, &groups, data.group_list.len()),
+        more_counts: data
+            .more_attributes
+            .iter()
+            .map(|a| {
+                let groups: Vec<u32> = test.iter().map(|&i| a.groups[i]).collect();
+                metrics::group_counts(&labels, &predicted, &groups, a.group_list.len())
+            })
+            .collect(),
         train_rows,
         test_rows: test.len(),
     }

@@ -203,7 +203,7 @@ pub fn run_with_options(
         raw,
         &data,
         &settings.schema.target,
-        &settings.schema.protected,
+        &data.protected,
     )?;
     let inputs = baseline::inputs(settings, &table, &data);
     let input = AppraisalInput {
@@ -248,6 +248,7 @@ pub fn appraise_dataset(
     let rows = data.rows();
     let all_rows: Vec<usize> = (0..rows).collect();
     let mut warnings: Vec<String> = data.warnings.clone();
+    warnings.extend(data.first_attribute_only());
 
     // Curves of today's features on all rows.
     let main = learning::measure_curves(

@@ -132,6 +132,12 @@ pub fn reduced_dataset(data: &Dataset, split: &RoundSplit, held_features: &[Stri
         group_list: data.group_list.clone(),
         reference: data.reference,
         reference_rule: data.reference_rule.clone(),
+        protected: data.protected.clone(),
+        more_attributes: data
+            .more_attributes
+            .iter()
+            .map(|a| a.take(&split.kept))
+            .collect(),
         favourable: data.favourable.clone(),
         unfavourable: data.unfavourable.clone(),
     }
@@ -305,7 +311,7 @@ pub fn run(
                 .position(|g| &g.name == name)
                 .ok_or_else(|| Error::UnknownValue {
                     flag: "--hold-group".into(),
-                    column: settings.schema.protected.clone(),
+                    column: data.protected.clone(),
                     value: name.clone(),
                     hint: nearest_hint(name, data.group_list.iter().map(|g| g.name.as_str())),
                 })?,
@@ -345,6 +351,7 @@ pub fn run(
         .check_growth
         .map(|factor| growth_summary(&rounds, factor));
     let mut warnings = data.warnings.clone();
+    warnings.extend(data.first_attribute_only());
     if data.rows() < 2_000 {
         warnings.push(format!(
             "{} rows: realised gains on test parts this small are noisy, so few of them differ \
@@ -390,7 +397,7 @@ fn run_round(
     let trials = &settings.trials;
     let split = split_round(data, backtest, trials.seed, round);
     let reduced = reduced_dataset(data, &split, &backtest.hold_features);
-    let options = round_options(data, &split, backtest, &settings.schema.protected, group);
+    let options = round_options(data, &split, backtest, &data.protected, group);
     let (report, appraiser) = appraise::appraise_dataset(
         AppraisalInput {
             data: reduced.clone(),
@@ -1113,6 +1120,8 @@ mod tests {
             ],
             reference: 0,
             reference_rule: String::new(),
+            protected: "g".into(),
+            more_attributes: Vec::new(),
             features: vec![
                 numeric("id", &|i| i as f64),
                 numeric("x", &|i| (i % 7) as f64),

@@ -39,9 +39,84 @@ pub fn build_report(
     data: &Dataset,
     outcomes: &[TrialOutcome],
 ) -> Result<BaselineReport> {
-    let names: Vec<String> = data.group_list.iter().map(|g| g.name.clone()).collect();
-    let groups = group_summaries(data);
+    let mut warnings = data.warnings.clone();
+    let (label_bias, model) = assess(settings, data, outcomes, &mut warnings)?;
+    let mut attributes = Vec::new();
+    for (k, attribute) in data.more_attributes.iter().enumerate() {
+        let view = data.attribute_view(k);
+        let by_attribute: Vec<TrialOutcome> = outcomes
+            .iter()
+            .map(|o| TrialOutcome {
+                counts: o.more_counts[k].clone(),
+                more_counts: Vec::new(),
+                ..o.clone()
+            })
+            .collect();
+        let (label_bias, model) = assess(settings, &view, &by_attribute, &mut warnings)?;
+        attributes.push(AttributeSection {
+            attribute: attribute.name.clone(),
+            groups: group_summaries(&view),
+            reference: reference_group(&view),
+            label_bias,
+            model_groups: model.groups,
+            comparisons: model.comparisons,
+            worst: model.worst,
+            four_fifths: model.four_fifths,
+            too_small: attribute
+                .too_small
+                .iter()
+                .map(|(group, rows, favourable)| SmallCell {
+                    group: group.clone(),
+                    rows: *rows,
+                    favourable_labels: *favourable,
+                })
+                .collect(),
+        });
+    }
 
+    let favourable_labels = data.labels.iter().filter(|&&l| l).count();
+    let summarise = |c: &crate::data::Column| FeatureSummary {
+        name: c.name.clone(),
+        kind: c.kind().to_string(),
+        missing: c.missing_count(),
+        levels: match &*c.values {
+            Values::Categorical { levels, .. } => Some(levels.len()),
+            Values::Numeric(_) => None,
+        },
+    };
+    Ok(BaselineReport {
+        format: FORMAT.into(),
+        format_version: FORMAT_VERSION,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
+        command: "baseline".into(),
+        inputs: inputs(settings, table, data),
+        data: DataSummary {
+            rows_read: data.rows_read,
+            rows_used: data.rows(),
+            dropped_missing_label: data.dropped_missing_label,
+            dropped_missing_group: data.dropped_missing_group,
+            favourable_labels,
+            features: data.features.iter().map(summarise).collect(),
+            candidates: data.candidates.iter().map(summarise).collect(),
+        },
+        groups: group_summaries(data),
+        reference: reference_group(data),
+        label_bias,
+        model,
+        attributes,
+        warnings,
+        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+/// The bias in the labels and the model's figures by the groups of `data`, from `outcomes`.
+fn assess(
+    settings: &Settings,
+    data: &Dataset,
+    outcomes: &[TrialOutcome],
+    warnings: &mut Vec<String>,
+) -> Result<(LabelBias, ModelSummary)> {
+    let names: Vec<String> = data.group_list.iter().map(|g| g.name.clone()).collect();
     let label_counts = label_counts(data);
     let reference = data.reference;
     let label_bias = LabelBias {
@@ -78,42 +153,8 @@ pub fn build_report(
         })
         .collect(),
     };
-
-    let mut warnings = data.warnings.clone();
-    let model = summarise_model(settings, data, outcomes, &names, &mut warnings)?;
-
-    let favourable_labels = data.labels.iter().filter(|&&l| l).count();
-    let summarise = |c: &crate::data::Column| FeatureSummary {
-        name: c.name.clone(),
-        kind: c.kind().to_string(),
-        missing: c.missing_count(),
-        levels: match &*c.values {
-            Values::Categorical { levels, .. } => Some(levels.len()),
-            Values::Numeric(_) => None,
-        },
-    };
-    Ok(BaselineReport {
-        format: FORMAT.into(),
-        format_version: FORMAT_VERSION,
-        tool_version: env!("CARGO_PKG_VERSION").into(),
-        command: "baseline".into(),
-        inputs: inputs(settings, table, data),
-        data: DataSummary {
-            rows_read: data.rows_read,
-            rows_used: data.rows(),
-            dropped_missing_label: data.dropped_missing_label,
-            dropped_missing_group: data.dropped_missing_group,
-            favourable_labels,
-            features: data.features.iter().map(summarise).collect(),
-            candidates: data.candidates.iter().map(summarise).collect(),
-        },
-        groups,
-        reference: reference_group(data),
-        label_bias,
-        model,
-        warnings,
-        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
-    })
+    let model = summarise_model(settings, data, outcomes, &names, warnings)?;
+    Ok((label_bias, model))
 }
 
 /// What the run read and how it was set, for any report.
@@ -123,7 +164,7 @@ pub fn inputs(settings: &Settings, table: &Table, data: &Dataset) -> Inputs {
         target: settings.schema.target.clone(),
         favourable: data.favourable.clone(),
         unfavourable: data.unfavourable.clone(),
-        protected: settings.schema.protected.clone(),
+        protected: data.protected.clone(),
         use_protected: settings.schema.use_protected,
         model: settings.trials.model.name().into(),
         repeats: settings.trials.repeats,

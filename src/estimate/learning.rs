@@ -276,6 +276,7 @@ pub fn run(
     };
     let measured = measure_curves(&data, settings, &plan, &requested, progress)?.swap_remove(0);
     let mut warnings = measured.warnings;
+    warnings.extend(data.first_attribute_only());
     warnings.extend(data.warnings.iter().cloned());
     let fitted = measured.fitted;
     warnings.extend(fitted.warnings.iter().cloned());

@@ -21,6 +21,19 @@ enum Block {
     List(String, Vec<String>),
     /// An SVG chart, under a heading of its own where one is given: in the HTML only.
     Chart(Option<String>, String),
+    /// A block the terminal leaves out unless asked for its detail (the full tables a line
+    /// summarises), written in the Markdown and HTML.
+    Detail(Box<Block>),
+}
+
+impl Block {
+    /// The block as the files show it: a detail block is its content.
+    fn in_files(&self) -> &Block {
+        match self {
+            Block::Detail(inner) => inner,
+            block => block,
+        }
+    }
 }
 
 /// A report's view, built once and written as text, Markdown or HTML.
@@ -71,10 +84,32 @@ impl Document {
             .push(Block::Chart(heading.map(str::to_string), svg));
     }
 
-    /// The terminal view.
+    /// Adds what `build` adds as detail: in the files, and in the terminal only when asked
+    /// for ([`Document::plain_detailed`]).
+    pub(super) fn detail(&mut self, build: impl FnOnce(&mut Document)) {
+        let mut inner = Document::new("");
+        build(&mut inner);
+        self.blocks
+            .extend(inner.blocks.into_iter().map(|b| Block::Detail(Box::new(b))));
+    }
+
+    /// The terminal view, without the detail blocks.
     pub fn plain(&self) -> String {
+        self.terminal(false)
+    }
+
+    /// The terminal view with every detail block.
+    pub fn plain_detailed(&self) -> String {
+        self.terminal(true)
+    }
+
+    fn terminal(&self, detailed: bool) -> String {
         let mut out = String::new();
-        for block in &self.blocks {
+        let shown = self.blocks.iter().filter_map(|b| match b {
+            Block::Detail(inner) => detailed.then_some(inner.as_ref()),
+            b => Some(b),
+        });
+        for block in shown {
             match block {
                 Block::Text(t) => {
                     let _ = writeln!(out, "{t}");
@@ -93,7 +128,7 @@ impl Document {
                         let _ = writeln!(out, "  - {i}");
                     }
                 }
-                Block::Chart(..) => {}
+                Block::Chart(..) | Block::Detail(_) => {}
             }
         }
         out
@@ -109,7 +144,7 @@ impl Document {
                 .join("  \n")
         };
         let mut after_text = false;
-        for block in &self.blocks {
+        for block in self.blocks.iter().map(Block::in_files) {
             if after_text && matches!(block, Block::Text(_)) {
                 // Lines of text in a row stay one paragraph, broken at each line.
                 out.truncate(out.len() - 1);
@@ -144,7 +179,8 @@ impl Document {
                     }
                     out.push('\n');
                 }
-                Block::Gap | Block::Chart(..) => {}
+                // A detail block is unwrapped by `in_files`.
+                Block::Gap | Block::Chart(..) | Block::Detail(_) => {}
                 Block::List(h, items) => {
                     let _ = writeln!(out, "## {}\n", markdown_text(h));
                     for i in items {
@@ -168,7 +204,7 @@ impl Document {
             escape(&self.title)
         );
         let mut after_text = false;
-        for block in &self.blocks {
+        for block in self.blocks.iter().map(Block::in_files) {
             let go_on = after_text && matches!(block, Block::Text(_));
             after_text = matches!(block, Block::Text(_));
             match block {
@@ -228,6 +264,8 @@ impl Document {
                     }
                     let _ = writeln!(out, "<div class=\"chart\">{svg}</div>");
                 }
+                // Unwrapped by `in_files`.
+                Block::Detail(_) => {}
             }
         }
         out.push_str("</body>\n</html>\n");

@@ -41,10 +41,62 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         inputs.test_fraction * 100.0,
         inputs.seed));
 
-    d.heading("Groups");
+    let figures = AttributeFigures {
+        groups: &report.groups,
+        reference: &report.reference,
+        label_bias: &report.label_bias,
+        model_groups: &report.model.groups,
+        comparisons: &report.model.comparisons,
+        worst: &report.model.worst,
+        four_fifths: &report.model.four_fifths,
+    };
+    label_tables(&mut d, &figures, "");
+    let m = &report.model;
+    let level = (inputs.confidence * 100.0).round();
+    d.heading(format!(
+"Model on held-out rows ({} trials of {} training / {} test rows; mean [{level}% interval])", m.trials,
+        thousands(m.train_rows),
+        thousands(m.test_rows)));
+    let mut t = Table::new(&["measure", "value"]);
+    t.row(vec!["accuracy".into(), with_interval(Some(&m.accuracy))]);
+    t.row(vec![
+        "balanced accuracy".into(),
+        with_interval(m.balanced_accuracy.as_ref()),
+    ]);
+    t.row(vec![
+        "AUC".into(),
+        with_interval(m.area_under_curve.as_ref()),
+    ]);
+    d.table(t);
+
+    d.gap();
+    model_tables(&mut d, &figures, "", inputs.confidence);
+    for section in &report.attributes {
+        attribute_section(&mut d, section, inputs.confidence);
+    }
+
+    warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
+    d
+}
+
+/// One attribute's figures as the baseline shows them: the first attribute's, or those of a
+/// further attribute or intersection ([`crate::report::AttributeSection`]).
+struct AttributeFigures<'a> {
+    groups: &'a [crate::report::GroupSummary],
+    reference: &'a crate::report::ReferenceGroup,
+    label_bias: &'a crate::report::LabelBias,
+    model_groups: &'a [crate::report::GroupRates],
+    comparisons: &'a [crate::report::Comparison],
+    worst: &'a crate::report::WorstGroups,
+    four_fifths: &'a [crate::report::ModelFourFifths],
+}
+
+/// The groups and the bias in their labels, headings ending in `by` (" by 'race'").
+fn label_tables(d: &mut Document, f: &AttributeFigures, by: &str) {
+    d.heading(format!("Groups{by}"));
     let mut t = Table::new(&["group", "formed as", "rows", "favourable", "label rate"]);
-    for g in &report.groups {
-        let mark = if g.name == report.reference.name {
+    for g in f.groups {
+        let mark = if g.name == f.reference.name {
             " (reference)"
         } else {
             ""
@@ -58,9 +110,9 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         ]);
     }
     d.table(t);
-    d.note(format!("reference: {}", report.reference.rule));
+    d.note(format!("reference: {}", f.reference.rule));
 
-    d.heading("Bias already in the labels");
+    d.heading(format!("Bias already in the labels{by}"));
     let mut t = Table::new(&[
         "group",
         "SPD",
@@ -70,12 +122,8 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         "Fisher p",
         "one person flips it",
     ]);
-    for c in &report.label_bias.comparisons {
-        let finding = report
-            .label_bias
-            .four_fifths
-            .iter()
-            .find(|f| f.group == c.group);
+    for c in &f.label_bias.comparisons {
+        let finding = f.label_bias.four_fifths.iter().find(|f| f.group == c.group);
         t.row(vec![
             c.group.clone(),
             maybe(c.statistical_parity_difference),
@@ -104,26 +152,11 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
     }
     d.table(t);
     d.note("four-fifths: each group's favourable rate over the highest group's; flagged only when below 0.8");
+}
 
-    let m = &report.model;
-    let level = (inputs.confidence * 100.0).round();
-    d.heading(format!(
-"Model on held-out rows ({} trials of {} training / {} test rows; mean [{level}% interval])", m.trials,
-        thousands(m.train_rows),
-        thousands(m.test_rows)));
-    let mut t = Table::new(&["measure", "value"]);
-    t.row(vec!["accuracy".into(), with_interval(Some(&m.accuracy))]);
-    t.row(vec![
-        "balanced accuracy".into(),
-        with_interval(m.balanced_accuracy.as_ref()),
-    ]);
-    t.row(vec![
-        "AUC".into(),
-        with_interval(m.area_under_curve.as_ref()),
-    ]);
-    d.table(t);
-
-    d.gap();
+/// The model's rates, disparities and four-fifths findings by the groups, headings ending in
+/// `by`.
+fn model_tables(d: &mut Document, f: &AttributeFigures, by: &str, confidence: f64) {
     let mut t = Table::new(&[
         "group",
         "test rows",
@@ -131,7 +164,7 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         "true positive rate",
         "false positive rate",
     ]);
-    for g in &m.groups {
+    for g in f.model_groups {
         t.row(vec![
             g.group.clone(),
             format!("{:.0}", g.test_rows),
@@ -143,9 +176,9 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
     d.table(t);
 
     d.heading(format!(
-        "Each group beside the reference group '{}' (* differs from parity at p < {:.2})",
-        report.reference.name,
-        1.0 - inputs.confidence
+        "Each group beside the reference group '{}'{by} (* differs from parity at p < {:.2})",
+        f.reference.name,
+        1.0 - confidence
     ));
     let mut t = Table::new(&[
         "group",
@@ -154,18 +187,18 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         "gap in true positive rate (0 = parity)",
         "mean gap in TPR and FPR (0 = parity)",
     ]);
-    for c in &m.comparisons {
+    for c in f.comparisons {
         let cell = |e: &Option<Estimate>| {
             format!(
                 "{}{}",
                 with_interval(e.as_ref()),
-                significance(e.as_ref(), inputs.confidence)
+                significance(e.as_ref(), confidence)
             )
         };
         // The gaps are differences, signed (+ as well as -); disparate impact is a ratio.
         let gap = |e: &Option<Estimate>| {
             e.as_ref()
-                .map_or("n/a".into(), |e| signed_estimate(e, inputs.confidence))
+                .map_or("n/a".into(), |e| signed_estimate(e, confidence))
         };
         t.row(vec![
             c.group.clone(),
@@ -180,8 +213,8 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         "the four columns are the statistical parity difference (SPD), disparate impact (DI), \
          equal opportunity difference (EOD) and average odds difference (AOD)",
     );
-    if m.comparisons.len() > 1 {
-        let w = &m.worst;
+    if f.comparisons.len() > 1 {
+        let w = f.worst;
         let show = |w: &Option<crate::report::Worst>| {
             w.as_ref().map_or("n/a".into(), |w| {
                 format!("{} ({:.4})", w.group, w.unfairness)
@@ -196,24 +229,99 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         ));
     }
 
-    d.heading("Four-fifths rule on the model's selections (ratio to the highest group, per trial)");
+    d.heading(format!(
+        "Four-fifths rule on the model's selections{by} (ratio to the highest group, per trial)"
+    ));
     let mut t = Table::new(&["group", "impact ratio", "finding", "trials below 0.8"]);
-    for f in &m.four_fifths {
+    for x in f.four_fifths {
         t.row(vec![
-            f.group.clone(),
-            with_interval(Some(&f.impact_ratio)),
-            if f.adverse_impact {
+            x.group.clone(),
+            with_interval(Some(&x.impact_ratio)),
+            if x.adverse_impact {
                 "adverse impact".into()
             } else {
                 "not flagged".into()
             },
-            format!("{} of {}", f.trials_flagged, f.impact_ratio.trials),
+            format!("{} of {}", x.trials_flagged, x.impact_ratio.trials),
         ]);
     }
     d.table(t);
+}
 
-    warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
-    d
+/// A further attribute or intersection: one summary line in the terminal (its groups and
+/// reference, the groups the four-fifths rule flags in the labels and in the model's
+/// selections, the worst group by EOD, the cells too small), its full tables as detail.
+fn attribute_section(d: &mut Document, a: &crate::report::AttributeSection, confidence: f64) {
+    let flagged = |names: Vec<&str>| {
+        if names.is_empty() {
+            "none".to_string()
+        } else {
+            names.join(", ")
+        }
+    };
+    let in_labels = flagged(
+        a.label_bias
+            .four_fifths
+            .iter()
+            .filter(|f| f.adverse_impact)
+            .map(|f| f.group.as_str())
+            .collect(),
+    );
+    let in_model = flagged(
+        a.four_fifths
+            .iter()
+            .filter(|f| f.adverse_impact)
+            .map(|f| f.group.as_str())
+            .collect(),
+    );
+    let worst = a
+        .worst
+        .equal_opportunity_difference
+        .as_ref()
+        .map_or("n/a".into(), |w| {
+            format!("{} ({:.4})", w.group, w.unfairness)
+        });
+    let small = if a.too_small.is_empty() {
+        String::new()
+    } else {
+        format!(
+            "; too small to assess: {}",
+            a.too_small
+                .iter()
+                .map(|c| format!(
+                    "{} ({} rows, {} favourable)",
+                    c.group,
+                    thousands(c.rows),
+                    thousands(c.favourable_labels)
+                ))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    };
+    d.heading(format!(
+        "By '{}': {} groups, reference '{}'",
+        a.attribute,
+        a.groups.len(),
+        a.reference.name
+    ));
+    d.note(format!(
+        "four-fifths flags in the labels: {in_labels}; in the model's selections: {in_model}; worst EOD: {worst}{small} (full tables with --detail, and in the Markdown and HTML)"
+    ));
+    let figures = AttributeFigures {
+        groups: &a.groups,
+        reference: &a.reference,
+        label_bias: &a.label_bias,
+        model_groups: &a.model_groups,
+        comparisons: &a.comparisons,
+        worst: &a.worst,
+        four_fifths: &a.four_fifths,
+    };
+    let by = format!(" by '{}'", a.attribute);
+    d.detail(|d| {
+        label_tables(d, &figures, &by);
+        d.heading(format!("The model's rates by '{}'", a.attribute));
+        model_tables(d, &figures, &by, confidence);
+    });
 }
 
 /// The curves report as terminal text.

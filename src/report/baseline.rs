@@ -28,6 +28,10 @@ pub struct BaselineReport {
     pub label_bias: LabelBias,
     /// The model measured over repeated trials.
     pub model: ModelSummary,
+    /// Every further protected attribute (`--protected a,b,c`), then every intersection of two
+    /// (`--intersections`), assessed as the first is on the same trials; absent with one.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub attributes: Vec<AttributeSection>,
     /// What the reader should know about this run.
     pub warnings: Vec<String>,
     /// The cautions every report carries.
@@ -105,6 +109,43 @@ pub struct FourFifthsRecord {
     pub z_p_value: Option<f64>,
     /// Fisher's exact test p, where a cell count is small.
     pub fisher_p_value: Option<f64>,
+}
+
+/// A further protected attribute, or the intersection of two, assessed on the baseline's own
+/// trials: its groups and label bias, and the model's rates, disparities and four-fifths
+/// findings by its groups.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct AttributeSection {
+    /// The column, or "a × b" for an intersection.
+    pub attribute: String,
+    /// Its groups (an intersection's cells large enough to assess) with their label rates.
+    pub groups: Vec<GroupSummary>,
+    /// The group the others are compared with.
+    pub reference: ReferenceGroup,
+    /// Disparity already present in the labels.
+    pub label_bias: LabelBias,
+    /// Each group's rates under the model.
+    pub model_groups: Vec<GroupRates>,
+    /// Each compared group against the reference.
+    pub comparisons: Vec<Comparison>,
+    /// The compared group farthest from fair on each measure.
+    pub worst: WorstGroups,
+    /// The four-fifths rule on predicted selection rates.
+    pub four_fifths: Vec<ModelFourFifths>,
+    /// Cells of an intersection too small to assess, left out of every figure above.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub too_small: Vec<SmallCell>,
+}
+
+/// A cell of an intersection too small to assess, with its counts.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SmallCell {
+    /// The cell ("Female & Other").
+    pub group: String,
+    /// Its rows.
+    pub rows: usize,
+    /// Its rows with the favourable label.
+    pub favourable_labels: usize,
 }
 
 /// The baseline model, measured over repeated trials.

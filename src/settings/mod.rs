@@ -36,12 +36,18 @@ pub struct Choices {
     pub target: Option<String>,
     /// `--favourable` (or `favourable` in the project file).
     pub favourable: Option<String>,
-    /// `--protected` (or `protected` in the project file).
+    /// `--protected` (or `protected` in the project file: a name, names separated by commas,
+    /// or a list of names).
+    #[serde(default, deserialize_with = "names::joined")]
     pub protected: Option<String>,
-    /// `--reference` (or `reference` in the project file).
-    pub reference: Option<String>,
-    /// `--groups` (or `groups` in the project file).
-    pub groups: Option<String>,
+    /// `--reference`, once per attribute (or `reference` in the project file: one, or a list).
+    #[serde(default, deserialize_with = "names::one_or_many")]
+    pub reference: Option<Vec<String>>,
+    /// `--groups`, once per attribute (or `groups` in the project file: one, or a list).
+    #[serde(default, deserialize_with = "names::one_or_many")]
+    pub groups: Option<Vec<String>>,
+    /// `--intersections` (or `intersections` in the project file).
+    pub intersections: Option<bool>,
     /// `--features` (or `features` in the project file).
     pub features: Option<Vec<String>>,
     /// `--exclude` (or `exclude` in the project file).
@@ -155,6 +161,7 @@ impl Choices {
             protected,
             reference,
             groups,
+            intersections,
             features,
             exclude,
             categorical,
@@ -318,12 +325,11 @@ pub struct SchemaSettings {
     pub target: String,
     /// The favourable label value, or a comparison such as `>=10` for a numeric target.
     pub favourable: String,
-    /// The protected column.
-    pub protected: String,
-    /// The reference group, when given.
-    pub reference: Option<String>,
-    /// Groups formed from the protected column; `None` means one group per distinct value.
-    pub groups: Option<Vec<GroupRule>>,
+    /// The protected attributes, in the order given: the first is the one every command
+    /// assesses; the baseline reports every one.
+    pub protected: Vec<ProtectedAttribute>,
+    /// Whether the baseline also reports the intersections of every pair of attributes.
+    pub intersections: bool,
     /// Columns to train on, when given (else every other column).
     pub features: Option<Vec<String>>,
     /// Columns left out.
@@ -332,6 +338,123 @@ pub struct SchemaSettings {
     pub categorical: Vec<String>,
     /// Whether the model sees the protected column.
     pub use_protected: bool,
+}
+
+/// One protected attribute: its column, how its groups are formed, and its reference group.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ProtectedAttribute {
+    /// The protected column.
+    pub column: String,
+    /// The reference group, when given.
+    pub reference: Option<String>,
+    /// Groups formed from the column; `None` means one group per distinct value.
+    pub groups: Option<Vec<GroupRule>>,
+}
+
+impl SchemaSettings {
+    /// The first protected attribute, the one every command assesses.
+    pub fn primary(&self) -> &ProtectedAttribute {
+        &self.protected[0]
+    }
+}
+
+/// The protected attributes of `--protected a,b,c`, each with its `--groups` and `--reference`.
+/// With one attribute these take their plain forms (`--groups 'f=A92;m=*'`, `--reference f`);
+/// with several, each names its attribute: `--groups 'age:young=<=25;older=>25'` (a prefix
+/// before the first '=' ending in ':'), `--reference age=older` (an attribute before '='); an
+/// unprefixed one belongs to the first attribute.
+fn protected_attributes(
+    columns: &str,
+    groups: &[String],
+    references: &[String],
+) -> Result<Vec<ProtectedAttribute>> {
+    let names = trimmed(&columns.split(',').map(String::from).collect::<Vec<_>>());
+    if names.is_empty() {
+        return Err(Error::setting("--protected", "is required"));
+    }
+    if let Some(name) = first_repeat(&names) {
+        return Err(Error::setting(
+            "--protected",
+            format!("names '{name}' twice"),
+        ));
+    }
+    let mut attributes: Vec<ProtectedAttribute> = names
+        .iter()
+        .map(|column| ProtectedAttribute {
+            column: column.clone(),
+            reference: None,
+            groups: None,
+        })
+        .collect();
+    let listed = names.join(", ");
+    let attribute = |flag: &str, name: &str| {
+        names.iter().position(|n| n == name).ok_or_else(|| {
+            Error::setting(
+                flag,
+                format!("'{name}' is not a protected attribute (--protected: {listed})"),
+            )
+        })
+    };
+    for text in groups {
+        let (index, rules) = match text.split_once('=').and_then(|(head, _)| head.find(':')) {
+            Some(colon) if names.len() > 1 || text[..colon].trim() == names[0] => (
+                attribute("--groups", text[..colon].trim())?,
+                &text[colon + 1..],
+            ),
+            _ => (0, text.as_str()),
+        };
+        if attributes[index].groups.is_some() {
+            return Err(Error::setting(
+                "--groups",
+                format!("gives the groups of '{}' twice", names[index]),
+            ));
+        }
+        attributes[index].groups = Some(parse_groups(rules)?);
+    }
+    for text in references {
+        let (index, group) = match text.split_once('=') {
+            Some((name, group)) if names.len() > 1 => {
+                (attribute("--reference", name.trim())?, group)
+            }
+            _ => (0, text.as_str()),
+        };
+        if attributes[index].reference.is_some() {
+            return Err(Error::setting(
+                "--reference",
+                format!("names the reference of '{}' twice", names[index]),
+            ));
+        }
+        attributes[index].reference = Some(group.trim().to_string());
+    }
+    Ok(attributes)
+}
+
+/// Project-file values that may be one string or a list of them.
+mod names {
+    use serde::{Deserialize, Deserializer};
+
+    #[derive(Deserialize)]
+    #[serde(untagged)]
+    enum OneOrMany {
+        One(String),
+        Many(Vec<String>),
+    }
+
+    /// One string, or a list of strings joined with commas.
+    pub fn joined<'de, D: Deserializer<'de>>(d: D) -> Result<Option<String>, D::Error> {
+        Ok(Option::<OneOrMany>::deserialize(d)?.map(|v| match v {
+            OneOrMany::One(s) => s,
+            OneOrMany::Many(list) => list.join(","),
+        }))
+    }
+
+    /// One string, or a list of strings.
+    pub fn one_or_many<'de, D: Deserializer<'de>>(d: D) -> Result<Option<Vec<String>>, D::Error> {
+        Ok(Option::<OneOrMany>::deserialize(d)?.map(|v| match v {
+            OneOrMany::One(s) => vec![s],
+            OneOrMany::Many(list) => list,
+        }))
+    }
 }
 
 /// How trials are run.
@@ -388,6 +511,11 @@ impl Settings {
         let target = required(choices.target, "--target")?;
         let favourable = required(choices.favourable, "--favourable")?;
         let protected = required(choices.protected, "--protected")?;
+        let protected = protected_attributes(
+            &protected,
+            choices.groups.as_deref().unwrap_or_default(),
+            choices.reference.as_deref().unwrap_or_default(),
+        )?;
 
         let delimiter = choices
             .delimiter
@@ -479,9 +607,8 @@ impl Settings {
             schema: SchemaSettings {
                 target: target.trim().to_string(),
                 favourable: favourable.trim().to_string(),
-                protected: protected.trim().to_string(),
-                reference: choices.reference.map(|r| r.trim().to_string()),
-                groups: choices.groups.as_deref().map(parse_groups).transpose()?,
+                protected,
+                intersections: choices.intersections.unwrap_or(false),
                 features: choices.features.map(|f| trimmed(&f)),
                 exclude: trimmed(&choices.exclude.unwrap_or_default()),
                 categorical: trimmed(&choices.categorical.unwrap_or_default()),

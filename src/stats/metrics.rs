@@ -57,7 +57,10 @@ pub fn group_counts(
 ) -> Vec<GroupCounts> {
     let mut counts = vec![GroupCounts::default(); group_count];
     for ((&label, &prediction), &group) in labels.iter().zip(predicted).zip(groups) {
-        let c = &mut counts[group as usize];
+        // A row of no group counted here (a cell too small to assess) is skipped.
+        let Some(c) = counts.get_mut(group as usize) else {
+            continue;
+        };
         c.rows += 1;
         c.favourable_labels += u64::from(label);
         c.selected += u64::from(prediction);
