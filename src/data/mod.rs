@@ -1126,8 +1126,8 @@ impl Dataset {
         }
     }
 
-    /// For the commands that assess the first protected attribute only (all but the
-    /// baseline): a warning naming it, where more were given.
+    /// For the commands that assess the first protected attribute only (appraise, plan and
+    /// backtest): a warning naming it, where more were given.
     pub fn first_attribute_only(&self) -> Option<String> {
         let more: Vec<&str> = self
             .more_attributes
@@ -1136,7 +1136,7 @@ impl Dataset {
             .collect();
         (!more.is_empty()).then(|| {
             format!(
-                "several protected attributes were given: this command assesses '{}' (the first) only; `acquest baseline` reports {} as well",
+                "several protected attributes were given: this command assesses '{}' (the first) only; `acquest baseline` and `acquest curves` report {} as well",
                 self.protected,
                 more.join(", ")
             )

@@ -57,6 +57,18 @@ pub struct TrialOutcome {
     pub test_rows: usize,
 }
 
+impl TrialOutcome {
+    /// The outcome as seen by further attribute `k` of the data's `more_attributes`: its
+    /// counts in place of the first attribute's.
+    pub fn for_attribute(&self, k: usize) -> TrialOutcome {
+        TrialOutcome {
+            counts: self.more_counts[k].clone(),
+            more_counts: Vec::new(),
+            ..self.clone()
+        }
+    }
+}
+
 /// The trials an estimate needs.
 pub struct TrialDesign<'a> {
     /// Name of the stage in progress events.

@@ -44,14 +44,7 @@ pub fn build_report(
     let mut attributes = Vec::new();
     for (k, attribute) in data.more_attributes.iter().enumerate() {
         let view = data.attribute_view(k);
-        let by_attribute: Vec<TrialOutcome> = outcomes
-            .iter()
-            .map(|o| TrialOutcome {
-                counts: o.more_counts[k].clone(),
-                more_counts: Vec::new(),
-                ..o.clone()
-            })
-            .collect();
+        let by_attribute: Vec<TrialOutcome> = outcomes.iter().map(|o| o.for_attribute(k)).collect();
         let (label_bias, model) = assess(settings, &view, &by_attribute, &mut warnings)?;
         attributes.push(AttributeSection {
             attribute: attribute.name.clone(),

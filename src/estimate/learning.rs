@@ -276,8 +276,14 @@ pub fn run(
     };
     let measured = measure_curves(&data, settings, &plan, &requested, progress)?.swap_remove(0);
     let mut warnings = measured.warnings;
-    warnings.extend(data.first_attribute_only());
     warnings.extend(data.warnings.iter().cloned());
+    let attributes = attribute_curves(
+        &data,
+        &measured.outcomes,
+        &measured.fitted.sizes,
+        &requested(measured.schedule.training_rows),
+        &settings.trials,
+    );
     let fitted = measured.fitted;
     warnings.extend(fitted.warnings.iter().cloned());
     let top = fitted.largest() as f64;
@@ -302,9 +308,51 @@ pub fn run(
         reference: baseline::reference_group(&data),
         curves: fitted.curves,
         disparities: fitted.disparities,
+        attributes,
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
     })
+}
+
+/// The curves of every further protected attribute and intersection of `data`: the same
+/// trials' `outcomes` (`[repeat][size]`) with each attribute's counts in place of the first's,
+/// fitted as the first's are (accuracy is the first's own and not repeated).
+fn attribute_curves(
+    data: &Dataset,
+    outcomes: &[Vec<TrialOutcome>],
+    sizes: &[usize],
+    requested: &[f64],
+    trials: &crate::settings::TrialSettings,
+) -> Vec<AttributeCurves> {
+    (0..data.more_attributes.len())
+        .map(|k| {
+            let view = data.attribute_view(k);
+            let by_attribute: Vec<Vec<TrialOutcome>> = outcomes
+                .iter()
+                .map(|repeat| repeat.iter().map(|o| o.for_attribute(k)).collect())
+                .collect();
+            let fitted = fit_curves(
+                &view,
+                &by_attribute,
+                sizes,
+                requested,
+                trials.confidence,
+                trials.seed,
+                &baseline::label_counts(&view),
+            );
+            AttributeCurves {
+                attribute: data.more_attributes[k].name.clone(),
+                groups: baseline::group_summaries(&view),
+                reference: baseline::reference_group(&view),
+                curves: fitted
+                    .curves
+                    .into_iter()
+                    .filter(|c| c.group.is_some())
+                    .collect(),
+                disparities: fitted.disparities,
+            }
+        })
+        .collect()
 }
 
 /// Which rows and columns a set of learning curves is measured on.

@@ -24,14 +24,18 @@ enum Block {
     /// A block the terminal leaves out unless asked for its detail (the full tables a line
     /// summarises), written in the Markdown and HTML.
     Detail(Box<Block>),
+    /// A remark for the terminal's short view only (where to find what it leaves out).
+    Brief(String),
 }
 
 impl Block {
-    /// The block as the files show it: a detail block is its content.
-    fn in_files(&self) -> &Block {
+    /// The block as the files show it: a detail block is its content; a brief one is not
+    /// shown.
+    fn in_files(&self) -> Option<&Block> {
         match self {
-            Block::Detail(inner) => inner,
-            block => block,
+            Block::Detail(inner) => Some(inner),
+            Block::Brief(_) => None,
+            block => Some(block),
         }
     }
 }
@@ -84,6 +88,11 @@ impl Document {
             .push(Block::Chart(heading.map(str::to_string), svg));
     }
 
+    /// A remark shown in the terminal's short view only, as a note.
+    pub(super) fn brief(&mut self, text: impl Into<String>) {
+        self.blocks.push(Block::Brief(text.into()));
+    }
+
     /// Adds what `build` adds as detail: in the files, and in the terminal only when asked
     /// for ([`Document::plain_detailed`]).
     pub(super) fn detail(&mut self, build: impl FnOnce(&mut Document)) {
@@ -107,6 +116,7 @@ impl Document {
         let mut out = String::new();
         let shown = self.blocks.iter().filter_map(|b| match b {
             Block::Detail(inner) => detailed.then_some(inner.as_ref()),
+            Block::Brief(_) if detailed => None,
             b => Some(b),
         });
         for block in shown {
@@ -118,7 +128,7 @@ impl Document {
                     let _ = writeln!(out, "\n{h}");
                 }
                 Block::Table(t) => t.render(&mut out),
-                Block::Note(n) => {
+                Block::Note(n) | Block::Brief(n) => {
                     let _ = writeln!(out, "  {n}");
                 }
                 Block::Gap => out.push('\n'),
@@ -144,7 +154,7 @@ impl Document {
                 .join("  \n")
         };
         let mut after_text = false;
-        for block in self.blocks.iter().map(Block::in_files) {
+        for block in self.blocks.iter().filter_map(Block::in_files) {
             if after_text && matches!(block, Block::Text(_)) {
                 // Lines of text in a row stay one paragraph, broken at each line.
                 out.truncate(out.len() - 1);
@@ -179,8 +189,8 @@ impl Document {
                     }
                     out.push('\n');
                 }
-                // A detail block is unwrapped by `in_files`.
-                Block::Gap | Block::Chart(..) | Block::Detail(_) => {}
+                // Detail and brief blocks are sorted out by `in_files`.
+                Block::Gap | Block::Chart(..) | Block::Detail(_) | Block::Brief(_) => {}
                 Block::List(h, items) => {
                     let _ = writeln!(out, "## {}\n", markdown_text(h));
                     for i in items {
@@ -204,7 +214,7 @@ impl Document {
             escape(&self.title)
         );
         let mut after_text = false;
-        for block in self.blocks.iter().map(Block::in_files) {
+        for block in self.blocks.iter().filter_map(Block::in_files) {
             let go_on = after_text && matches!(block, Block::Text(_));
             after_text = matches!(block, Block::Text(_));
             match block {
@@ -264,8 +274,8 @@ impl Document {
                     }
                     let _ = writeln!(out, "<div class=\"chart\">{svg}</div>");
                 }
-                // Unwrapped by `in_files`.
-                Block::Detail(_) => {}
+                // Sorted out by `in_files`.
+                Block::Detail(_) | Block::Brief(_) => {}
             }
         }
         out.push_str("</body>\n</html>\n");

@@ -305,8 +305,9 @@ fn attribute_section(d: &mut Document, a: &crate::report::AttributeSection, conf
         a.reference.name
     ));
     d.note(format!(
-        "four-fifths flags in the labels: {in_labels}; in the model's selections: {in_model}; worst EOD: {worst}{small} (full tables with --detail, and in the Markdown and HTML)"
+        "four-fifths flags in the labels: {in_labels}; in the model's selections: {in_model}; worst EOD: {worst}{small}"
     ));
+    d.brief("the full tables: --detail, or the Markdown and HTML");
     let figures = AttributeFigures {
         groups: &a.groups,
         reference: &a.reference,
@@ -402,35 +403,24 @@ pub fn curves_document(report: &CurvesReport) -> Document {
     }
     d.table(t);
 
-    d.heading(format!(
-        "How each group's gap to '{}' moves along the curves (derived from the fitted rates)",
-        report.reference.name
-    ));
-    let mut header: Vec<String> = vec![
-        "measure".into(),
-        "group".into(),
-        "in labels".into(),
-        "now".into(),
-        "level".into(),
-    ];
-    header.extend(requested.iter().map(|&n| at_header(n)));
-    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
-    let mut t = Table::new(&header_refs);
-    for g in &report.disparities {
-        let mut row = vec![
-            g.measure.clone(),
-            g.group.clone(),
-            maybe(g.in_labels),
-            g.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
-            maybe(g.asymptote),
-        ];
-        for i in 0..requested.len() {
-            row.push(curve_cell(g.at.get(i)));
-        }
-        t.row(row);
-    }
-    d.table(t);
+    let at_headers: Vec<String> = requested.iter().map(|&n| at_header(n)).collect();
+    disparity_table(
+        &mut d,
+        &report.reference.name,
+        None,
+        &report.disparities,
+        &at_headers,
+    );
     d.note("'in labels': the same measure on the labels themselves; more rows of the same kind tend to pull the model towards it");
+    for a in &report.attributes {
+        disparity_table(
+            &mut d,
+            &a.reference.name,
+            Some(&a.attribute),
+            &a.disparities,
+            &at_headers,
+        );
+    }
     if report
         .curves
         .iter()
@@ -448,6 +438,49 @@ pub fn curves_document(report: &CurvesReport) -> Document {
     d.chart(None, super::svg::curves_svg(report));
     warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
     d
+}
+
+/// The disparity curves of the groups against `reference` (of a further `attribute`, or of the
+/// first), read now, at their
+/// level and at the requested sizes (`at_headers`, their columns' names).
+fn disparity_table(
+    d: &mut Document,
+    reference: &str,
+    attribute: Option<&str>,
+    disparities: &[crate::report::DisparityCurve],
+    at_headers: &[String],
+) {
+    let how = format!(
+        "each group's gap to '{reference}' moves along the curves (derived from the fitted rates)"
+    );
+    d.heading(match attribute {
+        None => format!("How {how}"),
+        Some(name) => format!("By '{name}': how {how}"),
+    });
+    let mut header: Vec<String> = vec![
+        "measure".into(),
+        "group".into(),
+        "in labels".into(),
+        "now".into(),
+        "level".into(),
+    ];
+    header.extend(at_headers.iter().cloned());
+    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+    let mut t = Table::new(&header_refs);
+    for g in disparities {
+        let mut row = vec![
+            g.measure.clone(),
+            g.group.clone(),
+            maybe(g.in_labels),
+            g.anchors.last().map_or("n/a".into(), |a| number(a.mean)),
+            maybe(g.asymptote),
+        ];
+        for i in 0..at_headers.len() {
+            row.push(curve_cell(g.at.get(i)));
+        }
+        t.row(row);
+    }
+    d.table(t);
 }
 
 /// The appraisal report as terminal text.

@@ -27,10 +27,30 @@ pub struct CurvesReport {
     pub curves: Vec<CurveRecord>,
     /// SPD, DI, EOD and AOD of each compared group, derived from the fitted rates.
     pub disparities: Vec<DisparityCurve>,
+    /// Every further protected attribute and intersection, its groups' curves from the same
+    /// trials; absent with one attribute.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub attributes: Vec<AttributeCurves>,
     /// What the reader should know about this run.
     pub warnings: Vec<String>,
     /// The cautions every report carries.
     pub cautions: Vec<String>,
+}
+
+/// The learning curves of one further protected attribute (or intersection) by its groups,
+/// fitted to the counts the same trials made of its groups.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct AttributeCurves {
+    /// The column, or "a × b".
+    pub attribute: String,
+    /// Its groups (an intersection's assessed cells) with their label rates.
+    pub groups: Vec<GroupSummary>,
+    /// The group the others are compared with.
+    pub reference: ReferenceGroup,
+    /// Each group's selection rate, true positive rate and false positive rate.
+    pub curves: Vec<CurveRecord>,
+    /// SPD, DI, EOD and AOD of each compared group.
+    pub disparities: Vec<DisparityCurve>,
 }
 
 /// Which training sizes were measured, and how.

@@ -224,15 +224,43 @@ fn a_project_file_lists_the_protected_attributes() {
     let (short, long) = (text(&[]), text(&["--detail"]));
     assert!(short.contains("By 'age': 2 groups, reference 'older'"));
     assert!(!short.contains("Groups by 'age'") && long.contains("Groups by 'age'"));
-    // The other commands say that they assess the first attribute only.
+    // The curves of every attribute come from the same trials: the first's as with one
+    // attribute, the others' by their own groups.
     let out = acquest()
         .current_dir(dir.path())
         .args(["curves", "--quiet", "--json", "-"])
         .output()
         .unwrap();
-    let curves: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    assert!(curves["warnings"].as_array().unwrap().iter().any(|w| w
-        .as_str()
-        .unwrap()
-        .contains("assesses 'personal' (the first) only")));
+    let curves: acquest::report::CurvesReport = serde_json::from_slice(&out.stdout).unwrap();
+    let age = &curves.attributes[0];
+    assert_eq!(age.attribute, "age");
+    assert_eq!(age.curves.len(), 3 * 2, "three rates of each age group");
+    assert!(age
+        .disparities
+        .iter()
+        .any(|d| d.measure == "equal opportunity difference" && d.group == "young"));
+    assert_eq!(
+        age.curves[0].anchors.len(),
+        curves.curves[0].anchors.len(),
+        "the same anchors"
+    );
+    // The commands that assess the first attribute only say so.
+    let demo = super::demo_folder();
+    let out = acquest()
+        .current_dir(demo.path())
+        .args([
+            "appraise",
+            "--quiet",
+            "--protected",
+            "disability,region",
+            "--json",
+            "-",
+        ])
+        .output()
+        .unwrap();
+    let appraisal: acquest::report::AppraisalReport = serde_json::from_slice(&out.stdout).unwrap();
+    assert!(appraisal
+        .warnings
+        .iter()
+        .any(|w| w.contains("assesses 'disability' (the first) only")));
 }
