@@ -95,10 +95,43 @@ pub fn build_report(
         groups: group_summaries(data),
         reference: reference_group(data),
         label_bias,
+        worst_over_attributes: worst_over_attributes(&data.protected, &model.worst, &attributes),
         model,
         attributes,
         warnings,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+    })
+}
+
+/// On each measure, the worst group over the first attribute (`first`, its worst groups
+/// `worst`) and every further section; `None` with one attribute.
+fn worst_over_attributes(
+    first: &str,
+    worst: &WorstGroups,
+    sections: &[AttributeSection],
+) -> Option<WorstOverAttributes> {
+    if sections.is_empty() {
+        return None;
+    }
+    let all: Vec<(&str, &WorstGroups)> = std::iter::once((first, worst))
+        .chain(sections.iter().map(|s| (s.attribute.as_str(), &s.worst)))
+        .collect();
+    let over = |pick: fn(&WorstGroups) -> &Option<Worst>| {
+        all.iter()
+            .filter_map(|(attribute, w)| {
+                pick(w).as_ref().map(|w| WorstOf {
+                    attribute: attribute.to_string(),
+                    group: w.group.clone(),
+                    unfairness: w.unfairness,
+                })
+            })
+            .max_by(|a, b| a.unfairness.total_cmp(&b.unfairness))
+    };
+    Some(WorstOverAttributes {
+        statistical_parity_difference: over(|w| &w.statistical_parity_difference),
+        disparate_impact: over(|w| &w.disparate_impact),
+        equal_opportunity_difference: over(|w| &w.equal_opportunity_difference),
+        average_odds_difference: over(|w| &w.average_odds_difference),
     })
 }
 

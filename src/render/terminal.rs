@@ -74,6 +74,21 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
     for section in &report.attributes {
         attribute_section(&mut d, section, inputs.confidence);
     }
+    if let Some(w) = &report.worst_over_attributes {
+        let show = |w: &Option<crate::report::WorstOf>| {
+            w.as_ref().map_or("n/a".into(), |w| {
+                format!("'{}' of '{}' ({:.4})", w.group, w.attribute, w.unfairness)
+            })
+        };
+        d.heading("Over every protected attribute: the group farthest from fair");
+        d.note(format!(
+            "SPD {}; DI {}; EOD {}; AOD {}",
+            show(&w.statistical_parity_difference),
+            show(&w.disparate_impact),
+            show(&w.equal_opportunity_difference),
+            show(&w.average_odds_difference)
+        ));
+    }
 
     warnings_and_cautions(&mut d, &report.warnings, &report.cautions);
     d

@@ -32,6 +32,10 @@ pub struct BaselineReport {
     /// (`--intersections`), assessed as the first is on the same trials; absent with one.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub attributes: Vec<AttributeSection>,
+    /// With several attributes: on each measure, the attribute and group farthest from fair
+    /// over all of them (the first's `model.worst` and every section's `worst`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub worst_over_attributes: Option<WorstOverAttributes>,
     /// What the reader should know about this run.
     pub warnings: Vec<String>,
     /// The cautions every report carries.
@@ -220,6 +224,31 @@ pub struct WorstGroups {
     pub equal_opportunity_difference: Option<Worst>,
     /// On average odds difference.
     pub average_odds_difference: Option<Worst>,
+}
+
+/// On each measure, the group farthest from fair over every protected attribute and
+/// intersection assessed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WorstOverAttributes {
+    /// On statistical parity difference.
+    pub statistical_parity_difference: Option<WorstOf>,
+    /// On disparate impact.
+    pub disparate_impact: Option<WorstOf>,
+    /// On equal opportunity difference.
+    pub equal_opportunity_difference: Option<WorstOf>,
+    /// On average odds difference.
+    pub average_odds_difference: Option<WorstOf>,
+}
+
+/// A group of an attribute and its unfairness on one measure.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WorstOf {
+    /// The attribute (or intersection) the group belongs to.
+    pub attribute: String,
+    /// The group.
+    pub group: String,
+    /// Its unfairness, 0 is fair.
+    pub unfairness: f64,
 }
 
 /// A group and its unfairness on one measure.

@@ -122,6 +122,38 @@ fn adult_by_sex_and_race_and_their_intersection() {
     );
     // The first attribute is reported as with one attribute.
     assert_eq!(report.groups.len(), 2);
+    // Over every attribute, the worst group by EOD is the worst of the three readings.
+    let over = report
+        .worst_over_attributes
+        .as_ref()
+        .unwrap()
+        .equal_opportunity_difference
+        .as_ref()
+        .unwrap();
+    let readings = [
+        (
+            "sex",
+            report.model.worst.equal_opportunity_difference.as_ref(),
+        ),
+        ("race", race.worst.equal_opportunity_difference.as_ref()),
+        (
+            "sex × race",
+            both.worst.equal_opportunity_difference.as_ref(),
+        ),
+    ];
+    let (attribute, worst) = readings
+        .iter()
+        .map(|(a, w)| (*a, w.unwrap()))
+        .max_by(|a, b| a.1.unfairness.total_cmp(&b.1.unfairness))
+        .unwrap();
+    assert_eq!(
+        (
+            over.attribute.as_str(),
+            over.group.as_str(),
+            over.unfairness
+        ),
+        (attribute, worst.group.as_str(), worst.unfairness)
+    );
 }
 
 #[test]
