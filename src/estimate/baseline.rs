@@ -191,6 +191,11 @@ pub fn inputs(settings: &Settings, table: &Table, data: &Dataset) -> Inputs {
         favourable: data.favourable.clone(),
         unfavourable: data.unfavourable.clone(),
         protected: data.protected.clone(),
+        more_protected: data
+            .more_attributes
+            .iter()
+            .map(|a| a.name.clone())
+            .collect(),
         use_protected: settings.schema.use_protected,
         model: settings.trials.model.name().into(),
         repeats: settings.trials.repeats,

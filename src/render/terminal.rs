@@ -22,8 +22,16 @@ pub fn baseline_document(report: &BaselineReport) -> Document {
         thousands(report.data.rows_used)
     ));
     d.text(format!(
-        "target '{}', favourable '{}' (otherwise '{}'); protected '{}'",
-        inputs.target, inputs.favourable, inputs.unfavourable, inputs.protected
+        "target '{}', favourable '{}' (otherwise '{}'); protected '{}'{}",
+        inputs.target,
+        inputs.favourable,
+        inputs.unfavourable,
+        inputs.protected,
+        if inputs.more_protected.is_empty() {
+            String::new()
+        } else {
+            format!(", also by {}", inputs.more_protected.join(", "))
+        }
     ));
     let numeric = report
         .data

@@ -83,8 +83,12 @@ pub struct Inputs {
     pub favourable: String,
     /// The other label value(s).
     pub unfavourable: String,
-    /// The protected column.
+    /// The protected column (the first of several: the one the utility and plans assess).
     pub protected: String,
+    /// The further protected attributes and intersections the report also assesses (the
+    /// baseline and curves), or names in a warning; absent with one.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub more_protected: Vec<String>,
     /// Whether the model saw the protected column.
     pub use_protected: bool,
     /// The model family.
