@@ -302,6 +302,32 @@ pub fn appraise_dataset(
             main.outcomes.iter().filter_map(|r| r.last()).collect();
         baseline::today_figures(&data, &full, appraisal.fairness)
     };
+    // Today by every further protected attribute, from the same trials at their largest size.
+    let today_by_attribute: Vec<TodayByAttribute> = data
+        .more_attributes
+        .iter()
+        .enumerate()
+        .map(|(k, attribute)| {
+            let view = data.attribute_view(k);
+            let full: Vec<crate::engine::trial::TrialOutcome> = main
+                .outcomes
+                .iter()
+                .filter_map(|r| r.last().map(|o| o.for_attribute(k)))
+                .collect();
+            let figures = baseline::today_figures(
+                &view,
+                &full.iter().collect::<Vec<_>>(),
+                appraisal.fairness,
+            );
+            let measured = figures.unfairness.is_finite();
+            TodayByAttribute {
+                attribute: attribute.name.clone(),
+                reference: view.group_list[view.reference].name.clone(),
+                unfairness: measured.then_some(figures.unfairness),
+                worst_group: measured.then(|| view.group_list[figures.worst].name.clone()),
+            }
+        })
+        .collect();
     // Row counts the rows options for any case can be bought in, for feature-with-rows readings.
     let overall_steps: Vec<usize> = {
         let mut steps: Vec<usize> = options
@@ -392,6 +418,7 @@ pub fn appraise_dataset(
             worst_group: data.group_list[today.worst].name.clone(),
             selection_rates: today.selection_rates,
         },
+        today_by_attribute,
         curves: main.fitted.curves.clone(),
         disparities: main.fitted.disparities.clone(),
         schedule: main.schedule,

@@ -548,6 +548,9 @@ pub fn plan_html(report: &PlanReport) -> String {
         escape(&today_source(a)),
         escape(&report.gain_model)
     );
+    if let Some(sentence) = super::today_by_attribute(a) {
+        let _ = writeln!(out, "<p>{}.</p>", escape(&sentence));
+    }
     let _ = writeln!(out, "<p>Chosen on {}.</p>", escape(&report.chosen_by));
     if report.candidates.iter().any(|c| c.joint.is_some()) {
         out.push_str("<table id=\"candidates\"><tr><th>candidate plan</th><th>cost</th><th>utility, gains summed</th><th>utility, options together</th><th>how</th></tr>\n");

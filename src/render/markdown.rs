@@ -83,6 +83,9 @@ pub fn plan_markdown(report: &PlanReport) -> String {
         a.today.unfairness,
         today_source(a)
     );
+    if let Some(sentence) = super::today_by_attribute(a) {
+        let _ = writeln!(out, "{sentence}.\n");
+    }
     let _ = writeln!(out, "## Options considered\n");
     let _ = writeln!(out, "Mean and {level}% interval; * marks a change that differs from zero. Utility = {} x accuracy gain + {} x unfairness reduction.\n", a.costs.weigh_accuracy, a.costs.weigh_fairness);
     let _ = writeln!(out, "| rank | option | cost ({currency}) | accuracy gain | unfairness reduction | utility per 1,000 | notes |");

@@ -274,6 +274,34 @@ fn percent(p: f64) -> String {
     }
 }
 
+/// Today's unfairness by the further protected attributes, in a sentence (`None` with one):
+/// "By the other protected attributes today (EOD; the options are valued on 'sex' alone): race,
+/// 'Other' beside 'White' 0.2885; ...".
+fn today_by_attribute(a: &crate::report::AppraisalReport) -> Option<String> {
+    if a.today_by_attribute.is_empty() {
+        return None;
+    }
+    let items: Vec<String> = a
+        .today_by_attribute
+        .iter()
+        .map(|t| match (&t.worst_group, t.unfairness) {
+            (Some(g), Some(u)) => format!("{}, '{g}' beside '{}' {u:.4}", t.attribute, t.reference),
+            _ => format!("{}, not measured", t.attribute),
+        })
+        .collect();
+    Some(format!(
+        "By the other protected attributes today ({}{}; the options are valued on '{}' alone): {}",
+        a.costs.fairness.to_uppercase(),
+        if a.today.source == "curve" {
+            ", from the trials at the largest size measured"
+        } else {
+            ""
+        },
+        a.inputs.protected,
+        items.join("; ")
+    ))
+}
+
 /// Where today's figures come from, in words: the trial design stated once for every report.
 fn today_source(a: &crate::report::AppraisalReport) -> String {
     if a.today.source == "curve" {

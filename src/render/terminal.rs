@@ -546,6 +546,9 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
         report.reference.name,
         today_source(report)
     ));
+    if let Some(sentence) = super::today_by_attribute(report) {
+        d.text(sentence);
+    }
     d.text(format!(
         "utility = {} x accuracy gain + {} x unfairness reduction; costs in {}; gains per 1,000 {}",
         c.weigh_accuracy, c.weigh_fairness, c.currency, c.currency

@@ -28,6 +28,10 @@ pub struct AppraisalReport {
     pub reference: ReferenceGroup,
     /// Today's model read off its learning curve at today's training rows.
     pub today: Today,
+    /// Today's unfairness by every further protected attribute and intersection, from the
+    /// same trials (the options are valued on the first attribute); absent with one.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub today_by_attribute: Vec<TodayByAttribute>,
     /// The learning-curve schedule on all rows behind the rows options.
     pub schedule: CurveSchedule,
     /// Today's learning curves (as in `curves`), read up to the largest rows purchase.
@@ -141,6 +145,20 @@ pub struct Today {
     pub worst_group: String,
     /// Each group's predicted selection rate, in the order of `groups`.
     pub selection_rates: Vec<f64>,
+}
+
+/// Today's unfairness by a further protected attribute (or intersection), on the fairness
+/// measure the utility counts.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TodayByAttribute {
+    /// The attribute, or "a × b".
+    pub attribute: String,
+    /// Its reference group.
+    pub reference: String,
+    /// The unfairness of its worst compared group; `null` where no group's is defined.
+    pub unfairness: Option<f64>,
+    /// That group.
+    pub worst_group: Option<String>,
 }
 
 /// A change estimated from curves: the fitted value, a bootstrap interval, and the bootstrap's

@@ -278,21 +278,36 @@ fn a_project_file_lists_the_protected_attributes() {
     );
     // The commands that assess the first attribute only say so.
     let demo = super::demo_folder();
-    let out = acquest()
-        .current_dir(demo.path())
-        .args([
-            "appraise",
-            "--quiet",
-            "--protected",
-            "disability,region",
-            "--json",
-            "-",
-        ])
-        .output()
-        .unwrap();
-    let appraisal: acquest::report::AppraisalReport = serde_json::from_slice(&out.stdout).unwrap();
+    let by_disability_and_region = |command: &str| {
+        let out = acquest()
+            .current_dir(demo.path())
+            .args([command, "--quiet", "--protected", "disability,region"])
+            .args(["--json", "-"])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        out.stdout
+    };
+    let appraisal: acquest::report::AppraisalReport =
+        serde_json::from_slice(&by_disability_and_region("appraise")).unwrap();
     assert!(appraisal
         .warnings
         .iter()
         .any(|w| w.contains("assesses 'disability' (the first) only")));
+    // Today by region is the baseline's: the same trials, the same worst group and figure.
+    let baseline: BaselineReport =
+        serde_json::from_slice(&by_disability_and_region("baseline")).unwrap();
+    let worst = baseline.attributes[0]
+        .worst
+        .equal_opportunity_difference
+        .as_ref()
+        .unwrap();
+    let today = &appraisal.today_by_attribute[0];
+    assert_eq!(today.attribute, "region");
+    assert_eq!(today.worst_group.as_deref(), Some(worst.group.as_str()));
+    assert!((today.unfairness.unwrap() - worst.unfairness).abs() < 1e-12);
 }
