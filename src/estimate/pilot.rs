@@ -460,6 +460,25 @@ fn pilot_summary(
         .zip(&o)
         .filter_map(|(a, b)| Some(unfairness(a)? - unfairness(b)?))
         .collect();
+    let by_attribute = data
+        .more_attributes
+        .iter()
+        .enumerate()
+        .map(|(k, attribute)| {
+            let unfairness = |t: &TrialOutcome| {
+                fairness::worst_of_counts(scorer.measure, &t.more_counts[k], attribute.reference)
+            };
+            let differences: Vec<f64> = w
+                .iter()
+                .zip(&o)
+                .filter_map(|(a, b)| Some(unfairness(a)? - unfairness(b)?))
+                .collect();
+            AttributeDifference {
+                attribute: attribute.name.clone(),
+                difference: estimate(&differences, confidence, test_to_train, Some(0.0)),
+            }
+        })
+        .collect();
     let sizes = with.first().map_or(0, Vec::len);
     let per_size: Vec<Vec<f64>> = (0..sizes)
         .map(|i| {
@@ -476,6 +495,7 @@ fn pilot_summary(
         mix_p_value: mix.map(|m| m.2),
         accuracy_difference: estimate(&accuracy_diff, confidence, test_to_train, Some(0.0)),
         unfairness_difference: estimate(&unfair_diff, confidence, test_to_train, Some(0.0)),
+        unfairness_difference_by_attribute: by_attribute,
         size_anova_p: metrics::one_way_anova(&per_size).map(|a| a.1),
         extrapolated,
         growth,

@@ -633,6 +633,17 @@ fn appraisal_body(report: &AppraisalReport) -> Document {
             difference(p.accuracy_difference.as_ref(), ""),
             difference(p.unfairness_difference.as_ref(), "; negative is fairer")
         ));
+        if !p.unfairness_difference_by_attribute.is_empty() {
+            let by: Vec<String> = p
+                .unfairness_difference_by_attribute
+                .iter()
+                .map(|a| format!("{} {}", a.attribute, difference(a.difference.as_ref(), "")))
+                .collect();
+            d.note(format!(
+                "unfairness by the other protected attributes, the same way (not in the estimate): {}",
+                by.join("; ")
+            ));
+        }
         if let Some(direct) = &o.direct {
             d.note(format!(
 "at full size, anchored on today's curve: accuracy {}, unfairness reduction {}\n  the pilot curve extrapolated directly, for comparison: accuracy {}, unfairness reduction {}", change_cell(&o.estimate.accuracy_gain, confidence),

@@ -281,6 +281,10 @@ pub struct PilotSummary {
     /// Unfairness with the feature minus without, on the pilot at its full size (paired and
     /// corrected as `accuracy_difference`).
     pub unfairness_difference: Option<Estimate>,
+    /// The same by every further protected attribute and intersection (the option's estimate
+    /// counts the first alone); absent with one.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub unfairness_difference_by_attribute: Vec<AttributeDifference>,
     /// One-way ANOVA p of the accuracy difference across the pilot's sizes (does the gain
     /// depend on the number of rows?).
     pub size_anova_p: Option<f64>,
@@ -311,6 +315,16 @@ pub struct PilotCurves {
     pub disparity_without: Vec<DisparityCurve>,
     /// The same with it.
     pub disparity_with: Vec<DisparityCurve>,
+}
+
+/// A pilot's paired unfairness difference by one further protected attribute.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct AttributeDifference {
+    /// The attribute, or "a × b".
+    pub attribute: String,
+    /// Unfairness of its worst compared group with the feature minus without; `null` where the
+    /// pilot cannot measure it.
+    pub difference: Option<Estimate>,
 }
 
 /// What a bigger pilot of a feature would be expected to tell: the headline's interval at

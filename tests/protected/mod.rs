@@ -298,6 +298,20 @@ fn a_project_file_lists_the_protected_attributes() {
         .warnings
         .iter()
         .any(|w| w.contains("assesses 'disability' (the first) only")));
+    // Each pilot's paired unfairness difference is also given by region, over every repeat.
+    for option in appraisal.options.iter().filter(|o| o.pilot.is_some()) {
+        let by = &option
+            .pilot
+            .as_ref()
+            .unwrap()
+            .unfairness_difference_by_attribute;
+        assert_eq!(by.len(), 1);
+        assert_eq!(by[0].attribute, "region");
+        assert_eq!(
+            by[0].difference.as_ref().unwrap().trials,
+            appraisal.inputs.repeats
+        );
+    }
     // Today by region is the baseline's: the same trials, the same worst group and figure.
     let baseline: BaselineReport =
         serde_json::from_slice(&by_disability_and_region("baseline")).unwrap();
