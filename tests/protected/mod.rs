@@ -165,7 +165,7 @@ fn german_credit_by_sex_from_codes_and_age_from_a_threshold_at_once() {
     let mut args = super::german_flags(data);
     args.extend([
         "--protected",
-        "personal,age",
+        "personal,age,foreign",
         "--groups",
         "personal:female=A92,A95;male=*",
         "--groups",
@@ -198,6 +198,12 @@ fn german_credit_by_sex_from_codes_and_age_from_a_threshold_at_once() {
     );
     assert_eq!(age.reference.name, "older");
     assert_eq!(age.reference.rule, "named with --reference");
+    // Foreign worker (field 20): A201 yes 963 rows (667 good), A202 no 37 (33), by awk; each
+    // value a group (PROVENANCE.md: A201 yes, A202 no).
+    assert_eq!(
+        cells(section(&report, "foreign")),
+        [("A201".into(), 963, 667), ("A202".into(), 37, 33)]
+    );
     let mut both = cells(section(&report, "personal × age"));
     both.sort();
     assert_eq!(
@@ -209,7 +215,9 @@ fn german_credit_by_sex_from_codes_and_age_from_a_threshold_at_once() {
             ("male & young".into(), 85, 52),
         ]
     );
-    // Three attributes' figures from one set of trials, byte-identical on two threads.
+    // Three attributes and their three intersections from one set of trials, byte-identical
+    // on two threads.
+    assert_eq!(report.attributes.len(), 2 + 3);
     let (_, two) = baseline_report(&args, Some(2));
     assert_eq!(one, two, "the thread count changed the report");
 }
