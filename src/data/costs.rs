@@ -493,41 +493,10 @@ pub fn check_options(
                 }
                 let filter = match &o.column {
                     None => None,
-                    Some(text) => {
-                        let (column, value) = text
-                            .split_once('=')
-                            .map(|(c, v)| (c.trim().to_string(), v.trim().to_string()))
-                            .ok_or_else(|| {
-                                error(
-                                    line,
-                                    "column",
-                                    format!(
-                                        "'{text}' should read column=value, e.g. {protected}=value"
-                                    ),
-                                )
-                            })?;
-                        if column != protected {
-                            return Err(error(
-                                line,
-                                "column",
-                                format!("rows can be targeted at a group of the protected column '{protected}', not at '{column}'"),
-                            ));
-                        }
-                        if !data.group_list.iter().any(|g| g.name == value) {
-                            return Err(error(
-                                line,
-                                "column",
-                                format!(
-                                    "'{column}' has no group '{value}'{}",
-                                    nearest_hint(
-                                        &value,
-                                        data.group_list.iter().map(|g| g.name.as_str())
-                                    )
-                                ),
-                            ));
-                        }
-                        Some((column, value))
-                    }
+                    Some(text) => Some(
+                        rows_target(data, protected, text)
+                            .map_err(|reason| error(line, "column", reason))?,
+                    ),
                 };
                 Acquisition::Rows { filter }
             }
@@ -552,6 +521,86 @@ pub fn check_options(
         });
     }
     Ok(options)
+}
+
+/// The group a rows option targets, from the sheet's `column` (`text`): `column=value` of a
+/// protected attribute (`protected` the first, or a further one), or `a=x&b=y`, a cell of the
+/// intersection of two (formed with `--intersections`; the parts in any order). Returns the
+/// attribute (or intersection) and the group as the data name them, or why not.
+fn rows_target(
+    data: &Dataset,
+    protected: &str,
+    text: &str,
+) -> std::result::Result<(String, String), String> {
+    let mut parts = Vec::new();
+    for part in text.split('&') {
+        let (column, value) = part
+            .split_once('=')
+            .map(|(c, v)| (c.trim().to_string(), v.trim().to_string()))
+            .ok_or_else(|| {
+                format!("'{text}' should read column=value, e.g. {protected}=value, or a=x&b=y for a cell of two")
+            })?;
+        parts.push((column, value));
+    }
+    // The attributes in the order --protected gives them.
+    let names: Vec<&str> = std::iter::once(data.protected.as_str())
+        .chain(
+            data.more_attributes
+                .iter()
+                .map(|a| a.name.as_str())
+                .filter(|n| !n.contains(" × ")),
+        )
+        .collect();
+    for (column, _) in &parts {
+        if !names.contains(&column.as_str()) {
+            return Err(format!(
+                "rows can be targeted at a group of a protected attribute ({}), not at '{column}'",
+                names.join(", ")
+            ));
+        }
+    }
+    parts.sort_by_key(|(column, _)| names.iter().position(|n| n == column));
+    let (column, value) = match parts.as_slice() {
+        [one] => one.clone(),
+        [a, b] if a.0 != b.0 => (format!("{} × {}", a.0, b.0), format!("{} & {}", a.1, b.1)),
+        _ => {
+            return Err(format!(
+                "'{text}' names a cell of more than two attributes, or one attribute twice: a rows option targets a group, or a cell of two"
+            ))
+        }
+    };
+    let (groups, too_small): (Vec<&str>, &[(String, usize, usize)]) = if column == data.protected {
+        (
+            data.group_list.iter().map(|g| g.name.as_str()).collect(),
+            &[],
+        )
+    } else {
+        match data.more_attributes.iter().find(|a| a.name == column) {
+            Some(a) => (
+                a.group_list.iter().map(|g| g.name.as_str()).collect(),
+                &a.too_small,
+            ),
+            None => {
+                return Err(format!(
+                "'{text}' is a cell of {column}: add --intersections so that its cells are formed"
+            ))
+            }
+        }
+    };
+    if groups.contains(&value.as_str()) {
+        return Ok((column, value));
+    }
+    if let Some((_, rows, favourable)) = too_small.iter().find(|c| c.0 == value) {
+        return Err(format!(
+            "the cell '{value}' of {column} has {} rows ({} favourable): too small to assess, so its rows cannot be valued",
+            thousands(*rows),
+            thousands(*favourable)
+        ));
+    }
+    Err(format!(
+        "'{column}' has no group '{value}'{}",
+        nearest_hint(&value, groups.iter().copied())
+    ))
 }
 
 /// Rows of a column that carry a value: a candidate's pilot.

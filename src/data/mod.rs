@@ -1143,6 +1143,19 @@ impl Dataset {
         })
     }
 
+    /// The rows of group `value` of the protected attribute (or intersection) `column`, as a
+    /// mark for every row; `None` where there is no such attribute or group.
+    pub fn group_rows(&self, column: &str, value: &str) -> Option<Vec<bool>> {
+        let (groups, list): (&[u32], &[Group]) = if column == self.protected {
+            (&self.groups, &self.group_list)
+        } else {
+            let a = self.more_attributes.iter().find(|a| a.name == column)?;
+            (&a.groups, &a.group_list)
+        };
+        let g = list.iter().position(|x| x.name == value)? as u32;
+        Some(groups.iter().map(|&x| x == g).collect())
+    }
+
     /// Rows used.
     pub fn rows(&self) -> usize {
         self.labels.len()

@@ -103,14 +103,14 @@ pub enum Sizes<'a> {
     /// A learning curve: the training part in a nested order ([`nested_order`]), one encoding
     /// fitted on all of it, and a model per size fitted on the first rows (warm-started from
     /// the size before), all measured on the repeat's test part; a size that takes the whole
-    /// training part is fitted as [`Sizes::Whole`] fits it, so it is the same trial. With `vary_group`, only that
-    /// group's training rows are ordered and counted by the sizes; every other training row is
-    /// always used.
+    /// training part is fitted as [`Sizes::Whole`] fits it, so it is the same trial. With `vary`, only
+    /// the training rows it marks (a group's, or a cell's of two attributes) are ordered and
+    /// counted by the sizes; every other training row is always used.
     Nested {
         /// Sizes of the part that grows.
         sizes: &'a [usize],
-        /// The only group whose training rows grow, if one.
-        vary_group: Option<u32>,
+        /// The only rows that grow, as a mark for every row of the data, if not all.
+        vary: Option<&'a [bool]>,
     },
 }
 
@@ -246,9 +246,9 @@ pub fn run(
                                 outcome
                             })
                             .collect(),
-                        Sizes::Nested { sizes, vary_group } => {
+                        Sizes::Nested { sizes, vary } => {
                             let (order, fixed_rows) =
-                                training_order(data, split.train, *vary_group, &mut rng);
+                                training_order(data, split.train, *vary, &mut rng);
                             design
                                 .arms
                                 .iter()
@@ -287,18 +287,18 @@ pub fn run(
         .collect()
 }
 
-/// The training part in the order a learning curve grows it: every row outside `vary_group`
+/// The training part in the order a learning curve grows it: every row `vary` does not mark
 /// first (always used), then the varied rows in a nested order. Returns the order and how many
 /// rows are always used.
 fn training_order(
     data: &Dataset,
     train: Vec<usize>,
-    vary_group: Option<u32>,
+    vary: Option<&[bool]>,
     rng: &mut impl rand::Rng,
 ) -> (Vec<usize>, usize) {
-    let (fixed, varied): (Vec<usize>, Vec<usize>) = match vary_group {
+    let (fixed, varied): (Vec<usize>, Vec<usize>) = match vary {
         None => (Vec::new(), train),
-        Some(g) => train.into_iter().partition(|&i| data.groups[i] != g),
+        Some(marked) => train.into_iter().partition(|&i| !marked[i]),
     };
     let mut order = fixed;
     let fixed_rows = order.len();

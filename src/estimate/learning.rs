@@ -425,7 +425,7 @@ pub fn measure_curves(
             stream: plan.stream,
             sizes: Sizes::Nested {
                 sizes: &sizes,
-                vary_group: None,
+                vary: None,
             },
         },
         arms: plan.arms.iter().map(|columns| Arm::of(columns)).collect(),

@@ -338,7 +338,7 @@ pub(super) fn measure_pilot(
                     stream,
                     sizes: Sizes::Nested {
                         sizes: &sizes,
-                        vary_group: None,
+                        vary: None,
                     },
                 },
                 arms: vec![Arm::of(&data.features), Arm::of(with_columns)],

@@ -35,11 +35,12 @@ fn rows_value(
     }
 }
 
-/// Curves in which only group `g`'s training rows grow, and the trials behind them.
+/// Curves in which only the training rows of the group `name` (the rows `marked`) grow, and
+/// the trials behind them.
 fn group_curves(
     data: &Dataset,
     settings: &Settings,
-    g: usize,
+    (name, marked): (&str, &[bool]),
     stream: Stream,
     progress: ProgressSink,
     warnings: &mut Vec<String>,
@@ -54,12 +55,8 @@ fn group_curves(
         trials,
         &mut stream_rng(trials.seed, stream, 0),
     );
-    let in_group_of = |rows: &[usize]| -> Vec<usize> {
-        rows.iter()
-            .copied()
-            .filter(|&i| data.groups[i] as usize == g)
-            .collect()
-    };
+    let in_group_of =
+        |rows: &[usize]| -> Vec<usize> { rows.iter().copied().filter(|&i| marked[i]).collect() };
     let m_today = in_group_of(&split.drawn_train).len();
     let in_group = in_group_of(&split.train);
     let m_all = in_group.len();
@@ -73,14 +70,13 @@ fn group_curves(
             warnings.push(format!(
                 "group '{}' has {} training rows: its own curve starts at a quarter of them, \
                  where its rarer label has fewer than {} rows",
-                data.group_list[g].name,
+                name,
                 crate::report::thousands(m_all),
                 learning::MIN_CELL_ROWS
             ));
             learning::anchor_sizes((m_all / 4).max(2), m_all).ok_or_else(|| {
                 Error::NotEnoughData(format!(
-                    "group '{}' is too small for a learning curve of its own",
-                    data.group_list[g].name
+                    "group '{name}' is too small for a learning curve of its own"
                 ))
             })?
         }
@@ -92,7 +88,7 @@ fn group_curves(
             stream,
             sizes: Sizes::Nested {
                 sizes: &sizes,
-                vary_group: Some(g as u32),
+                vary: Some(marked),
             },
         },
         arms: vec![Arm::of(&data.features)],
@@ -214,21 +210,22 @@ pub(super) fn group_rows_option(
     warnings: &mut Vec<String>,
 ) -> Result<(OptionValue, OptionReadings)> {
     let data = v.data;
-    let g = data
-        .group_list
-        .iter()
-        .position(|x| x.name == value)
-        .unwrap_or(0);
+    let marked = data.group_rows(column, value).ok_or_else(|| {
+        Error::Internal(format!(
+            "option '{}': no group {column}={value}",
+            option.name
+        ))
+    })?;
     let curves = group_curves(
         data,
         v.settings,
-        g,
+        (value, &marked),
         Stream::GroupCurves(index),
         progress,
         warnings,
     )?;
     let (group_curves, group_largest, m_now) = (&curves.fitted, curves.largest, curves.today);
-    let group_rows = data.groups.iter().filter(|&&x| x as usize == g).count() as f64;
+    let group_rows = marked.iter().filter(|&&m| m).count() as f64;
     let now_g = group_curves.read(m_now);
     let most = option.row_steps().last().copied().unwrap_or(0) as f64;
     let readings = OptionReadings {
@@ -255,7 +252,11 @@ pub(super) fn group_rows_option(
         })
         .collect();
     let confidence = v.settings.trials.confidence;
-    let target = Some(format!("{column}={value}"));
+    // A cell of two attributes reads "sex=Female & race=Black".
+    let target = Some(match (column.split_once(" × "), value.split_once(" & ")) {
+        (Some((a, b)), Some((x, y))) => format!("{a}={x} & {b}={y}"),
+        _ => format!("{column}={value}"),
+    });
     let mut value = rows_value(option, target, steps, confidence);
     value.first_parts = super::growth::first_parts(
         option,

@@ -420,6 +420,39 @@ fn cases(demo: &Path) -> Vec<Case> {
             "--reference: 'nowhere' is not a protected attribute",
         ),
         case(
+            "a rows option on a cell whose intersection was not formed",
+            Folder::Demo,
+            vec![(
+                "costs.csv",
+                format!("{SHEET_HEADER}east,rows,disability=declared&region=East,10,0,100,,no,\n")
+                    .into_bytes(),
+            )],
+            &["appraise", "--protected", "disability,region"],
+            "'disability=declared&region=East' is a cell of disability × region: add --intersections",
+        ),
+        case(
+            "a rows option on a cell of a column that is not protected",
+            Folder::Demo,
+            vec![(
+                "costs.csv",
+                format!("{SHEET_HEADER}east,rows,disability=declared&prior_course=yes,10,0,100,,no,\n")
+                    .into_bytes(),
+            )],
+            &["appraise", "--protected", "disability,region", "--intersections"],
+            "rows can be targeted at a group of a protected attribute (disability, region), not at 'prior_course'",
+        ),
+        case(
+            "a rows option on a cell of a group that does not exist",
+            Folder::Demo,
+            vec![(
+                "costs.csv",
+                format!("{SHEET_HEADER}east,rows,disability=declared&region=Eest,10,0,100,,no,\n")
+                    .into_bytes(),
+            )],
+            &["appraise", "--protected", "disability,region", "--intersections"],
+            "'disability × region' has no group 'declared & Eest'",
+        ),
+        case(
             "a narrowing check at a size the appraisal does not predict",
             Folder::Demo,
             vec![],
@@ -489,7 +522,7 @@ fn cases(demo: &Path) -> Vec<Case> {
         sheet(
             "rows of a group of another column",
             "a,rows,region=North,1,0,10,1,no,\n",
-            "protected column",
+            "rows can be targeted at a group of a protected attribute (disability), not at 'region'",
         ),
         sheet(
             "two options of one name",

@@ -287,21 +287,15 @@ fn a_project_file_lists_the_protected_attributes() {
     // The commands that assess the first attribute only say so.
     let demo = super::demo_folder();
     let by_disability_and_region = |command: &str| {
-        let out = acquest()
-            .current_dir(demo.path())
-            .args([command, "--quiet", "--protected", "disability,region"])
-            .args(["--json", "-"])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        out.stdout
+        super::json_of(
+            acquest()
+                .current_dir(demo.path())
+                .args([command, "--quiet", "--protected", "disability,region"])
+                .args(["--json", "-"]),
+        )
     };
     let appraisal: acquest::report::AppraisalReport =
-        serde_json::from_slice(&by_disability_and_region("appraise")).unwrap();
+        serde_json::from_value(by_disability_and_region("appraise")).unwrap();
     assert!(appraisal
         .warnings
         .iter()
@@ -322,7 +316,7 @@ fn a_project_file_lists_the_protected_attributes() {
     }
     // Today by region is the baseline's: the same trials, the same worst group and figure.
     let baseline: BaselineReport =
-        serde_json::from_slice(&by_disability_and_region("baseline")).unwrap();
+        serde_json::from_value(by_disability_and_region("baseline")).unwrap();
     let worst = baseline.attributes[0]
         .worst
         .equal_opportunity_difference
@@ -332,4 +326,83 @@ fn a_project_file_lists_the_protected_attributes() {
     assert_eq!(today.attribute, "region");
     assert_eq!(today.worst_group.as_deref(), Some(worst.group.as_str()));
     assert!((today.unfairness.unwrap() - worst.unfairness).abs() < 1e-12);
+}
+
+/// A rows option on a cell of two attributes (the demo's declared applicants in the East, 134
+/// rows, 48 favourable, by awk on the demo's file): its own curves, in which only that cell's
+/// rows grow, valued at every step and offered to the plan; the parts of the cell may be
+/// written in either order.
+#[test]
+fn a_rows_option_on_a_cell_of_two_attributes_is_valued_and_planned() {
+    let demo = super::demo_folder();
+    let sheet = std::fs::read_to_string(demo.path().join("costs.csv")).unwrap();
+    let plan = |cell: &str| {
+        std::fs::write(
+            demo.path().join("cells.csv"),
+            format!(
+                "{sheet}outreach-east,rows,{cell},10.00,500,300,100,yes,Outreach in the East\n"
+            ),
+        )
+        .unwrap();
+        let report = super::json_of(
+            acquest()
+                .current_dir(demo.path())
+                .args([
+                    "plan",
+                    "--quiet",
+                    "--no-pilot-advice",
+                    "--costs",
+                    "cells.csv",
+                ])
+                .args(["--protected", "disability,region", "--intersections"])
+                .args(["--json", "-"]),
+        );
+        serde_json::from_value::<acquest::report::PlanReport>(report).unwrap()
+    };
+    let report = plan("disability=declared&region=East");
+    // The cell itself, as the baseline counts it.
+    let baseline: BaselineReport = serde_json::from_value(super::json_of(
+        acquest()
+            .current_dir(demo.path())
+            .args(["baseline", "--quiet", "--protected", "disability,region"])
+            .args(["--intersections", "--json", "-"]),
+    ))
+    .unwrap();
+    let cell = section(&baseline, "disability × region")
+        .groups
+        .iter()
+        .find(|g| g.name == "declared & East")
+        .map(|g| (g.rows, g.favourable_labels));
+    assert_eq!(cell, Some((134, 48)));
+    let option = report
+        .appraisal
+        .options
+        .iter()
+        .find(|o| o.name == "outreach-east")
+        .unwrap();
+    assert_eq!(option.kind, acquest::report::OptionKind::GroupRows);
+    assert_eq!(
+        option.target.as_deref(),
+        Some("disability=declared & region=East")
+    );
+    let steps: Vec<usize> = option.steps.iter().map(|s| s.new_rows).collect();
+    assert_eq!(steps, [100, 200, 300]);
+    assert!(option.estimate.accuracy_gain.low.is_some());
+    // Ranked with the others and offered to the plan (the demo's curves are flat, so a plan
+    // does not buy it: its gain is no change).
+    assert!(report
+        .appraisal
+        .ranking
+        .iter()
+        .any(|r| r.name == "outreach-east"));
+    assert_eq!(option.estimate.cost, 500.0 + 10.0 * 300.0);
+    // The parts in the other order are the same cell.
+    let again = plan("region=East&disability=declared");
+    let same = again
+        .appraisal
+        .options
+        .iter()
+        .find(|o| o.name == "outreach-east")
+        .unwrap();
+    assert_eq!(same.estimate, option.estimate);
 }
