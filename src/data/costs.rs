@@ -523,11 +523,12 @@ pub fn check_options(
     Ok(options)
 }
 
-/// The group a rows option targets, from the sheet's `column` (`text`): `column=value` of a
+/// The group a rows option (or the backtest's `--hold-group`) targets, from the sheet's
+/// `column` (`text`): `column=value` of a
 /// protected attribute (`protected` the first, or a further one), or `a=x&b=y`, a cell of the
 /// intersection of two (formed with `--intersections`; the parts in any order). Returns the
 /// attribute (or intersection) and the group as the data name them, or why not.
-fn rows_target(
+pub fn rows_target(
     data: &Dataset,
     protected: &str,
     text: &str,

@@ -149,8 +149,7 @@ fn round_options(
     data: &Dataset,
     split: &RoundSplit,
     settings: &BacktestSettings,
-    protected: &str,
-    group: Option<usize>,
+    group: Option<&(String, String)>,
 ) -> Vec<CostOption> {
     let option = |name: String, acquisition, max_rows| CostOption {
         name,
@@ -171,17 +170,17 @@ fn round_options(
             Some(split.held.len()),
         ));
     }
-    if let Some(g) = group {
-        let name = &data.group_list[g].name;
+    if let Some((column, name)) = group {
+        let marked = data.group_rows(column, name).unwrap_or_default();
         let count = split
             .held
             .iter()
-            .filter(|&&i| data.groups[i] as usize == g)
+            .filter(|&&i| marked.get(i) == Some(&true))
             .count();
         options.push(option(
             format!("held-back rows of {name}"),
             Acquisition::Rows {
-                filter: Some((protected.to_string(), name.clone())),
+                filter: Some((column.clone(), name.clone())),
             },
             Some(count),
         ));
@@ -259,12 +258,15 @@ pub fn realised_training(data: &Dataset, option: &CostOption, rows: &RealisedSpl
     match &option.acquisition {
         Acquisition::Rows { filter: None } => train.extend_from_slice(&rows.held_train),
         Acquisition::Rows {
-            filter: Some((_, name)),
-        } => train.extend(
-            rows.held_train
-                .iter()
-                .filter(|&&i| data.group_list[data.groups[i] as usize].name == *name),
-        ),
+            filter: Some((column, name)),
+        } => {
+            let marked = data.group_rows(column, name).unwrap_or_default();
+            train.extend(
+                rows.held_train
+                    .iter()
+                    .filter(|&&i| marked.get(i) == Some(&true)),
+            );
+        }
         Acquisition::Feature { .. } => {}
     }
     train.sort_unstable();
@@ -304,18 +306,24 @@ pub fn run(
             "holds every feature back; at least one must stay for today's model",
         ));
     }
+    // The held group: a group of the first protected attribute by name, or as a rows option
+    // names one (`race=Black`, or a cell `sex=Female&race=Black`).
     let group = match &backtest.hold_group {
-        Some(name) => Some(
-            data.group_list
-                .iter()
-                .position(|g| &g.name == name)
-                .ok_or_else(|| Error::UnknownValue {
+        Some(text) if text.contains('=') => Some(
+            crate::data::costs::rows_target(&data, &data.protected, text)
+                .map_err(|reason| Error::setting("--hold-group", reason))?,
+        ),
+        Some(name) => {
+            if !data.group_list.iter().any(|g| &g.name == name) {
+                return Err(Error::UnknownValue {
                     flag: "--hold-group".into(),
                     column: data.protected.clone(),
                     value: name.clone(),
                     hint: nearest_hint(name, data.group_list.iter().map(|g| g.name.as_str())),
-                })?,
-        ),
+                });
+            }
+            Some((data.protected.clone(), name.clone()))
+        }
         None => None,
     };
     let appraisal = AppraisalSettings {
@@ -331,7 +339,14 @@ pub fn run(
     let mut rounds = Vec::new();
     for round in 0..backtest.rounds {
         rounds.push(run_round(
-            &data, settings, backtest, &appraisal, &inputs, group, round, progress,
+            &data,
+            settings,
+            backtest,
+            &appraisal,
+            &inputs,
+            group.as_ref(),
+            round,
+            progress,
         )?);
     }
     let test_fraction = settings.trials.test_fraction;
@@ -390,14 +405,14 @@ fn run_round(
     backtest: &BacktestSettings,
     appraisal: &AppraisalSettings,
     inputs: &Inputs,
-    group: Option<usize>,
+    group: Option<&(String, String)>,
     round: usize,
     progress: ProgressSink,
 ) -> Result<RoundRecord> {
     let trials = &settings.trials;
     let split = split_round(data, backtest, trials.seed, round);
     let reduced = reduced_dataset(data, &split, &backtest.hold_features);
-    let options = round_options(data, &split, backtest, &data.protected, group);
+    let options = round_options(data, &split, backtest, group);
     let (report, appraiser) = appraise::appraise_dataset(
         AppraisalInput {
             data: reduced.clone(),
@@ -1202,7 +1217,12 @@ mod tests {
     fn realised_runs_add_exactly_the_held_rows() {
         let data = small();
         let split = split_round(&data, &settings(), 9, 0);
-        let options = round_options(&data, &split, &settings(), "g", Some(1));
+        let options = round_options(
+            &data,
+            &split,
+            &settings(),
+            Some(&("g".to_string(), "b".to_string())),
+        );
         assert_eq!(options.len(), 3);
         for repeat in 0..4 {
             let rows = realised_split(&data, &split, 0.3, 9, 0, repeat);

@@ -406,3 +406,30 @@ fn a_rows_option_on_a_cell_of_two_attributes_is_valued_and_planned() {
         .unwrap();
     assert_eq!(same.estimate, option.estimate);
 }
+
+/// The backtest holds back the rows of a cell of two attributes and buys them back for real:
+/// the option's rows are the held rows of that cell (counted here from the demo's file).
+#[test]
+fn the_backtest_holds_back_the_rows_of_a_cell() {
+    let demo = super::demo_folder();
+    let report: acquest::report::BacktestReport = serde_json::from_value(super::json_of(
+        acquest()
+            .current_dir(demo.path())
+            .args(["backtest", "--quiet", "--rounds", "1", "--hold-rows", "0.4"])
+            .args(["--protected", "disability,region", "--intersections"])
+            .args(["--hold-group", "region=East&disability=declared"])
+            .args(["--json", "-"]),
+    ))
+    .unwrap();
+    let round = &report.rounds[0];
+    let cell = round
+        .options
+        .iter()
+        .find(|o| o.option == "held-back rows of declared & East")
+        .expect("the cell's option");
+    assert_eq!(cell.kind, acquest::report::OptionKind::GroupRows);
+    // 134 rows of the cell, 40% of them held within every (disability group, label) cell of
+    // the split: between a third and a half of them.
+    assert!((40..=67).contains(&cell.rows), "{} held rows", cell.rows);
+    assert!(cell.quantities[0].realised.mean.is_finite());
+}
