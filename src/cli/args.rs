@@ -253,8 +253,8 @@ pub(super) struct DataArgs {
     /// such as '>=10' for a numeric target.
     #[arg(long, value_name = "VALUE")]
     pub(super) favourable: Option<String>,
-    /// The protected attribute column, or several comma-separated (the first is the one every
-    /// command assesses; the baseline reports each).
+    /// The protected attribute column, or several comma-separated (the first is the one the
+    /// options' gains and the plan are read on; baseline and curves report each).
     #[arg(long, value_name = "COLUMNS")]
     pub(super) protected: Option<String>,
     /// Reference group [default: the group with the highest favourable rate in the labels];
@@ -278,7 +278,7 @@ pub(super) struct DataArgs {
     /// Read these columns as categories even if their values look like numbers.
     #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
     pub(super) categorical: Option<Vec<String>>,
-    /// Let the model see the protected attribute.
+    /// Let the model see the protected attributes.
     #[arg(long)]
     pub(super) use_protected: bool,
     /// Project file with default settings [default: ./acquest.toml when present].
