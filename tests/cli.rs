@@ -359,16 +359,8 @@ fn same_seed_gives_byte_identical_json_on_one_and_two_threads() {
     };
     let data = data.to_str().unwrap();
     for model in ["logistic", "tree"] {
-        let args = [
-            "--data",
-            data,
-            "--no-header",
-            "--columns",
-            GERMAN_COLUMNS,
-            "--target",
-            "credit",
-            "--favourable",
-            "1",
+        let mut args = german_flags(data);
+        args.extend([
             "--protected",
             "personal",
             "--groups",
@@ -379,7 +371,7 @@ fn same_seed_gives_byte_identical_json_on_one_and_two_threads() {
             "6",
             "--seed",
             "99",
-        ];
+        ]);
         let (_, one) = baseline_report(&args, Some(1));
         let (_, two) = baseline_report(&args, Some(2));
         let (_, again) = baseline_report(&args, Some(2));

@@ -570,24 +570,12 @@ pub fn rows_target(
             ))
         }
     };
-    let (groups, too_small): (Vec<&str>, &[(String, usize, usize)]) = if column == data.protected {
-        (
-            data.group_list.iter().map(|g| g.name.as_str()).collect(),
-            &[],
-        )
-    } else {
-        match data.more_attributes.iter().find(|a| a.name == column) {
-            Some(a) => (
-                a.group_list.iter().map(|g| g.name.as_str()).collect(),
-                &a.too_small,
-            ),
-            None => {
-                return Err(format!(
-                "'{text}' is a cell of {column}: add --intersections so that its cells are formed"
-            ))
-            }
-        }
+    let Some((_, list, too_small)) = data.attribute_groups(&column) else {
+        return Err(format!(
+            "'{text}' is a cell of {column}: add --intersections so that its cells are formed"
+        ));
     };
+    let groups: Vec<&str> = list.iter().map(|g| g.name.as_str()).collect();
     if groups.contains(&value.as_str()) {
         return Ok((column, value));
     }

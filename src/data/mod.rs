@@ -772,6 +772,10 @@ pub struct Group {
     pub definition: String,
 }
 
+/// An attribute's groups as [`Dataset::attribute_groups`] gives them: every row's group, the
+/// groups, and the cells too small to assess (name, rows, favourable labels).
+pub type AttributeGroups<'a> = (&'a [u32], &'a [Group], &'a [(String, usize, usize)]);
+
 /// A protected attribute (or the intersection of two) with its groups, for every row used.
 #[derive(Debug, Clone)]
 pub struct Attribute {
@@ -1146,14 +1150,20 @@ impl Dataset {
     /// The rows of group `value` of the protected attribute (or intersection) `column`, as a
     /// mark for every row; `None` where there is no such attribute or group.
     pub fn group_rows(&self, column: &str, value: &str) -> Option<Vec<bool>> {
-        let (groups, list): (&[u32], &[Group]) = if column == self.protected {
-            (&self.groups, &self.group_list)
-        } else {
-            let a = self.more_attributes.iter().find(|a| a.name == column)?;
-            (&a.groups, &a.group_list)
-        };
+        let (groups, list, _) = self.attribute_groups(column)?;
         let g = list.iter().position(|x| x.name == value)? as u32;
         Some(groups.iter().map(|&x| x == g).collect())
+    }
+
+    /// The groups of the protected attribute (or intersection) `column`: every row's group,
+    /// the groups, and the cells too small to assess (none but for an intersection); `None`
+    /// where no attribute has that name.
+    pub fn attribute_groups(&self, column: &str) -> Option<AttributeGroups<'_>> {
+        if column == self.protected {
+            return Some((&self.groups, &self.group_list, &[]));
+        }
+        let a = self.more_attributes.iter().find(|a| a.name == column)?;
+        Some((&a.groups, &a.group_list, &a.too_small))
     }
 
     /// Rows used.

@@ -62,9 +62,13 @@ impl TrialOutcome {
     /// counts in place of the first attribute's.
     pub fn for_attribute(&self, k: usize) -> TrialOutcome {
         TrialOutcome {
+            accuracy: self.accuracy,
+            balanced_accuracy: self.balanced_accuracy,
+            area_under_curve: self.area_under_curve,
             counts: self.more_counts[k].clone(),
             more_counts: Vec::new(),
-            ..self.clone()
+            train_rows: self.train_rows,
+            test_rows: self.test_rows,
         }
     }
 }
